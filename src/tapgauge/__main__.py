@@ -1,0 +1,3 @@
+from tapgauge.cli import run
+
+run()

@@ -1,0 +1,149 @@
+"""Command line: parse options, run the pipeline, pick a writer, return the exit code.
+
+Exit codes: 0 nothing at or above the fail level; 1 findings at or above it;
+2 usage or input error (the other files are still checked and reported).
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+from typing import Annotated, Optional
+
+import typer
+from rich.console import Console
+from rich.table import Table
+
+from tapgauge import __version__
+from tapgauge.config import load_config
+from tapgauge.device import parse_density, parse_ppi
+from tapgauge.model import DeviceHints, InputError, Severity
+from tapgauge.pipeline import run_check
+from tapgauge.report import WRITERS, writer_for
+from tapgauge.report.output import write_atomic
+from tapgauge.report.records import EXIT_ERROR, build_report
+from tapgauge.rulesets import DEFAULT_RULESETS, builtin_rulesets, select_rulesets
+
+app = typer.Typer(
+    add_completion=False,
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+    help="Check touch targets on mobile app screens: size and spacing in dp/pt and mm.",
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
+
+
+def _err(message: str) -> None:
+    Console(stderr=True, highlight=False, soft_wrap=True).print(f"tapgauge: {message}", markup=False)
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"tapgauge {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _root(
+    version: Annotated[Optional[bool], typer.Option("--version", callback=_version, is_eager=True,
+                                                     help="Print the version and exit.")] = None,
+) -> None:
+    """tapgauge: touch targets measured against published minimums."""
+
+
+@app.command()
+def check(
+    paths: Annotated[list[Path], typer.Argument(help="Screen files or folders (searched recursively).")],
+    rules: Annotated[Optional[str], typer.Option(
+        "--rules", "-r", help="Comma-separated rule-set ids and/or paths to TOML rule files. "
+        f"Default: {','.join(DEFAULT_RULESETS)} (each applies to its own platform).")] = None,
+    density: Annotated[Optional[str], typer.Option(
+        help="Screen density in dpi, or a bucket name (mdpi, hdpi, xhdpi, xxhdpi, xxxhdpi).")] = None,
+    ppi: Annotated[Optional[str], typer.Option(
+        help="Physical pixels per inch, one number or X,Y for the natural x and y axes; enables mm.")] = None,
+    fmt: Annotated[str, typer.Option("--format", "-f", help=f"Output format: {', '.join(WRITERS)}.")] = "table",
+    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write the report here (atomically) instead of stdout.")] = None,
+    fail_level: Annotated[Optional[str], typer.Option(
+        help="Lowest severity that fails the run: error, warning or info. Default: error.")] = None,
+    width: Annotated[Optional[int], typer.Option(help="Table width in columns (default: the terminal's, or 80).")] = None,
+) -> None:
+    """Check screens and report every touch target that is too small or too close."""
+    raise typer.Exit(_check(paths, rules, density, ppi, fmt, output, fail_level, width))
+
+
+def _check(paths: list[Path], rules: str | None, density: str | None, ppi: str | None, fmt: str,
+           output: Path | None, fail_level: str | None, width: int | None) -> int:
+    try:
+        writer = writer_for(fmt)
+        config = load_config(Path.cwd())
+        level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
+        spec = rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS)
+        chosen = select_rulesets(spec)
+        flags = DeviceHints(
+            density_dpi=parse_density(density) if density else None,
+            xdpi=parse_ppi(ppi)[0] if ppi else None,
+            ydpi=parse_ppi(ppi)[1] if ppi else None,
+            source="command line",
+        )
+    except InputError as exc:
+        _err(str(exc))
+        return EXIT_ERROR
+    except ValueError as exc:
+        _err(str(exc))
+        return EXIT_ERROR
+    result = run_check(paths, chosen, flags, config.device, announce_skips=rules is not None)
+    report = build_report(list(result.screens), list(result.errors), chosen, level)
+    for e in report["errors"]:
+        where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
+        _err(f"{where}: {e['message']}")
+    if fmt == "table" and output is None:
+        console_width = width or Console().width
+        text = writer(report, width=console_width, color=sys.stdout.isatty())
+    else:
+        text = writer(report, width=width)
+    if output is not None:
+        try:
+            write_atomic(output, text)
+        except OSError as exc:
+            _err(f"{output}: cannot write report: {exc.strerror or exc}")
+            return EXIT_ERROR
+    else:
+        sys.stdout.write(text)
+    return int(report["summary"]["exit_code"])
+
+
+@app.command("rules")
+def list_rules() -> None:
+    """List the built-in rule sets, their rules and published sources."""
+    console = Console(highlight=False)
+    for rs in builtin_rulesets().values():
+        default = " (default)" if rs.id in DEFAULT_RULESETS else ""
+        console.print(f"[bold]{rs.id}[/bold]{default}: {rs.title}", markup=True)
+        console.print(f"  platforms: {', '.join(rs.platforms)}", markup=False)
+        console.print(f"  source: {rs.source}", markup=False)
+        console.print(f"  {rs.url}", markup=False)
+        table = Table(show_edge=False, pad_edge=False, box=None, padding=(0, 2, 0, 2))
+        for col in ("rule id", "kind", "threshold", "severity"):
+            table.add_column(col)
+        for r in rs.rules:
+            threshold = ", ".join(f"{k} {v:g} {r.unit}" for k, v in r.params if isinstance(v, float))
+            extra = " + spacing exception" if dict(r.params).get("spacing_exception") else ""
+            table.add_row(r.id, r.kind, threshold + extra, r.severity.label)
+        console.print(table)
+        console.print()
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the CLI in-process and return its exit code (tests call this)."""
+    command = typer.main.get_command(app)
+    try:
+        # Standalone mode prints usage errors itself and always ends in SystemExit.
+        command.main(args=argv if argv is not None else sys.argv[1:], prog_name="tapgauge")
+    except SystemExit as exc:
+        code = exc.code
+        return code if isinstance(code, int) else (0 if code is None else EXIT_ERROR)
+    return 0
+
+
+def run() -> None:
+    sys.exit(main())

@@ -1,0 +1,251 @@
+"""Pure geometry on numpy arrays of boxes.
+
+A box array has shape (n, 4): left, top, right, bottom, with right/bottom exclusive
+(so width = right - left). Nothing here does I/O or knows about rules; callers scale
+boxes into the unit they care about (dp, pt, mm) before asking.
+
+The pair search is a uniform-grid broad phase, so spacing and overlap work on
+thousands of targets without building an n x n matrix.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import NDArray
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.intp]
+
+# Comparisons of lengths in dp/pt/mm allow this much rounding noise, so circles
+# whose centres are exactly one diameter apart count as touching (WCAG: they pass).
+EPS = 1e-7
+
+
+def as_boxes(boxes: object) -> FloatArray:
+    arr = np.asarray(boxes, dtype=np.float64)
+    if arr.size == 0:
+        return arr.reshape(0, 4)
+    if arr.ndim != 2 or arr.shape[1] != 4:
+        raise ValueError(f"boxes must have shape (n, 4), got {arr.shape}")
+    return arr
+
+
+def scale_boxes(boxes: FloatArray, sx: float, sy: float) -> FloatArray:
+    """Boxes in pixels to boxes in a unit with sx, sy units per pixel."""
+    return boxes * np.array([sx, sy, sx, sy])
+
+
+def sizes(boxes: FloatArray) -> tuple[FloatArray, FloatArray]:
+    return boxes[:, 2] - boxes[:, 0], boxes[:, 3] - boxes[:, 1]
+
+
+def centres(boxes: FloatArray) -> FloatArray:
+    return np.column_stack(((boxes[:, 0] + boxes[:, 2]) / 2, (boxes[:, 1] + boxes[:, 3]) / 2))
+
+
+def candidate_pairs(boxes: FloatArray, reach: float) -> tuple[IntArray, IntArray]:
+    """All pairs (i < j) whose boxes are no more than `reach` apart along each axis.
+
+    A superset of the pairs within Euclidean distance `reach`, found by hashing each
+    box (grown by reach/2 on every side) into a uniform grid and pairing the boxes
+    that share a cell. Touching counts as within reach.
+    """
+    boxes = as_boxes(boxes)
+    n = len(boxes)
+    empty = np.empty(0, dtype=np.intp)
+    if n < 2:
+        return empty, empty
+    half = max(float(reach), 0.0) / 2
+    grown = boxes + np.array([-half, -half, half, half])
+    extent = np.maximum(grown[:, 2] - grown[:, 0], grown[:, 3] - grown[:, 1])
+    cell = max(float(np.median(extent)), 1e-6)
+    g = np.floor(grown / cell).astype(np.int64)
+    nx = g[:, 2] - g[:, 0] + 1
+    ny = g[:, 3] - g[:, 1] + 1
+    counts = nx * ny
+    owner = np.repeat(np.arange(n), counts)
+    k = np.arange(int(counts.sum())) - np.repeat(np.cumsum(counts) - counts, counts)
+    cx = g[owner, 0] + k % nx[owner]
+    cy = g[owner, 1] + k // nx[owner]
+    order = np.lexsort((owner, cy, cx))
+    owner, cx, cy = owner[order], cx[order], cy[order]
+    new_group = np.ones(len(owner), dtype=bool)
+    new_group[1:] = (cx[1:] != cx[:-1]) | (cy[1:] != cy[:-1])
+    starts = np.flatnonzero(new_group)
+    ends = np.append(starts[1:], len(owner))
+    group_end = np.repeat(ends, ends - starts)
+    later = group_end - np.arange(len(owner)) - 1  # entries after this one in its cell
+    total = int(later.sum())
+    if total == 0:
+        return empty, empty
+    first = np.repeat(np.arange(len(owner)), later)
+    step = np.arange(total) - np.repeat(np.cumsum(later) - later, later) + 1
+    a, b = owner[first], owner[first + step]
+    lo, hi = np.minimum(a, b), np.maximum(a, b)
+    keys = np.unique(lo.astype(np.int64) * n + hi)
+    i, j = (keys // n).astype(np.intp), (keys % n).astype(np.intp)
+    keep = (
+        (grown[i, 0] <= grown[j, 2])
+        & (grown[j, 0] <= grown[i, 2])
+        & (grown[i, 1] <= grown[j, 3])
+        & (grown[j, 1] <= grown[i, 3])
+    )
+    return i[keep], j[keep]
+
+
+def rect_gaps(a: FloatArray, b: FloatArray) -> FloatArray:
+    """Euclidean edge-to-edge distance between paired boxes (0 where they meet or overlap)."""
+    dx = np.maximum(0.0, np.maximum(a[:, 0] - b[:, 2], b[:, 0] - a[:, 2]))
+    dy = np.maximum(0.0, np.maximum(a[:, 1] - b[:, 3], b[:, 1] - a[:, 3]))
+    return np.hypot(dx, dy)
+
+
+def intersection_areas(a: FloatArray, b: FloatArray) -> FloatArray:
+    w = np.minimum(a[:, 2], b[:, 2]) - np.maximum(a[:, 0], b[:, 0])
+    h = np.minimum(a[:, 3], b[:, 3]) - np.maximum(a[:, 1], b[:, 1])
+    return np.where((w > 0) & (h > 0), w * h, 0.0)
+
+
+def contains(a: FloatArray, b: FloatArray) -> NDArray[np.bool_]:
+    """Whether each box in a contains its paired box in b (edges may coincide)."""
+    return (a[:, 0] <= b[:, 0]) & (a[:, 1] <= b[:, 1]) & (a[:, 2] >= b[:, 2]) & (a[:, 3] >= b[:, 3])
+
+
+def point_rect_distances(points: FloatArray, rects: FloatArray) -> FloatArray:
+    """Distance from each point to its paired rectangle (0 inside)."""
+    dx = np.maximum(0.0, np.maximum(rects[:, 0] - points[:, 0], points[:, 0] - rects[:, 2]))
+    dy = np.maximum(0.0, np.maximum(rects[:, 1] - points[:, 1], points[:, 1] - rects[:, 3]))
+    return np.hypot(dx, dy)
+
+
+def spacing_conflicts(boxes: FloatArray, undersized: NDArray[np.bool_], diameter: float) -> IntArray:
+    """The WCAG 2.2 spacing test for undersized targets.
+
+    A circle of `diameter`, centred on each undersized target's bounding box, must not
+    intersect any other target nor the circle of another undersized target. Touching
+    is not intersecting. Returns, per box, the index of one box it conflicts with
+    (the nearest), or -1 when it has none or is not undersized.
+    """
+    boxes = as_boxes(boxes)
+    n = len(boxes)
+    result = np.full(n, -1, dtype=np.intp)
+    if n < 2 or not undersized.any():
+        return result
+    r = diameter / 2
+    c = centres(boxes)
+    i, j = candidate_pairs(boxes, diameter)
+    both = np.concatenate((i, j)), np.concatenate((j, i))  # each pair from both sides
+    me, other = both
+    mine = undersized[me]
+    me, other = me[mine], other[mine]
+    d_rect = point_rect_distances(c[me], boxes[other])
+    d_centres = np.hypot(*(c[me] - c[other]).T)
+    hit_rect = d_rect < r - EPS
+    hit_circle = undersized[other] & (d_centres < diameter - EPS)
+    hit = hit_rect | hit_circle
+    # Report the nearest offender: smallest of the two distances, normalised by what it must exceed.
+    slack = np.minimum(np.where(hit_rect, d_rect / r, np.inf), np.where(hit_circle, d_centres / diameter, np.inf))
+    me, other, slack = me[hit], other[hit], slack[hit]
+    order = np.lexsort((other, slack, me))
+    me, other = me[order], other[order]
+    firsts = np.ones(len(me), dtype=bool)
+    firsts[1:] = me[1:] != me[:-1]
+    result[me[firsts]] = other[firsts]
+    return result
+
+
+def nearest_gaps(boxes: FloatArray, reach: float) -> tuple[FloatArray, IntArray]:
+    """Per box, the smallest edge-to-edge gap to another box within `reach`, and that box.
+
+    Boxes nested inside one another are not neighbours (the overlap rule handles
+    them). Boxes with no neighbour within reach get +inf and -1.
+    """
+    boxes = as_boxes(boxes)
+    n = len(boxes)
+    best = np.full(n, np.inf)
+    who = np.full(n, -1, dtype=np.intp)
+    i, j = candidate_pairs(boxes, reach)
+    if len(i) == 0:
+        return best, who
+    nested = contains(boxes[i], boxes[j]) | contains(boxes[j], boxes[i])
+    i, j = i[~nested], j[~nested]
+    gaps = rect_gaps(boxes[i], boxes[j])
+    me = np.concatenate((i, j))
+    other = np.concatenate((j, i))
+    g = np.concatenate((gaps, gaps))
+    order = np.lexsort((other, g, me))
+    me, other, g = me[order], other[order], g[order]
+    firsts = np.ones(len(me), dtype=bool)
+    firsts[1:] = me[1:] != me[:-1]
+    best[me[firsts]] = g[firsts]
+    who[me[firsts]] = other[firsts]
+    return best, who
+
+
+def covering_pairs(boxes: FloatArray, paint_rank: NDArray[np.int64]) -> tuple[IntArray, IntArray]:
+    """Pairs (under, over): boxes that overlap with positive area, `over` drawn later."""
+    boxes = as_boxes(boxes)
+    i, j = candidate_pairs(boxes, 0.0)
+    if len(i) == 0:
+        return i, j
+    overlap = intersection_areas(boxes[i], boxes[j]) > 0
+    i, j = i[overlap], j[overlap]
+    j_on_top = paint_rank[j] > paint_rank[i]
+    return np.where(j_on_top, i, j), np.where(j_on_top, j, i)
+
+
+def largest_free_square(box: FloatArray, covers: FloatArray) -> tuple[float, FloatArray]:
+    """Side and placement of the largest axis-aligned square inside `box` minus `covers`.
+
+    Every free square lies inside some maximal empty rectangle, whose edges are box or
+    cover edges; so searching the rectangles of the compressed grid those edges make
+    is exact. Returns (side, square as [l, t, r, b]).
+    """
+    box = np.asarray(box, dtype=np.float64)
+    covers = as_boxes(covers)
+    bw, bh = box[2] - box[0], box[3] - box[1]
+    if bw <= 0 or bh <= 0:
+        return 0.0, np.array([box[0], box[1], box[0], box[1]])
+    clipped = np.column_stack(
+        (
+            np.clip(covers[:, 0], box[0], box[2]),
+            np.clip(covers[:, 1], box[1], box[3]),
+            np.clip(covers[:, 2], box[0], box[2]),
+            np.clip(covers[:, 3], box[1], box[3]),
+        )
+    )
+    clipped = clipped[(clipped[:, 2] > clipped[:, 0]) & (clipped[:, 3] > clipped[:, 1])]
+    if len(clipped) == 0:
+        side = float(min(bw, bh))
+        return side, np.array([box[0], box[1], box[0] + side, box[1] + side])
+    xs = np.unique(np.concatenate(([box[0], box[2]], clipped[:, 0], clipped[:, 2])))
+    ys = np.unique(np.concatenate(([box[1], box[3]], clipped[:, 1], clipped[:, 3])))
+    free = np.ones((len(ys) - 1, len(xs) - 1), dtype=bool)
+    for c in clipped:
+        x0, x1 = np.searchsorted(xs, c[0]), np.searchsorted(xs, c[2])
+        y0, y1 = np.searchsorted(ys, c[1]), np.searchsorted(ys, c[3])
+        free[y0:y1, x0:x1] = False
+    heights = np.diff(ys)
+    best, where = 0.0, np.array([box[0], box[1], box[0], box[1]])
+    for a in range(free.shape[1]):
+        open_rows = np.ones(free.shape[0], dtype=bool)
+        for b in range(a, free.shape[1]):
+            open_rows &= free[:, b]
+            if not open_rows.any():
+                break
+            width = xs[b + 1] - xs[a]
+            if width <= best:
+                continue
+            run, run_top = 0.0, 0
+            for row in range(len(open_rows)):
+                if open_rows[row]:
+                    if run == 0.0:
+                        run_top = row
+                    run += heights[row]
+                    side = min(width, run)
+                    if side > best:
+                        best = float(side)
+                        where = np.array([xs[a], ys[run_top], xs[a] + side, ys[run_top] + side])
+                else:
+                    run = 0.0
+    return best, where

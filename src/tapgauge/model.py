@@ -1,0 +1,168 @@
+"""The records that flow down the pipeline: read -> measure -> check -> write.
+
+Every record is a frozen dataclass so a stage can never change what an earlier
+stage produced. Pixel boxes are (left, top, right, bottom), right/bottom exclusive.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from enum import IntEnum
+from pathlib import Path
+
+Box = tuple[int, int, int, int]
+
+
+class InputError(Exception):
+    """Bad input: names the file, the line where there is one, and what was expected."""
+
+    def __init__(self, path: Path | str, message: str, line: int | None = None) -> None:
+        self.path = str(path)
+        self.line = line
+        self.message = message
+        where = f"{self.path}:{line}" if line else self.path
+        super().__init__(f"{where}: {message}")
+
+
+class Severity(IntEnum):
+    INFO = 1
+    WARNING = 2
+    ERROR = 3
+
+    @property
+    def label(self) -> str:
+        return self.name.lower()
+
+    @classmethod
+    def parse(cls, text: str) -> Severity:
+        try:
+            return cls[text.strip().upper()]
+        except KeyError:
+            names = ", ".join(s.label for s in cls)
+            raise ValueError(f"unknown severity {text!r} (expected one of: {names})") from None
+
+
+@dataclass(frozen=True)
+class Target:
+    """One node a user can tap, as the source describes it. Readers know no rules."""
+
+    ordinal: int  # position among this screen's targets, document order
+    bounds: Box  # pixels on the captured screen
+    cls: str
+    label: str  # visible text or accessibility description, may be ""
+    resource_id: str
+    enabled: bool = True
+    visible: bool = True
+    paint_rank: int = 0  # larger is drawn later, on top
+    scroll_ancestors: tuple[tuple[Box, str], ...] = ()  # (bounds, axis "x"/"y")
+    line: int | None = None  # line in the source file
+
+    @property
+    def name(self) -> str:
+        """A short human name: label, else resource id tail, else class tail."""
+        if self.label:
+            return self.label
+        if self.resource_id:
+            return self.resource_id.rsplit("/", 1)[-1]
+        return self.cls.rsplit(".", 1)[-1] or "target"
+
+
+@dataclass(frozen=True)
+class DeviceHints:
+    """What one source (flags, sidecar, config) says about the device; None = silent."""
+
+    density_dpi: float | None = None
+    xdpi: float | None = None
+    ydpi: float | None = None
+    source: str = ""
+
+
+@dataclass(frozen=True)
+class Screen:
+    path: Path
+    platform: str  # "android" (later: "ios", "image")
+    width_px: int
+    height_px: int
+    rotation: int  # quarter turns from the natural orientation, 0..3
+    targets: tuple[Target, ...]
+    hints: DeviceHints = field(default_factory=DeviceHints)  # from a sidecar, if any
+
+
+@dataclass(frozen=True)
+class Device:
+    """How pixels relate to the platform unit and, when known, to millimetres.
+
+    xdpi/ydpi are physical pixels per inch along the *screen's* x and y axes as
+    captured (already swapped for rotation).
+    """
+
+    density_dpi: float
+    density_source: str
+    unit: str  # "dp" on Android, "pt" on iOS
+    px_per_unit: float
+    xdpi: float | None = None
+    ydpi: float | None = None
+    ppi_source: str | None = None
+
+    @property
+    def has_mm(self) -> bool:
+        return self.xdpi is not None and self.ydpi is not None
+
+
+@dataclass(frozen=True)
+class Rule:
+    id: str  # "ruleset/rule"
+    kind: str
+    summary: str
+    severity: Severity
+    unit: str  # "dp", "pt" (both the platform unit) or "mm"
+    params: tuple[tuple[str, float | bool | str], ...]
+    source: str
+    url: str
+
+    def param(self, name: str) -> float | bool | str:
+        return dict(self.params)[name]
+
+
+@dataclass(frozen=True)
+class RuleSet:
+    id: str
+    title: str
+    source: str
+    url: str
+    platforms: tuple[str, ...]
+    rules: tuple[Rule, ...]
+    path: str  # where it was loaded from
+
+
+@dataclass(frozen=True)
+class Finding:
+    rule_id: str
+    severity: Severity
+    measured: float
+    required: float
+    unit: str
+    message: str
+
+
+@dataclass(frozen=True)
+class TargetResult:
+    target: Target
+    status: str  # pass | fail | exempt | unmeasurable | unchecked
+    reason: str  # why unchecked/unmeasurable, "" otherwise
+    size_unit: tuple[float, float]  # width, height in the platform unit
+    size_mm: tuple[float, float] | None
+    findings: tuple[Finding, ...]
+    notes: tuple[str, ...] = ()  # e.g. passed by the spacing exception
+
+
+@dataclass(frozen=True)
+class ScreenResult:
+    screen: Screen
+    device: Device
+    targets: tuple[TargetResult, ...]
+    notices: tuple[str, ...]
+    rulesets: tuple[str, ...]  # ids of the rule sets applied to this screen
+
+
+STATUSES = ("pass", "fail", "exempt", "unmeasurable", "unchecked")

@@ -1,0 +1,129 @@
+"""Findings as plain records: the one JSON-ready form every writer consumes.
+
+Deterministic: screens sorted by path, targets in document order, no clock.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from pathlib import Path
+from typing import Any
+
+from tapgauge import __version__
+from tapgauge.model import STATUSES, InputError, RuleSet, ScreenResult, Severity, TargetResult
+
+REPORT_FORMAT = "tapgauge-report"
+REPORT_VERSION = 1
+
+EXIT_OK = 0
+EXIT_FINDINGS = 1
+EXIT_ERROR = 2
+
+
+def display_path(path: Path | str) -> str:
+    p = Path(path)
+    try:
+        if p.is_absolute():
+            return p.relative_to(Path.cwd()).as_posix()
+    except ValueError:
+        pass
+    return p.as_posix()
+
+
+def ruleset_record(rs: RuleSet) -> dict[str, Any]:
+    return {
+        "id": rs.id, "title": rs.title, "source": rs.source, "url": rs.url, "platforms": list(rs.platforms),
+        "rules": [
+            {"id": r.id, "kind": r.kind, "summary": r.summary, "severity": r.severity.label, "unit": r.unit,
+             "params": dict(r.params), "source": r.source, "url": r.url}
+            for r in rs.rules
+        ],
+    }
+
+
+def target_record(tr: TargetResult) -> dict[str, Any]:
+    t = tr.target
+    return {
+        "ordinal": t.ordinal,
+        "line": t.line,
+        "class": t.cls,
+        "label": t.label,
+        "resource_id": t.resource_id,
+        "name": t.name,
+        "bounds": list(t.bounds),
+        "size": {"width": tr.size_unit[0], "height": tr.size_unit[1]},
+        "size_mm": None if tr.size_mm is None else {"width": tr.size_mm[0], "height": tr.size_mm[1]},
+        "status": tr.status,
+        "reason": tr.reason,
+        "findings": [
+            {"rule": f.rule_id, "severity": f.severity.label, "measured": f.measured, "required": f.required,
+             "unit": f.unit, "message": f.message}
+            for f in tr.findings
+        ],
+        "notes": list(tr.notes),
+    }
+
+
+def screen_record(sr: ScreenResult) -> dict[str, Any]:
+    d = sr.device
+    targets = [target_record(t) for t in sr.targets]
+    return {
+        "path": display_path(sr.screen.path),
+        "platform": sr.screen.platform,
+        "width_px": sr.screen.width_px,
+        "height_px": sr.screen.height_px,
+        "rotation": sr.screen.rotation,
+        "device": {
+            "unit": d.unit, "density_dpi": d.density_dpi, "px_per_unit": d.px_per_unit,
+            "density_source": d.density_source, "xdpi": d.xdpi, "ydpi": d.ydpi, "ppi_source": d.ppi_source,
+        },
+        "rulesets": list(sr.rulesets),
+        "notices": list(sr.notices),
+        "targets": targets,
+        "summary": _status_counts(targets),
+    }
+
+
+def _status_counts(targets: list[dict[str, Any]]) -> dict[str, int]:
+    counts = Counter(t["status"] for t in targets)
+    return {"targets": len(targets), **{s: counts.get(s, 0) for s in STATUSES}}
+
+
+def error_record(err: InputError) -> dict[str, Any]:
+    return {"path": display_path(err.path), "line": err.line, "message": err.message}
+
+
+def exit_code(screens: list[dict[str, Any]], errors: list[dict[str, Any]], fail_level: Severity) -> int:
+    """2 for any input error; else 1 when a failing target has a finding at or above the fail level."""
+    if errors:
+        return EXIT_ERROR
+    for s in screens:
+        for t in s["targets"]:
+            if t["status"] == "fail" and any(Severity.parse(f["severity"]) >= fail_level for f in t["findings"]):
+                return EXIT_FINDINGS
+    return EXIT_OK
+
+
+def build_report(screens: list[ScreenResult], errors: list[InputError], rulesets: list[RuleSet],
+                 fail_level: Severity) -> dict[str, Any]:
+    screen_recs = sorted((screen_record(s) for s in screens), key=lambda r: r["path"])
+    error_recs = sorted((error_record(e) for e in errors), key=lambda r: (r["path"], r["line"] or 0))
+    all_targets = [t for s in screen_recs for t in s["targets"]]
+    severities = Counter(f["severity"] for t in all_targets if t["status"] == "fail" for f in t["findings"])
+    summary = {
+        "screens": len(screen_recs),
+        "errors": len(error_recs),
+        **_status_counts(all_targets),
+        "findings": {s.label: severities.get(s.label, 0) for s in sorted(Severity, reverse=True)},
+        "exit_code": exit_code(screen_recs, error_recs, fail_level),
+    }
+    return {
+        "format": REPORT_FORMAT,
+        "version": REPORT_VERSION,
+        "tool": {"name": "tapgauge", "version": __version__},
+        "fail_level": fail_level.label,
+        "rulesets": [ruleset_record(rs) for rs in rulesets],
+        "screens": screen_recs,
+        "errors": error_recs,
+        "summary": summary,
+    }

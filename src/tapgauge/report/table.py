@@ -1,0 +1,99 @@
+"""The terminal findings table: one block per screen, a summary line at the end.
+
+Readable at 80 columns; colour is a help, never the only signal (severity and
+status are words).
+"""
+
+from __future__ import annotations
+
+import io
+from collections import Counter
+from typing import Any
+
+from rich.console import Console
+from rich.table import Table
+from rich.text import Text
+
+_SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
+
+
+def _num(v: float) -> str:
+    return f"{v:.1f}"
+
+
+def _device_line(s: dict[str, Any]) -> str:
+    d = s["device"]
+    unit = d["unit"]
+    parts = [f"{s['platform']}, {s['width_px']}x{s['height_px']} px",
+             f"{d['density_dpi']:g} dpi = {d['px_per_unit']:g} px/{unit} ({d['density_source']})"]
+    if d["xdpi"] is not None:
+        parts.append(f"{d['xdpi']:g} x {d['ydpi']:g} ppi ({d['ppi_source']})")
+    else:
+        parts.append("no physical ppi: no mm")
+    return "; ".join(parts)
+
+
+def _screen_table(s: dict[str, Any]) -> Table | None:
+    unit = s["device"]["unit"]
+    rows = [t for t in s["targets"] if t["status"] in ("fail", "unmeasurable")]
+    if not rows:
+        return None
+    table = Table(show_header=True, header_style="bold", pad_edge=False, show_edge=False, show_lines=True)
+    table.add_column("target", overflow="fold", max_width=26)
+    table.add_column("finding: found / needed", overflow="fold")
+    for t in rows:
+        cell = Text(f"#{t['ordinal']} {t['name']}\n")
+        size = f"{_num(t['size']['width'])} x {_num(t['size']['height'])} {unit}"
+        if t["size_mm"] is not None:
+            size += f"\n{_num(t['size_mm']['width'])} x {_num(t['size_mm']['height'])} mm"
+        cell.append(size, style="dim")
+        if t["status"] == "unmeasurable":
+            cell.append("\nunmeasurable: clipped", style="magenta")
+        lines = Text()
+        for k, f in enumerate(t["findings"]):
+            if k:
+                lines.append("\n")
+            lines.append(f"{f['severity'].upper()} ", style=_SEVERITY_STYLE[f["severity"]])
+            lines.append(f"{f['rule']}: {_num(f['measured'])} / {f['required']:g} {f['unit']}\n")
+            lines.append(f"  {f['message']}", style="dim")
+        table.add_row(cell, lines)
+    return table
+
+
+def write_table(report: dict[str, Any], width: int | None = None, color: bool = False) -> str:
+    buf = io.StringIO()
+    console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color,
+                      highlight=False, soft_wrap=False)
+    for s in report["screens"]:
+        console.print(Text(s["path"], style="bold underline"))
+        console.print(Text(_device_line(s), style="dim"))
+        for notice in s["notices"]:
+            console.print(Text(f"note: {notice}", style="yellow"))
+        table = _screen_table(s)
+        if table is not None:
+            console.print(table)
+        counts = s["summary"]
+        reasons = Counter(t["reason"].split(" as #")[0] for t in s["targets"] if t["status"] == "unchecked")
+        line = f"{counts['pass']} pass, {counts['fail']} fail, {counts['unmeasurable']} unmeasurable"
+        if counts["unchecked"]:
+            why = ", ".join(f"{n} {r}" for r, n in sorted(reasons.items()))
+            line += f", {counts['unchecked']} unchecked ({why})"
+        console.print(line)
+        console.print()
+    for e in report["errors"]:
+        where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
+        console.print(Text(f"error: {where}: {e['message']}", style="bold red"))
+    console.print(Text(summary_line(report), style="bold"))
+    return buf.getvalue()
+
+
+def summary_line(report: dict[str, Any]) -> str:
+    s = report["summary"]
+    f = s["findings"]
+    verdict = {0: "passed", 1: "failed", 2: "input errors"}[s["exit_code"]]
+    return (
+        f"{s['screens']} screens, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
+        f"{s['unmeasurable']} unmeasurable, {s['unchecked']} unchecked; findings on failing targets: "
+        f"{f['error']} error, {f['warning']} warning, {f['info']} info; {s['errors']} unreadable; "
+        f"{verdict} at fail level {report['fail_level']} (exit {s['exit_code']})"
+    )
