@@ -142,7 +142,7 @@ def booking_form() -> str:
         N("android.widget.TextView", (16, 168, 376, 192), text="Start date"),
         # 32 x 32 dp date chip; a 20 x 20 dp badge overlaps its top-right corner by 12 x 12 dp.
         N("android.widget.Button", (16, 200, 48, 232), text="14", click=True, rid="day_14"),
-        N("android.widget.ImageButton", (36, 188, 56, 208), desc="Remove date", click=True, rid="day_14_remove"),
+        N("android.widget.ImageButton", (36, 192, 56, 212), desc="Remove date", click=True, rid="day_14_remove"),
         N("android.widget.Button", (96, 200, 144, 248), text="15", click=True, rid="day_15"),
         N("android.widget.CheckBox", (16, 272, 376, 290), text="I have read the plot rules", check=True, click=True, rid="rules_ok"),
         N("android.widget.Button", (16, 760, 376, 816), text="Confirm booking", click=True, rid="confirm"),
