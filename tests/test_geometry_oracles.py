@@ -19,6 +19,7 @@ from tapgauge.geometry import (
     covering_pairs,
     largest_free_square,
     nearest_gaps,
+    one_cover_squares,
     spacing_conflicts,
 )
 
@@ -121,6 +122,19 @@ def test_largest_free_square_matches_bitmap_and_fits(target: tuple[int, ...], ra
     free = box(*tbox).difference(unary_union([box(*c) for c in covers])) if len(covers) else box(*tbox)
     if side > 0:
         assert free.buffer(1e-9).contains(box(*where))
+
+
+@settings(max_examples=150, deadline=None)
+@given(layouts(max_boxes=6), layouts(max_boxes=6))
+def test_one_cover_fast_path_agrees_with_the_general_search(targets: np.ndarray, covers: np.ndarray) -> None:
+    # Oracle: the bitmap DP above; the vectorised one-cover formula must agree for every
+    # target/cover pair that overlaps.
+    n = min(len(targets), len(covers))
+    targets, covers = targets[:n], covers[:n]
+    got = one_cover_squares(targets, covers)
+    for k in range(n):
+        if box(*targets[k]).intersection(box(*covers[k])).area > 0:
+            assert got[k] == _bitmap_largest_square(tuple(int(v) for v in targets[k]), covers[[k]])
 
 
 def test_covering_pairs_follow_paint_order() -> None:

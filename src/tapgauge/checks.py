@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from tapgauge.device import MM_PER_INCH
-from tapgauge.geometry import EPS, intersection_areas, largest_free_square, nearest_gaps, sizes, spacing_conflicts
+from tapgauge.geometry import EPS, intersection_areas, largest_free_square, nearest_gaps, one_cover_squares, sizes, spacing_conflicts
 from tapgauge.measure import MeasuredScreen
 from tapgauge.model import Finding, Rule, RuleSet, ScreenResult, TargetResult
 
@@ -53,8 +53,12 @@ def free_squares(m: MeasuredScreen, boxes: np.ndarray) -> np.ndarray:
     """Per checked target, the side of the largest square left once targets on top are removed."""
     w, h = sizes(boxes)
     side = np.minimum(w, h)
+    single = [(pos, over[0]) for pos, over in enumerate(m.covers) if len(over) == 1]
+    if single:
+        pos, over = np.array(single).T
+        side[pos] = one_cover_squares(boxes[pos], boxes[over])
     for pos, over in enumerate(m.covers):
-        if over:
+        if len(over) > 1:
             side[pos] = largest_free_square(boxes[pos], boxes[list(over)])[0]
     return side
 

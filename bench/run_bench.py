@@ -1,0 +1,71 @@
+"""Benchmark: tapgauge against the parsing floor, side by side in one process.
+
+Usage: python bench/run_bench.py [--targets 200 1000 5000] [--screens 20] [--repeat 5]
+For each size it generates a corpus, then times (median of --repeat runs):
+  floor:    lxml parsing the same files and doing nothing else;
+  tapgauge: the whole pipeline (read, device, measure, check, JSON report records).
+It prints screens per second and the ratio to the floor. No timing is asserted anywhere.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import tempfile
+import time
+from pathlib import Path
+from subprocess import run
+import sys
+
+from lxml import etree
+
+from tapgauge.model import DeviceHints
+from tapgauge.pipeline import run_check
+from tapgauge.report.records import build_report
+from tapgauge.model import Severity
+from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
+
+HERE = Path(__file__).resolve().parent
+
+
+def floor(files: list[Path]) -> None:
+    for f in files:
+        etree.fromstring(f.read_bytes())
+
+
+def pipeline(folder: Path, rulesets: list) -> None:
+    result = run_check([folder], rulesets, DeviceHints(), DeviceHints())
+    build_report(list(result.screens), list(result.errors), rulesets, Severity.ERROR)
+
+
+def timed(fn, repeat: int) -> float:
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--targets", type=int, nargs="+", default=[200, 1000, 5000])
+    ap.add_argument("--screens", type=int, default=20)
+    ap.add_argument("--repeat", type=int, default=5)
+    a = ap.parse_args()
+    rulesets = select_rulesets(list(DEFAULT_RULESETS))
+    print(f"| targets/screen | screens | lxml floor s | tapgauge s | screens/s | ratio to floor |")
+    print(f"|---:|---:|---:|---:|---:|---:|")
+    for n in a.targets:
+        with tempfile.TemporaryDirectory() as tmp:
+            folder = Path(tmp)
+            run([sys.executable, str(HERE / "make_corpus.py"), tmp, "--screens", str(a.screens), "--targets", str(n)], check=True)
+            files = sorted(folder.glob("*.xml"))
+            pipeline(folder, rulesets)  # warm caches
+            f = timed(lambda: floor(files), a.repeat)
+            t = timed(lambda: pipeline(folder, rulesets), a.repeat)
+            print(f"| {n} | {a.screens} | {f:.4f} | {t:.4f} | {a.screens / t:.1f} | {t / f:.1f}x |")
+
+
+if __name__ == "__main__":
+    main()
