@@ -93,7 +93,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, ppi: str |
         return EXIT_ERROR
     result = run_check(paths, chosen, flags, config.device, announce_skips=rules is not None)
     report = build_report(list(result.screens), list(result.errors), chosen, level)
-    for e in report["errors"]:
+    for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
         where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
         _err(f"{where}: {e['message']}")
     if fmt == "table" and output is None:

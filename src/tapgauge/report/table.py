@@ -80,9 +80,10 @@ def write_table(report: dict[str, Any], width: int | None = None, color: bool = 
             line += f", {counts['unchecked']} unchecked ({why})"
         console.print(line)
         console.print()
-    for e in report["errors"]:
-        where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
-        console.print(Text(f"error: {where}: {e['message']}", style="bold red"))
+    if report["errors"] and not color:  # in a terminal they were just printed on stderr
+        for e in report["errors"]:
+            where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
+            console.print(Text(f"error: {where}: {e['message']}", style="bold red"))
     console.print(Text(summary_line(report), style="bold"))
     return buf.getvalue()
 
