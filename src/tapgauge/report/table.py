@@ -92,8 +92,9 @@ def summary_line(report: dict[str, Any]) -> str:
     s = report["summary"]
     f = s["findings"]
     verdict = {0: "passed", 1: "failed", 2: "input errors"}[s["exit_code"]]
+    screens = f"{s['screens']} screen" + ("" if s["screens"] == 1 else "s")
     return (
-        f"{s['screens']} screens, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
+        f"{screens}, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
         f"{s['unmeasurable']} unmeasurable, {s['unchecked']} unchecked; findings on failing targets: "
         f"{f['error']} error, {f['warning']} warning, {f['info']} info; {s['errors']} unreadable; "
         f"{verdict} at fail level {report['fail_level']} (exit {s['exit_code']})"
