@@ -8,8 +8,8 @@ and multi-window dumps nest several roots under extra container elements.
 from __future__ import annotations
 
 import re
-from dataclasses import replace
 from pathlib import Path
+from typing import Any
 
 from lxml import etree
 
@@ -74,7 +74,7 @@ def read_android(path: Path, root: etree._Element, hints: DeviceHints) -> Screen
         raise InputError(path, f"rotation={rotation_raw!r}; expected 0, 1, 2 or 3", root.sourceline)
     rotation = int(rotation_raw)
 
-    targets: list[tuple[int, Target]] = []
+    targets: list[tuple[int, dict[str, Any]]] = []
     doc_index = {el: k for k, el in enumerate(root.iter())}
     extent = [0, 0]
     paint = 0
@@ -94,28 +94,26 @@ def read_android(path: Path, root: etree._Element, hints: DeviceHints) -> Screen
             paint += 1
             visible = shown and child.get("visible-to-user", _TRUE) == _TRUE
             if any(child.get(flag) == _TRUE for flag in TARGET_FLAGS):
-                targets.append((doc_index[child], Target(
-                        ordinal=0,
-                        bounds=box,
-                        cls=child.get("class") or child.tag,
-                        label=(child.get("text") or child.get("content-desc") or "").strip(),
-                        resource_id=child.get("resource-id") or "",
-                        enabled=child.get("enabled", _TRUE) == _TRUE,
-                        visible=visible,
-                        paint_rank=paint,
-                        scroll_ancestors=scrollers,
-                        line=child.sourceline,
-                    )
-                ))
+                targets.append((doc_index[child], {
+                    "bounds": box,
+                    "cls": child.get("class") or child.tag,
+                    "label": (child.get("text") or child.get("content-desc") or "").strip(),
+                    "resource_id": child.get("resource-id") or "",
+                    "enabled": child.get("enabled", _TRUE) == _TRUE,
+                    "visible": visible,
+                    "paint_rank": paint,
+                    "scroll_ancestors": scrollers,
+                    "line": child.sourceline,
+                }))
             inner = scrollers + ((box, _scroll_axis(child)),) if child.get("scrollable") == _TRUE else scrollers
             walk(child, inner, visible)
 
     walk(root, (), True)
-    if not any(_is_node(el) for el in root.iter()):
+    if paint == 0:
         raise InputError(path, "no view nodes found; expected <node bounds=...> elements under <hierarchy>", root.sourceline)
     # Document order gives stable ordinals whatever the paint order was.
     targets.sort(key=lambda pair: pair[0])
-    numbered = tuple(replace(t, ordinal=k) for k, (_, t) in enumerate(targets))
+    numbered = tuple(Target(ordinal=k, **fields) for k, (_, fields) in enumerate(targets))
     width = _int_attr(root, "width", path) or extent[0]
     height = _int_attr(root, "height", path) or extent[1]
     return Screen(
