@@ -23,7 +23,7 @@ def screen_of(boxes: list[tuple[int, int, int, int]], platform: str = "android")
     )
     w = max([b[2] for b in boxes] + [1])
     h = max([b[3] for b in boxes] + [1])
-    return Screen(path=Path("mem.xml"), platform=platform, width_px=w, height_px=h, rotation=0, targets=targets)
+    return Screen(path=Path("mem.xml"), platform=platform, width=w, height=h, rotation=0, targets=targets)
 
 
 def check_boxes(boxes: list[tuple[int, int, int, int]], rulesets: list[str], density: float = 160,

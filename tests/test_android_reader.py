@@ -43,7 +43,7 @@ def test_stock_dump_targets_flags_and_lines(tmp_path: Path) -> None:
         "</node>", "</hierarchy>",
     ])
     screen = read_screen(write(tmp_path, "s.xml", body))
-    assert screen.platform == "android" and (screen.width_px, screen.height_px) == (1080, 2400)
+    assert screen.platform == "android" and (screen.width, screen.height) == (1080, 2400)
     names = [t.name for t in screen.targets]
     assert names == ["OK", "Hold me", "agree", "Button", "Button", "offscreen"]
     assert [t.line for t in screen.targets] == [4, 5, 6, 8, 9, 10]

@@ -162,7 +162,7 @@ def test_project_config_gives_density_and_rules(tmp_path: Path, monkeypatch: pyt
     monkeypatch.chdir(tmp_path)
     code, report = run_json(["s.xml"], capsys)
     assert code == 0
-    assert report["screens"][0]["device"]["density_source"] == "config tapgauge.toml"
+    assert report["screens"][0]["device"]["unit_source"] == "config tapgauge.toml"
     assert [r["id"] for r in report["rulesets"]] == ["wcag22-aaa"]
     (tmp_path / "tapgauge.toml").write_text("[device]\ndensty = 300\n")
     assert main(["check", "s.xml"]) == 2

@@ -17,7 +17,7 @@ from tapgauge.model import DeviceHints, Screen
 
 
 def _screen(rotation: int = 0) -> Screen:
-    return Screen(path=Path("s.xml"), platform="android", width_px=1080, height_px=2400, rotation=rotation, targets=())
+    return Screen(path=Path("s.xml"), platform="android", width=1080, height=2400, rotation=rotation, targets=())
 
 
 @pytest.mark.parametrize(
@@ -34,7 +34,7 @@ def _screen(rotation: int = 0) -> Screen:
 )
 def test_dp_to_px(density: str, dp: float, px: float) -> None:
     device = resolve_device(_screen(), DeviceHints(density_dpi=parse_density(density), source="t"))
-    assert dp * device.px_per_unit == pytest.approx(px)
+    assert dp * device.coords_per_unit == pytest.approx(px)
 
 
 def test_bad_density_and_ppi_are_explained() -> None:
@@ -96,7 +96,7 @@ def test_sources_merge_field_by_field_in_order() -> None:
     flags = DeviceHints(density_dpi=480, source="command line")
     sidecar = DeviceHints(density_dpi=420, xdpi=400, ydpi=400, source="sidecar")
     device = resolve_device(_screen(), flags, sidecar)
-    assert device.density_source == "command line" and device.density_dpi == 480
+    assert device.unit_source == "command line" and device.density_dpi == 480
     assert device.ppi_source == "sidecar" and device.xdpi == 400
 
 

@@ -132,7 +132,7 @@ def _size(m: MeasuredScreen, k: int) -> tuple[tuple[float, float], tuple[float, 
     l, t, r, b = m.screen.targets[k].bounds
     w, h = r - l, b - t
     dev = m.device
-    in_unit = (round(w / dev.px_per_unit, 2), round(h / dev.px_per_unit, 2))
+    in_unit = (round(w / dev.coords_per_unit, 2), round(h / dev.coords_per_unit, 2))
     if dev.xdpi is None or dev.ydpi is None:
         return in_unit, None
     return in_unit, (round(w / dev.xdpi * MM_PER_INCH, 2), round(h / dev.ydpi * MM_PER_INCH, 2))
@@ -143,7 +143,7 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
     applied: list[str] = []
     findings: dict[int, list[Finding]] = {}
     notes: dict[int, list[str]] = {}
-    platform = m.screen.platform
+    platform = m.device.platform
     for rs in rulesets:
         if platform not in rs.platforms:
             if announce_skips:
@@ -152,10 +152,7 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
         applied.append(rs.id)
         skipped_mm = [r.id for r in rs.rules if r.unit == "mm" and not m.device.has_mm]
         if skipped_mm:
-            notices.append(
-                f"no physical ppi for this screen: {', '.join(skipped_mm)} skipped "
-                "(give --ppi, or `adb shell dumpsys display` output in the device sidecar)"
-            )
+            notices.append(f"{m.device.no_mm_because}; skipped: {', '.join(skipped_mm)}")
         for rule in rs.rules:
             if rule.id in skipped_mm:
                 continue

@@ -16,7 +16,7 @@ from rich.table import Table
 
 from tapgauge import __version__
 from tapgauge.config import load_config
-from tapgauge.device import parse_density, parse_ppi
+from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
 from tapgauge.pipeline import run_check
 from tapgauge.report import WRITERS, writer_for
@@ -59,6 +59,8 @@ def check(
         f"Default: {','.join(DEFAULT_RULESETS)} (each applies to its own platform).")] = None,
     density: Annotated[Optional[str], typer.Option(
         help="Screen density in dpi, or a bucket name (mdpi, hdpi, xhdpi, xxhdpi, xxxhdpi).")] = None,
+    scale: Annotated[Optional[str], typer.Option(
+        help="iOS pixels per point (1, 2 or 3); needed for iOS screenshots, and for mm on iOS trees.")] = None,
     ppi: Annotated[Optional[str], typer.Option(
         help="Physical pixels per inch, one number or X,Y for the natural x and y axes; enables mm.")] = None,
     fmt: Annotated[str, typer.Option("--format", "-f", help=f"Output format: {', '.join(WRITERS)}.")] = "table",
@@ -68,11 +70,11 @@ def check(
     width: Annotated[Optional[int], typer.Option(help="Table width in columns (default: the terminal's, or 80).")] = None,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
-    raise typer.Exit(_check(paths, rules, density, ppi, fmt, output, fail_level, width))
+    raise typer.Exit(_check(paths, rules, density, scale, ppi, fmt, output, fail_level, width))
 
 
-def _check(paths: list[Path], rules: str | None, density: str | None, ppi: str | None, fmt: str,
-           output: Path | None, fail_level: str | None, width: int | None) -> int:
+def _check(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
+           fmt: str, output: Path | None, fail_level: str | None, width: int | None) -> int:
     try:
         writer = writer_for(fmt)
         config = load_config(Path.cwd())
@@ -81,6 +83,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, ppi: str |
         chosen = select_rulesets(spec)
         flags = DeviceHints(
             density_dpi=parse_density(density) if density else None,
+            scale=parse_scale(scale) if scale else None,
             xdpi=parse_ppi(ppi)[0] if ppi else None,
             ydpi=parse_ppi(ppi)[1] if ppi else None,
             source="command line",

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from tapgauge.device import parse_density, parse_ppi
+from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
 
 CONFIG_NAME = "tapgauge.toml"
@@ -90,22 +90,27 @@ def load_config(start: Path) -> Config:
     device = table.get("device", {})
     if not isinstance(device, dict):
         raise bad("device", "must be a table with density and/or ppi")
-    density = ppi = None
+    density = ppi = scale = None
     for key, value in device.items():
         if key == "density":
             try:
                 density = parse_density(str(value))
             except ValueError as exc:
                 raise bad("device.density", str(exc)) from None
+        elif key == "scale":
+            try:
+                scale = parse_scale(str(value))
+            except ValueError as exc:
+                raise bad("device.scale", str(exc)) from None
         elif key == "ppi":
             try:
                 ppi = parse_ppi(str(value))
             except ValueError as exc:
                 raise bad("device.ppi", str(exc)) from None
         else:
-            raise bad(f"device.{key}", "unknown key; expected density or ppi")
+            raise bad(f"device.{key}", "unknown key; expected density, scale or ppi")
     hints = DeviceHints(
-        density_dpi=density, xdpi=ppi[0] if ppi else None, ydpi=ppi[1] if ppi else None,
+        density_dpi=density, scale=scale, xdpi=ppi[0] if ppi else None, ydpi=ppi[1] if ppi else None,
         source=f"config {path.name}",
     )
     return Config(path=path, rules=tuple(rules) if rules is not None else None, fail_level=fail_level, device=hints)

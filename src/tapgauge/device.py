@@ -22,9 +22,10 @@ MM_PER_INCH = 25.4  # definition of the inch
 @dataclass(frozen=True)
 class PlatformUnits:
     unit: str
-    baseline_dpi: float
-    buckets: dict[str, float]
     source: str
+    baseline_dpi: float | None = None  # Android: the density at which 1 dp = 1 px
+    buckets: tuple[tuple[str, float], ...] = ()
+    scales: tuple[float, ...] = ()  # iOS: the pixel-per-point scales the platform uses
 
 
 @cache
@@ -33,18 +34,19 @@ def platform_units() -> dict[str, PlatformUnits]:
     return {
         name: PlatformUnits(
             unit=table["unit"],
-            baseline_dpi=float(table["baseline_dpi"]),
-            buckets={k: float(v) for k, v in table.get("buckets", {}).items()},
             source=table["source"],
+            baseline_dpi=float(table["baseline_dpi"]) if "baseline_dpi" in table else None,
+            buckets=tuple((k, float(v)) for k, v in table.get("buckets", {}).items()),
+            scales=tuple(float(v) for v in table.get("scales", ())),
         )
         for name, table in data.items()
     }
 
 
-def parse_density(text: str, platform: str = "android") -> float:
-    """A density as a number of dpi or a bucket name such as 'xxhdpi'."""
+def parse_density(text: str) -> float:
+    """An Android density as a number of dpi or a bucket name such as 'xxhdpi'."""
     raw = text.strip().lower()
-    buckets = platform_units()[platform].buckets
+    buckets = dict(platform_units()["android"].buckets)
     if raw in buckets:
         return buckets[raw]
     try:
@@ -54,6 +56,17 @@ def parse_density(text: str, platform: str = "android") -> float:
         raise ValueError(f"density {text!r} is neither a number of dpi nor one of: {names}") from None
     if not 0 < value < 10_000:
         raise ValueError(f"density {text!r} is out of range; expected dpi such as 420")
+    return value
+
+
+def parse_scale(text: str) -> float:
+    """An iOS scale: pixels per point, such as 2 or 3."""
+    try:
+        value = float(text.strip().lower().removesuffix("x").removeprefix("@"))
+    except ValueError:
+        raise ValueError(f"scale {text!r} is not a number; expected pixels per point such as 3") from None
+    if not 0 < value <= 10:
+        raise ValueError(f"scale {text!r} is out of range; iOS uses 1, 2 or 3")
     return value
 
 
@@ -80,6 +93,24 @@ _DUMPSYS = re.compile(
 )
 
 
+_KEYED = re.compile(r"^\s*(density|scale|ppi)\s*[:=]\s*(\S[^#\n]*?)\s*(?:#.*)?$", re.MULTILINE | re.IGNORECASE)
+
+
+def parse_device_text(text: str, source: str) -> DeviceHints:
+    """A device sidecar: raw adb output (see parse_adb_text) and/or `key: value` lines.
+
+    Keyed lines (`density: 420`, `scale: 3`, `ppi: 460` or `ppi: 403.4,399.7`) are for
+    devices with no adb, such as iPhones; they win over adb output in the same file.
+    Raises ValueError for a keyed line with a bad value.
+    """
+    hints = parse_adb_text(text, source)
+    keyed = {k.lower(): v for k, v in _KEYED.findall(text)}
+    density = parse_density(keyed["density"]) if "density" in keyed else hints.density_dpi
+    scale = parse_scale(keyed["scale"]) if "scale" in keyed else None
+    xdpi, ydpi = parse_ppi(keyed["ppi"]) if "ppi" in keyed else (hints.xdpi, hints.ydpi)
+    return DeviceHints(density_dpi=density, scale=scale, xdpi=xdpi, ydpi=ydpi, source=source)
+
+
 def parse_adb_text(text: str, source: str) -> DeviceHints:
     """Read the raw output of `wm density`, `wm size` and/or `dumpsys display`.
 
@@ -104,31 +135,67 @@ def parse_adb_text(text: str, source: str) -> DeviceHints:
     return DeviceHints(density_dpi=density, xdpi=xdpi, ydpi=ydpi, source=source)
 
 
+def _first(sources: tuple[DeviceHints, ...], field: str) -> DeviceHints | None:
+    return next((s for s in sources if getattr(s, field) is not None), None)
+
+
 def resolve_device(screen: Screen, *sources: DeviceHints) -> Device:
     """Merge device hints, first source first, into a Device for this screen.
 
-    Raises ValueError when no source gives a density.
+    A screen whose source does not name its platform (a screenshot) takes it from the
+    hints: a density means Android, a scale means iOS. Raises ValueError when the
+    screen cannot be put in platform units.
     """
-    units = platform_units()[screen.platform]
-    density = next((s for s in sources if s.density_dpi is not None), None)
-    if density is None or density.density_dpi is None:
+    density = _first(sources, "density_dpi")
+    scale = _first(sources, "scale")
+    platform = screen.platform or ("android" if density else "ios" if scale else "")
+    if not platform:
         raise ValueError(
-            "no screen density: pass --density (e.g. --density 420 or --density xxhdpi), "
-            "put the output of `adb shell wm density` in a sidecar file "
-            f"('{screen.path.stem}.device.txt' or 'device.txt' beside the screen), "
-            "or set [device] density in tapgauge.toml"
+            "a screenshot does not say which platform or density it has: pass --density "
+            "(Android, e.g. --density 420) or --scale (iOS, e.g. --scale 3), or put them in a "
+            f"sidecar ('{screen.path.stem}.device.txt' or 'device.txt' beside the screen)"
         )
+    units = platform_units()[platform]
     ppi = next((s for s in sources if s.xdpi is not None and s.ydpi is not None), None)
     xdpi = ydpi = None
     if ppi is not None and ppi.xdpi is not None and ppi.ydpi is not None:
         # Physical dpi is given for the natural orientation; a quarter turn swaps the axes.
         xdpi, ydpi = (ppi.ydpi, ppi.xdpi) if screen.rotation % 2 else (ppi.xdpi, ppi.ydpi)
+    if platform == "android":
+        if density is None or density.density_dpi is None or units.baseline_dpi is None:
+            raise ValueError(
+                "no screen density: pass --density (e.g. --density 420 or --density xxhdpi), "
+                "put the output of `adb shell wm density` in a sidecar file "
+                f"('{screen.path.stem}.device.txt' or 'device.txt' beside the screen), "
+                "or set [device] density in tapgauge.toml"
+            )
+        return Device(
+            platform=platform, unit=units.unit, coords_per_unit=density.density_dpi / units.baseline_dpi,
+            unit_source=density.source, density_dpi=density.density_dpi, xdpi=xdpi, ydpi=ydpi,
+            ppi_source=ppi.source if ppi else None,
+            no_mm_because="" if ppi else "no physical ppi (give --ppi, or `adb shell dumpsys display` output in the device sidecar)",
+        )
+    k = scale.scale if scale is not None else None
+    no_ppi = "no physical ppi: iOS does not report one; give the model's published ppi with --ppi"
+    if screen.coords == "pt":
+        # Points are the unit already; millimetres need pixels per point to use a pixel ppi.
+        why = "" if ppi else no_ppi
+        if k is None:
+            why = why or "a ppi but no scale (pixels per point) to apply it to points: give --scale"
+            xdpi = ydpi = None
+        elif xdpi is not None and ydpi is not None:
+            xdpi, ydpi = xdpi / k, ydpi / k
+        return Device(
+            platform=platform, unit=units.unit, coords_per_unit=1.0, unit_source="element tree in points",
+            scale=k, xdpi=xdpi, ydpi=ydpi, ppi_source=ppi.source if (ppi and xdpi is not None) else None,
+            no_mm_because=why,
+        )
+    if k is None:
+        raise ValueError(
+            "an iOS screenshot needs its scale (pixels per point): pass --scale 3, or put "
+            f"'scale: 3' in a sidecar ('{screen.path.stem}.device.txt' or 'device.txt')"
+        )
     return Device(
-        density_dpi=density.density_dpi,
-        density_source=density.source,
-        unit=units.unit,
-        px_per_unit=density.density_dpi / units.baseline_dpi,
-        xdpi=xdpi,
-        ydpi=ydpi,
-        ppi_source=ppi.source if ppi is not None else None,
+        platform=platform, unit=units.unit, coords_per_unit=k, unit_source=scale.source, scale=k,
+        xdpi=xdpi, ydpi=ydpi, ppi_source=ppi.source if ppi else None, no_mm_because="" if ppi else no_ppi,
     )

@@ -22,21 +22,26 @@ class MeasuredScreen:
     device: Device
     checked: tuple[int, ...]  # indices into screen.targets
     unchecked: tuple[tuple[int, str], ...]  # (index, reason)
-    boxes_px: FloatArray  # boxes of the checked targets, in pixels
+    boxes_px: FloatArray  # boxes of the checked targets, in screen coordinates
     covers: tuple[tuple[int, ...], ...]  # per checked target: positions in `checked` drawn over it
     clipped_by: tuple[str, ...]  # per checked target: "" or a description of the clipping container
 
     def boxes(self, unit: str) -> FloatArray:
-        """The checked boxes in the platform unit or in millimetres."""
-        if unit == "mm":
-            if self.device.xdpi is None or self.device.ydpi is None:
-                raise ValueError("millimetres need the physical ppi")
-            return scale_boxes(self.boxes_px, MM_PER_INCH / self.device.xdpi, MM_PER_INCH / self.device.ydpi)
-        k = 1.0 / self.device.px_per_unit
-        return scale_boxes(self.boxes_px, k, k)
+        """The checked boxes in the platform unit, or in millimetres with unit="mm"."""
+        return to_unit(self.boxes_px, self.device, unit)
 
     def target(self, position: int) -> Target:
         return self.screen.targets[self.checked[position]]
+
+
+def to_unit(boxes: FloatArray, device: Device, unit: str) -> FloatArray:
+    """Boxes in screen coordinates to the platform unit, or to millimetres with unit="mm"."""
+    if unit == "mm":
+        if device.xdpi is None or device.ydpi is None:
+            raise ValueError("millimetres need the physical ppi")
+        return scale_boxes(boxes, MM_PER_INCH / device.xdpi, MM_PER_INCH / device.ydpi)
+    k = 1.0 / device.coords_per_unit
+    return scale_boxes(boxes, k, k)
 
 
 def _exclusion(t: Target) -> str:

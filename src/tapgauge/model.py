@@ -1,7 +1,9 @@
 """The records that flow down the pipeline: read -> measure -> check -> write.
 
 Every record is a frozen dataclass so a stage can never change what an earlier
-stage produced. Pixel boxes are (left, top, right, bottom), right/bottom exclusive.
+stage produced. Boxes are (left, top, right, bottom), right/bottom exclusive, in the
+screen's own coordinates: pixels for Android dumps and screenshots, points for iOS
+element trees (Screen.coords says which).
 """
 
 from __future__ import annotations
@@ -10,7 +12,7 @@ from dataclasses import dataclass, field
 from enum import IntEnum
 from pathlib import Path
 
-Box = tuple[int, int, int, int]
+Box = tuple[float, float, float, float]
 
 
 class InputError(Exception):
@@ -47,7 +49,7 @@ class Target:
     """One node a user can tap, as the source describes it. Readers know no rules."""
 
     ordinal: int  # position among this screen's targets, document order
-    bounds: Box  # pixels on the captured screen
+    bounds: Box  # in the screen's coordinates
     cls: str
     label: str  # visible text or accessibility description, may be ""
     resource_id: str
@@ -71,8 +73,9 @@ class Target:
 class DeviceHints:
     """What one source (flags, sidecar, config) says about the device; None = silent."""
 
-    density_dpi: float | None = None
-    xdpi: float | None = None
+    density_dpi: float | None = None  # Android: dp = px * 160 / density
+    scale: float | None = None  # iOS: pixels per point
+    xdpi: float | None = None  # physical pixels per inch, natural orientation
     ydpi: float | None = None
     source: str = ""
 
@@ -80,29 +83,35 @@ class DeviceHints:
 @dataclass(frozen=True)
 class Screen:
     path: Path
-    platform: str  # "android" (later: "ios", "image")
-    width_px: int
-    height_px: int
+    platform: str  # "android", "ios", or "" when the source does not say (a screenshot)
+    width: float  # in `coords`
+    height: float
     rotation: int  # quarter turns from the natural orientation, 0..3
     targets: tuple[Target, ...]
-    hints: DeviceHints = field(default_factory=DeviceHints)  # from a sidecar, if any
+    hints: DeviceHints = field(default_factory=DeviceHints)  # from a sidecar or picture, if any
+    coords: str = "px"  # "px" or "pt"
+    image: Path | None = None  # the screenshot that shows this screen, if there is one
+    name: str = ""  # which screen in a multi-screen file (COCO, CSV); "" for one-screen files
 
 
 @dataclass(frozen=True)
 class Device:
-    """How pixels relate to the platform unit and, when known, to millimetres.
+    """How the screen's coordinates relate to the platform unit and, when known, to mm.
 
-    xdpi/ydpi are physical pixels per inch along the *screen's* x and y axes as
-    captured (already swapped for rotation).
+    xdpi/ydpi are screen coordinates per physical inch along the screen's x and y axes
+    as captured (already swapped for rotation, already divided by the scale for points).
     """
 
-    density_dpi: float
-    density_source: str
+    platform: str  # "android" or "ios"
     unit: str  # "dp" on Android, "pt" on iOS
-    px_per_unit: float
+    coords_per_unit: float
+    unit_source: str  # where the density or scale came from
+    density_dpi: float | None = None
+    scale: float | None = None
     xdpi: float | None = None
     ydpi: float | None = None
     ppi_source: str | None = None
+    no_mm_because: str = ""  # why millimetres are unknown, when they are
 
     @property
     def has_mm(self) -> bool:

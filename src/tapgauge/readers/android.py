@@ -117,6 +117,6 @@ def read_android(path: Path, root: etree._Element, hints: DeviceHints) -> Screen
     width = _int_attr(root, "width", path) or extent[0]
     height = _int_attr(root, "height", path) or extent[1]
     return Screen(
-        path=path, platform="android", width_px=width, height_px=height, rotation=rotation,
+        path=path, platform="android", width=width, height=height, rotation=rotation,
         targets=numbered, hints=hints,
     )

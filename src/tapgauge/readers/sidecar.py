@@ -1,15 +1,15 @@
 """Device sidecars: raw `adb shell` output saved beside a screen.
 
-`NAME.device.txt` applies to the screen NAME.xml; `device.txt` to every screen in
+`NAME.device.txt` applies to the screen NAME.*; `device.txt` to every screen in
 its folder. Either holds, pasted as printed, any of `wm density`, `wm size` and
-`dumpsys display`.
+`dumpsys display`, and/or `density:`, `scale:` and `ppi:` lines.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
-from tapgauge.device import parse_adb_text
+from tapgauge.device import parse_device_text
 from tapgauge.model import DeviceHints, InputError
 
 FOLDER_SIDECAR = "device.txt"
@@ -29,11 +29,15 @@ def read_sidecar(path: Path) -> DeviceHints:
         text = path.read_text("utf-8", errors="replace")
     except OSError as exc:
         raise InputError(path, f"cannot read device sidecar: {exc.strerror or exc}") from None
-    hints = parse_adb_text(text, source=f"sidecar {path.name}")
-    if hints.density_dpi is None and hints.xdpi is None:
+    try:
+        hints = parse_device_text(text, source=f"sidecar {path.name}")
+    except ValueError as exc:
+        raise InputError(path, str(exc)) from None
+    if hints.density_dpi is None and hints.scale is None and hints.xdpi is None:
         raise InputError(
             path,
-            "device sidecar holds no density: expected the output of `adb shell wm density` "
-            "('Physical density: 420'), and optionally `wm size` and `dumpsys display`",
+            "device sidecar says nothing usable: expected the output of `adb shell wm density` "
+            "('Physical density: 420'; optionally `wm size` and `dumpsys display`), "
+            "or lines such as 'scale: 3' and 'ppi: 460'",
         )
     return hints

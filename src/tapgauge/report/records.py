@@ -69,13 +69,17 @@ def screen_record(sr: ScreenResult) -> dict[str, Any]:
     targets = [target_record(t) for t in sr.targets]
     return {
         "path": display_path(sr.screen.path),
-        "platform": sr.screen.platform,
-        "width_px": sr.screen.width_px,
-        "height_px": sr.screen.height_px,
+        "name": sr.screen.name,
+        "platform": d.platform,
+        "coordinates": sr.screen.coords,
+        "width": sr.screen.width,
+        "height": sr.screen.height,
         "rotation": sr.screen.rotation,
+        "image": display_path(sr.screen.image) if sr.screen.image else None,
         "device": {
-            "unit": d.unit, "density_dpi": d.density_dpi, "px_per_unit": d.px_per_unit,
-            "density_source": d.density_source, "xdpi": d.xdpi, "ydpi": d.ydpi, "ppi_source": d.ppi_source,
+            "unit": d.unit, "coords_per_unit": d.coords_per_unit, "unit_source": d.unit_source,
+            "density_dpi": d.density_dpi, "scale": d.scale, "xdpi": d.xdpi, "ydpi": d.ydpi,
+            "ppi_source": d.ppi_source,
         },
         "rulesets": list(sr.rulesets),
         "notices": list(sr.notices),
@@ -106,7 +110,7 @@ def exit_code(screens: list[dict[str, Any]], errors: list[dict[str, Any]], fail_
 
 def build_report(screens: list[ScreenResult], errors: list[InputError], rulesets: list[RuleSet],
                  fail_level: Severity) -> dict[str, Any]:
-    screen_recs = sorted((screen_record(s) for s in screens), key=lambda r: r["path"])
+    screen_recs = sorted((screen_record(s) for s in screens), key=lambda r: (r["path"], r["name"]))
     error_recs = sorted((error_record(e) for e in errors), key=lambda r: (r["path"], r["line"] or 0))
     all_targets = [t for s in screen_recs for t in s["targets"]]
     severities = Counter(f["severity"] for t in all_targets if t["status"] == "fail" for f in t["findings"])

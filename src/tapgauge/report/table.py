@@ -24,10 +24,17 @@ def _num(v: float) -> str:
 def _device_line(s: dict[str, Any]) -> str:
     d = s["device"]
     unit = d["unit"]
-    parts = [f"{s['platform']}, {s['width_px']}x{s['height_px']} px",
-             f"{d['density_dpi']:g} dpi = {d['px_per_unit']:g} px/{unit} ({d['density_source']})"]
+    coords = s["coordinates"]
+    parts = [f"{s['platform']}, {s['width']:g}x{s['height']:g} {coords}"]
+    if d["density_dpi"] is not None:
+        parts.append(f"{d['density_dpi']:g} dpi = {d['coords_per_unit']:g} px/{unit} ({d['unit_source']})")
+    elif coords == "px":
+        parts.append(f"scale {d['scale']:g} = {d['coords_per_unit']:g} px/{unit} ({d['unit_source']})")
+    elif d["scale"] is not None:
+        parts.append(f"scale {d['scale']:g}")
     if d["xdpi"] is not None:
-        parts.append(f"{d['xdpi']:g} x {d['ydpi']:g} ppi ({d['ppi_source']})")
+        per_inch = "ppi" if coords == "px" else "pt per inch"
+        parts.append(f"{d['xdpi']:g} x {d['ydpi']:g} {per_inch} ({d['ppi_source']})")
     else:
         parts.append("no physical ppi: no mm")
     return "; ".join(parts)
@@ -65,7 +72,8 @@ def write_table(report: dict[str, Any], width: int | None = None, color: bool = 
     console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color,
                       highlight=False, soft_wrap=False)
     for s in report["screens"]:
-        console.print(Text(s["path"], style="bold underline"))
+        title = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
+        console.print(Text(title, style="bold underline"))
         console.print(Text(_device_line(s), style="dim"))
         for notice in s["notices"]:
             console.print(Text(f"note: {notice}", style="yellow"))
