@@ -19,6 +19,9 @@ from tapgauge.config import load_config
 from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
 from tapgauge.pipeline import run_check
+from tapgauge.readers import ReadOptions
+from tapgauge.readers.classes import default_class_map, load_class_map
+from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker
 from tapgauge.report import WRITERS, writer_for
 from tapgauge.report.output import write_atomic
 from tapgauge.report.records import EXIT_ERROR, build_report
@@ -63,6 +66,10 @@ def check(
         help="iOS pixels per point (1, 2 or 3); needed for iOS screenshots, and for mm on iOS trees.")] = None,
     ppi: Annotated[Optional[str], typer.Option(
         help="Physical pixels per inch, one number or X,Y for the natural x and y axes; enables mm.")] = None,
+    classes: Annotated[Optional[Path], typer.Option(
+        help="TOML file with 'target' and 'ignore' lists of annotation class names.")] = None,
+    marker: Annotated[Optional[str], typer.Option(
+        help="Colour of boxes drawn on screenshots: magenta (default), red, orange, yellow, green, cyan, blue, purple or #rrggbb.")] = None,
     fmt: Annotated[str, typer.Option("--format", "-f", help=f"Output format: {', '.join(WRITERS)}.")] = "table",
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write the report here (atomically) instead of stdout.")] = None,
     fail_level: Annotated[Optional[str], typer.Option(
@@ -70,11 +77,12 @@ def check(
     width: Annotated[Optional[int], typer.Option(help="Table width in columns (default: the terminal's, or 80).")] = None,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
-    raise typer.Exit(_check(paths, rules, density, scale, ppi, fmt, output, fail_level, width))
+    raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, fmt, output, fail_level, width))
 
 
 def _check(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
-           fmt: str, output: Path | None, fail_level: str | None, width: int | None) -> int:
+           classes: Path | None, marker: str | None, fmt: str, output: Path | None, fail_level: str | None,
+           width: int | None) -> int:
     try:
         writer = writer_for(fmt)
         config = load_config(Path.cwd())
@@ -88,13 +96,17 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
             ydpi=parse_ppi(ppi)[1] if ppi else None,
             source="command line",
         )
+        options = ReadOptions(
+            classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
+            marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
+        )
     except InputError as exc:
         _err(str(exc))
         return EXIT_ERROR
     except ValueError as exc:
         _err(str(exc))
         return EXIT_ERROR
-    result = run_check(paths, chosen, flags, config.device, announce_skips=rules is not None)
+    result = run_check(paths, chosen, flags, config.device, announce_skips=rules is not None, options=options)
     report = build_report(list(result.screens), list(result.errors), chosen, level)
     for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
         where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]

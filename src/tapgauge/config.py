@@ -14,6 +14,8 @@ from typing import Any
 
 from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
+from tapgauge.readers.classes import ClassMap, class_map_from
+from tapgauge.readers.marked import parse_marker
 
 CONFIG_NAME = "tapgauge.toml"
 
@@ -24,6 +26,8 @@ class Config:
     rules: tuple[str, ...] | None = None
     fail_level: Severity | None = None
     device: DeviceHints = DeviceHints()
+    classes: ClassMap | None = None
+    marker: str | None = None
 
 
 def find_config(start: Path) -> tuple[Path, dict[str, Any], str] | None:
@@ -71,7 +75,7 @@ def load_config(start: Path) -> Config:
     def bad(key: str, msg: str) -> InputError:
         return InputError(path, f"config key '{key}': {msg}", _line(text, key.split(".")[-1]))
 
-    allowed = {"rules", "fail_level", "device"}
+    allowed = {"rules", "fail_level", "device", "classes", "marker"}
     for key in table:
         if key not in allowed:
             raise bad(key, f"unknown key; expected one of {', '.join(sorted(allowed))}")
@@ -81,6 +85,18 @@ def load_config(start: Path) -> Config:
     if rules is not None:
         # Paths in the config are relative to the config file, not the current folder.
         rules = [str(path.parent / r) if r.endswith(".toml") else r for r in rules]
+    classes = None
+    if "classes" in table:
+        if not isinstance(table["classes"], dict):
+            raise bad("classes", "must be a table with 'target' and 'ignore' lists")
+        classes = class_map_from(table["classes"], f"{path.name} [classes]")
+    marker = table.get("marker")
+    if marker is not None:
+        try:
+            parse_marker(str(marker))
+        except ValueError as exc:
+            raise bad("marker", str(exc)) from None
+        marker = str(marker)
     fail_level = None
     if "fail_level" in table:
         try:
@@ -113,4 +129,5 @@ def load_config(start: Path) -> Config:
         density_dpi=density, scale=scale, xdpi=ppi[0] if ppi else None, ydpi=ppi[1] if ppi else None,
         source=f"config {path.name}",
     )
-    return Config(path=path, rules=tuple(rules) if rules is not None else None, fail_level=fail_level, device=hints)
+    return Config(path=path, rules=tuple(rules) if rules is not None else None, fail_level=fail_level, device=hints,
+                  classes=classes, marker=marker)

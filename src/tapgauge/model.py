@@ -88,7 +88,7 @@ class Screen:
     height: float
     rotation: int  # quarter turns from the natural orientation, 0..3
     targets: tuple[Target, ...]
-    hints: DeviceHints = field(default_factory=DeviceHints)  # from a sidecar or picture, if any
+    hints: tuple[DeviceHints, ...] = ()  # what the screen's own files say: sidecar, then picture
     coords: str = "px"  # "px" or "pt"
     image: Path | None = None  # the screenshot that shows this screen, if there is one
     name: str = ""  # which screen in a multi-screen file (COCO, CSV); "" for one-screen files

@@ -1,37 +1,133 @@
-"""Readers turn input files into Screens. They know nothing of rules."""
+"""Readers turn input files into Screens. They know nothing of rules.
+
+A screen may be a bundle of files sharing a stem: `home.xml` (a window dump or an
+element tree), `home.png` (its screenshot, for overlays) and `home.device.txt`.
+"""
 
 from __future__ import annotations
 
 import os
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from tapgauge.model import DeviceHints, InputError, Screen
 from tapgauge.readers.android import is_android_root, read_android
-from tapgauge.readers.sidecar import SIDECAR_SUFFIX, read_sidecar, sidecar_for
+from tapgauge.readers.annotations import (
+    coco_image_names,
+    csv_image_names,
+    is_voc_root,
+    read_coco,
+    read_csv,
+    read_voc,
+    read_yolo,
+)
+from tapgauge.readers.classes import ClassMap, default_class_map
+from tapgauge.readers.images import IMAGE_SUFFIXES, image_size
+from tapgauge.readers.ios import is_ios_root, read_ios
+from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker, read_marked
+from tapgauge.readers.sidecar import FOLDER_SIDECAR, SIDECAR_SUFFIX, read_sidecar, sidecar_for
 from tapgauge.readers.xmlsafe import parse_xml
 
-SCREEN_SUFFIXES = (".xml",)
+NOT_LABELS = {FOLDER_SIDECAR, "classes.txt"}
+
+
+@dataclass(frozen=True)
+class ReadOptions:
+    classes: ClassMap = field(default_factory=default_class_map)
+    marker_hue: float = field(default_factory=lambda: parse_marker(DEFAULT_MARKER))
+
+
+def _hints(path: Path) -> tuple[DeviceHints, ...]:
+    side = sidecar_for(path)
+    return (read_sidecar(side),) if side is not None else ()
+
+
+def _picture(path: Path) -> Path | None:
+    return next((path.with_suffix(s) for s in IMAGE_SUFFIXES if path.with_suffix(s).is_file()), None)
+
+
+def read_screens(path: Path, options: ReadOptions | None = None) -> list[Screen]:
+    """Read one input file into the screens it holds (COCO and CSV files may hold many)."""
+    opts = options or ReadOptions()
+    suffix = path.suffix.lower()
+    if suffix == ".json":
+        return read_coco(path, opts.classes, _hints)
+    if suffix == ".csv":
+        return read_csv(path, opts.classes, _hints)
+    if suffix == ".txt":
+        return [read_yolo(path, opts.classes, _hints)]
+    if suffix in IMAGE_SUFFIXES:
+        return [read_marked(path, opts.marker_hue, _hints(path))]
+    root = parse_xml(path)
+    if is_android_root(root):
+        return [read_android(path, root, _hints(path), image=_picture(path))]
+    if is_ios_root(root):
+        return [_with_scale_from_picture(read_ios(path, root, _hints(path), image=_picture(path)))]
+    if is_voc_root(root):
+        return [read_voc(path, root, opts.classes, _hints)]
+    raise InputError(
+        path,
+        f"root element is <{root.tag}>; expected <hierarchy> (Android window dump), XCUIElementType* "
+        "elements (iOS element tree) or <annotation> (Pascal VOC)",
+        root.sourceline,
+    )
+
+
+def _with_scale_from_picture(screen: Screen) -> Screen:
+    """An iOS tree in points beside its screenshot in pixels: the width ratio is the scale."""
+    if screen.image is None or screen.width <= 0:
+        return screen
+    width_px, _ = image_size(screen.image)
+    ratio = width_px / screen.width
+    if abs(ratio - round(ratio)) > 0.02 or round(ratio) < 1:
+        return screen  # not a whole-number scale: do not guess
+    seen = DeviceHints(scale=float(round(ratio)), source=f"screenshot {screen.image.name} width")
+    return replace(screen, hints=(*screen.hints, seen))
 
 
 def read_screen(path: Path) -> Screen:
-    root = parse_xml(path)
-    if not is_android_root(root):
-        raise InputError(
-            path,
-            f"root element is <{root.tag}>; expected <hierarchy> (an Android window dump "
-            "from `adb shell uiautomator dump`)",
-            root.sourceline,
-        )
-    side = sidecar_for(path)
-    hints = read_sidecar(side) if side is not None else DeviceHints()
-    return read_android(path, root, hints)
+    """Read a file that holds exactly one screen."""
+    screens = read_screens(path)
+    if len(screens) != 1:
+        raise InputError(path, f"holds {len(screens)} screens; expected one")
+    return screens[0]
+
+
+def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
+    """The primary inputs of one folder: screens, annotations, and pictures nothing else claims."""
+    names = set(files)
+    stems_claimed: set[str] = set()
+    inputs: list[Path] = []
+    referenced: set[str] = set()
+    for name in sorted(files):
+        p = folder / name
+        low = name.lower()
+        if low.endswith(SIDECAR_SUFFIX) or name in NOT_LABELS:
+            continue
+        if low.endswith(".xml"):
+            inputs.append(p)
+            stems_claimed.add(p.stem)
+        elif low.endswith(".json"):
+            inputs.append(p)
+            referenced |= coco_image_names(p)
+        elif low.endswith(".csv"):
+            inputs.append(p)
+            referenced |= csv_image_names(p)
+        elif low.endswith(".txt") and any(p.stem + s in names for s in IMAGE_SUFFIXES):
+            inputs.append(p)  # YOLO labels beside their image
+            stems_claimed.add(p.stem)
+    for name in sorted(files):
+        p = folder / name
+        if p.suffix.lower() in IMAGE_SUFFIXES and p.stem not in stems_claimed and name not in referenced:
+            inputs.append(p)  # a lone screenshot: boxes marked on it
+    return sorted(inputs)
 
 
 def discover(paths: list[Path]) -> tuple[list[Path], list[InputError]]:
-    """Expand files and folders (recursively) into screen files, in a stable order.
+    """Expand files and folders (recursively) into input files, in a stable order.
 
-    Files named directly are always taken; in folders, files with a screen suffix.
-    Symbolic links to folders are not followed, so a link loop cannot trap the walk.
+    Files named directly are always taken. Symbolic links to folders are not
+    followed, so a link loop cannot trap the walk.
     """
     found: list[Path] = []
     errors: list[InputError] = []
@@ -41,10 +137,7 @@ def discover(paths: list[Path]) -> tuple[list[Path], list[InputError]]:
         elif given.is_dir():
             for folder, dirs, files in os.walk(given):
                 dirs.sort()
-                for name in sorted(files):
-                    if name.lower().endswith(SCREEN_SUFFIXES) and not name.endswith(SIDECAR_SUFFIX):
-                        found.append(Path(folder) / name)
+                found.extend(_folder_inputs(Path(folder), files))
         else:
             errors.append(InputError(given, "no such file or folder"))
-    unique = list(dict.fromkeys(found))
-    return unique, errors
+    return list(dict.fromkeys(found)), errors

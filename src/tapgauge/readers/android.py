@@ -68,7 +68,7 @@ def _drawing_key(el: etree._Element, position: int) -> tuple[int, int]:
         return (position, position)
 
 
-def read_android(path: Path, root: etree._Element, hints: DeviceHints) -> Screen:
+def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None) -> Screen:
     rotation_raw = root.get("rotation", "0")
     if rotation_raw.strip() not in ("0", "1", "2", "3"):
         raise InputError(path, f"rotation={rotation_raw!r}; expected 0, 1, 2 or 3", root.sourceline)
@@ -118,5 +118,5 @@ def read_android(path: Path, root: etree._Element, hints: DeviceHints) -> Screen
     height = _int_attr(root, "height", path) or extent[1]
     return Screen(
         path=path, platform="android", width=width, height=height, rotation=rotation,
-        targets=numbered, hints=hints,
+        targets=numbered, hints=hints, image=image,
     )
