@@ -23,9 +23,12 @@ from tapgauge.readers.images import load_rgb
 MARKER_HUES = {"magenta": 300.0, "red": 0.0, "orange": 30.0, "yellow": 60.0, "green": 120.0,
                "cyan": 180.0, "blue": 240.0, "purple": 275.0}
 DEFAULT_MARKER = "magenta"
-HUE_TOLERANCE = 12.0  # degrees either side; JPEG shifts hue a little at edges
+HUE_TOLERANCE = 16.0  # degrees either side; JPEG shifts hue at edges (tuned on bench/marker_accuracy.py)
 MIN_SATURATION = 0.45
 MIN_VALUE = 0.40
+FAINT_SATURATION = 0.20  # faint pixels count only when joined to strong ones
+FAINT_HUE_TOLERANCE = 32.0
+CLOSE_PX = 5  # closing bridges gaps of a few pixels; boxes need a few pixels between them
 MIN_SIDE = 8  # px: smaller blobs are specks, not boxes
 RECTANGULAR = 0.85  # contour area / bounding-box area for a shape to count as a box
 
@@ -45,23 +48,69 @@ def parse_marker(text: str) -> float:
     return h * 360
 
 
-def marker_mask(rgb: np.ndarray, hue: float) -> np.ndarray:
+def marker_mask(rgb: np.ndarray, hue: float) -> tuple[np.ndarray, np.ndarray]:
+    """Pixels of the marker colour, with hysteresis: faint pixels count when they touch strong ones.
+    Returns the closed mask (for shapes) and the strong pixels alone (for edges).
+
+    JPEG's halved colour resolution washes a thin coloured line out to half its
+    saturation; the faint band keeps such lines whole without letting in pale UI.
+    """
     import cv2  # imported here: only marked screenshots need OpenCV
 
     hsv = cv2.cvtColor(np.ascontiguousarray(rgb), cv2.COLOR_RGB2HSV)  # H in 0..179
     h = hsv[..., 0].astype(np.float32) * 2
     dh = np.abs(h - hue)
     dh = np.minimum(dh, 360 - dh)
-    mask = (dh <= HUE_TOLERANCE) & (hsv[..., 1] >= MIN_SATURATION * 255) & (hsv[..., 2] >= MIN_VALUE * 255)
-    mask = mask.astype(np.uint8) * 255
-    return cv2.morphologyEx(mask, cv2.MORPH_CLOSE, np.ones((3, 3), np.uint8))
+    sat, val = hsv[..., 1], hsv[..., 2]
+    strong = (dh <= HUE_TOLERANCE) & (sat >= MIN_SATURATION * 255) & (val >= MIN_VALUE * 255)
+    faint = (dh <= FAINT_HUE_TOLERANCE) & (sat >= FAINT_SATURATION * 255) & (val >= MIN_VALUE * 255)
+    count, labels = cv2.connectedComponents(faint.astype(np.uint8), connectivity=8)
+    keep = np.zeros(count, dtype=bool)
+    keep[np.unique(labels[strong])] = True
+    keep[0] = False
+    mask = keep[labels].astype(np.uint8) * 255
+    return cv2.morphologyEx(mask, cv2.MORPH_CLOSE, np.ones((CLOSE_PX, CLOSE_PX), np.uint8)), strong
+
+
+def _settle(strong: np.ndarray, box: tuple[int, int, int, int], inward: bool) -> tuple[int, int, int, int]:
+    """Move each edge to where the line of pixels just inside it is mostly strong marker colour
+    (inward=True, a filled box) or just outside it is (inward=False, an outline's hole).
+
+    The faint band that keeps lines whole also bleeds a pixel or two past the true
+    edge; the half-coverage line of the strong colour is the better edge.
+    """
+    l, t, r, b = box
+    h, w = strong.shape
+    for _ in range(3):
+        moved = False
+        if inward:
+            if r - l > 2 and strong[t:b, l].mean() < 0.5:
+                l, moved = l + 1, True
+            if r - l > 2 and strong[t:b, r - 1].mean() < 0.5:
+                r, moved = r - 1, True
+            if b - t > 2 and strong[t, l:r].mean() < 0.5:
+                t, moved = t + 1, True
+            if b - t > 2 and strong[b - 1, l:r].mean() < 0.5:
+                b, moved = b - 1, True
+        else:
+            if l > 0 and strong[t:b, l - 1].mean() < 0.5:
+                l, moved = l - 1, True
+            if r < w and strong[t:b, r].mean() < 0.5:
+                r, moved = r + 1, True
+            if t > 0 and strong[t - 1, l:r].mean() < 0.5:
+                t, moved = t - 1, True
+            if b < h and strong[b, l:r].mean() < 0.5:
+                b, moved = b + 1, True
+        if not moved:
+            break
+    return l, t, r, b
 
 
 def find_boxes(rgb: np.ndarray, hue: float) -> list[tuple[int, int, int, int]]:
     """Boxes [l, t, r, b) (right/bottom exclusive) marked in `hue`, top-to-bottom, left-to-right."""
     import cv2
 
-    mask = marker_mask(rgb, hue)
+    mask, strong = marker_mask(rgb, hue)
     contours, hierarchy = cv2.findContours(mask, cv2.RETR_CCOMP, cv2.CHAIN_APPROX_SIMPLE)
     boxes: list[tuple[int, int, int, int]] = []
     if hierarchy is None:
@@ -87,9 +136,9 @@ def find_boxes(rgb: np.ndarray, hue: float) -> list[tuple[int, int, int, int]]:
             if hole_area < RECTANGULAR * (hw - 1) * (hh - 1):
                 continue  # an outline around something not rectangular
             # A hole contour runs along the ring's inner pixels: the free inside starts one further in.
-            boxes.append((hx + 1, hy + 1, hx + hw - 1, hy + hh - 1))
+            boxes.append(_settle(strong, (hx + 1, hy + 1, hx + hw - 1, hy + hh - 1), inward=False))
         elif np.count_nonzero(mask[y:y + h, x:x + w]) >= RECTANGULAR * w * h:
-            boxes.append((x, y, x + w, y + h))
+            boxes.append(_settle(strong, (x, y, x + w, y + h), inward=True))
     return sorted(boxes, key=lambda b: (b[1], b[0]))
 
 
