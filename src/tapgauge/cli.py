@@ -127,6 +127,29 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
     return int(report["summary"]["exit_code"])
 
 
+@app.command("capture")
+def capture_cmd(
+    name: Annotated[str, typer.Argument(help="Screen name: writes NAME.xml, NAME.png and NAME.device.txt.")],
+    serial: Annotated[Optional[str], typer.Option(help="adb serial of the device, when several are connected.")] = None,
+    out: Annotated[Path, typer.Option("--out", help="Folder to write the bundle into.")] = Path("."),
+    force: Annotated[bool, typer.Option("--force", help="Replace an existing bundle of that name.")] = False,
+) -> None:
+    """Save the current screen of a connected Android device (adb) as a bundle that check reads."""
+    from tapgauge.capture import CaptureError, capture
+
+    try:
+        written = capture(name, out, serial=serial, force=force)
+    except CaptureError as exc:
+        _err(str(exc))
+        raise typer.Exit(EXIT_ERROR) from None
+    except OSError as exc:
+        _err(f"cannot write the bundle: {exc}")
+        raise typer.Exit(EXIT_ERROR) from None
+    for p in written:
+        typer.echo(f"wrote {p}")
+    typer.echo(f"check it with: tapgauge check {written[0]}")
+
+
 @app.command("rules")
 def list_rules() -> None:
     """List the built-in rule sets, their rules and published sources."""

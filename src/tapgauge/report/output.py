@@ -7,12 +7,13 @@ import tempfile
 from pathlib import Path
 
 
-def write_atomic(path: Path, text: str) -> None:
+def write_atomic(path: Path, content: str | bytes) -> None:
     folder = path.parent if str(path.parent) else Path(".")
+    data = content.encode("utf-8") if isinstance(content, str) else content
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
     try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
         os.replace(tmp, path)
