@@ -12,6 +12,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from xml.sax.saxutils import quoteattr
 
+from PIL import Image, ImageDraw, ImageFont
+
 HERE = Path(__file__).resolve().parent
 PACKAGE = "org.fernwick.allotments"
 DENSITY = 440  # px per dp = 440 / 160 = 2.75
@@ -63,15 +65,96 @@ def _write(node: N, index: int, depth: int, out: list[str]) -> None:
     out.append(f"{pad}</node>")
 
 
-def dump(content: list[N], rotation: int = 0, size: tuple[float, float] = SCREEN_DP) -> str:
+@dataclass
+class AndroidScreen:
+    root: N
+    rotation: int
+    size: tuple[float, float]  # dp
+
+    def xml(self) -> str:
+        out = ["<?xml version='1.0' encoding='UTF-8' standalone='yes' ?>", f'<hierarchy rotation="{self.rotation}">']
+        _write(self.root, 0, 1, out)
+        out.append("</hierarchy>")
+        return "\n".join(out) + "\n"
+
+    def png(self) -> Image.Image:
+        w, h = self.size
+        img = Image.new("RGB", (_px(w), _px(h)), PAPER)
+        draw = ImageDraw.Draw(img)
+        _paint(draw, self.root)
+        return img
+
+
+def dump(content: list[N], rotation: int = 0, size: tuple[float, float] = SCREEN_DP) -> AndroidScreen:
     w, h = size
     root = N("android.widget.FrameLayout", (0, 0, w, h), kids=[
         N("android.widget.LinearLayout", (0, 0, w, h), rid="root", kids=content),
     ])
-    out = ["<?xml version='1.0' encoding='UTF-8' standalone='yes' ?>", f'<hierarchy rotation="{rotation}">']
-    _write(root, 0, 1, out)
-    out.append("</hierarchy>")
-    return "\n".join(out) + "\n"
+    return AndroidScreen(root, rotation, size)
+
+
+# ---------------------------------------------------------------- pictures
+PAPER = (252, 251, 247)
+INK = (34, 40, 36)
+LEAF = (58, 110, 78)
+SOIL = (120, 96, 70)
+MIST = (228, 234, 228)
+
+
+def font(px: float) -> ImageFont.FreeTypeFont | ImageFont.ImageFont:
+    return ImageFont.load_default(size=max(8, round(px)))
+
+
+def _paint(draw: ImageDraw.ImageDraw, node: N) -> None:
+    """A plain rendering of a node tree, so overlays have a screenshot to sit on."""
+    if not node.visible:
+        return
+    l, t, r, b = (_px(v) for v in node.box)
+    cls = node.cls.rsplit(".", 1)[-1]
+    label = node.text or node.desc
+    big = (r - l) > _px(100)
+    if node.rid == "toolbar":
+        draw.rectangle([l, t, r, b], fill=LEAF)
+    elif node.rid == "photo":
+        draw.rectangle([l, t, r, b], fill=(196, 214, 180))
+        draw.polygon([(l, b), (l + (r - l) // 3, t + (b - t) // 2), (l + (r - l) // 2, b)], fill=(150, 180, 130))
+    elif cls == "Button":
+        draw.rounded_rectangle([l, t, r, b], radius=_px(6), fill=LEAF if node.enabled else (190, 196, 190))
+        if label and big:
+            draw.text(((l + r) / 2, (t + b) / 2), label, fill=PAPER, font=font(_px(15)), anchor="mm")
+        elif label:
+            draw.text(((l + r) / 2, (t + b) / 2), label, fill=PAPER, font=font((b - t) * 0.45), anchor="mm")
+    elif cls in ("ImageButton", "ImageView", "FloatingActionButton"):
+        fill = SOIL if cls == "FloatingActionButton" else (90, 100, 92)
+        if node.rid == "star":
+            draw.regular_polygon(((l + r) / 2, (t + b) / 2, (r - l) / 2), 5, fill=(222, 170, 40))
+        elif node.rid in ("back", "search") or node.rid.startswith("tool") or node.rid in ("help", "clear_name", "day_14_remove"):
+            draw.ellipse([l + (r - l) * 0.15, t + (b - t) * 0.15, r - (r - l) * 0.15, b - (b - t) * 0.15], outline=fill,
+                         width=max(2, (r - l) // 10))
+        else:
+            draw.ellipse([l, t, r, b], fill=fill)
+    elif cls == "EditText":
+        draw.rectangle([l, t, r, b], fill=MIST)
+        draw.line([l, b - 3, r, b - 3], fill=LEAF, width=3)
+        draw.text((l + _px(12), (t + b) / 2), label, fill=INK, font=font(_px(15)), anchor="lm")
+    elif cls == "CheckBox":
+        side = b - t
+        draw.rectangle([l, t, l + side, b], outline=LEAF, width=3)
+        draw.text((l + side + _px(8), (t + b) / 2), label, fill=INK, font=font(_px(14)), anchor="lm")
+    elif cls == "Switch":
+        draw.text((l + _px(8), (t + b) / 2), label, fill=INK, font=font(_px(16)), anchor="lm")
+        draw.rounded_rectangle([r - _px(52), t + _px(16), r - _px(8), b - _px(16)], radius=_px(12),
+                               fill=LEAF if node.checked else (200, 200, 196))
+    elif cls == "Chip":
+        draw.rounded_rectangle([l, t, r, b], radius=(b - t) // 2, outline=LEAF, width=3, fill=MIST)
+        draw.text(((l + r) / 2, (t + b) / 2), label, fill=INK, font=font(_px(13)), anchor="mm")
+    elif cls == "TextView" and label:
+        draw.text((l, (t + b) / 2), label, fill=PAPER if t < _px(80) else INK, font=font(min(_px(18), (b - t) * 0.7)),
+                  anchor="lm")
+    elif cls == "LinearLayout" and node.click:
+        draw.line([l, b - 1, r, b - 1], fill=(210, 214, 208), width=2)
+    for kid in node.kids:
+        _paint(draw, kid)
 
 
 def toolbar(title: str, w: float = SCREEN_DP[0]) -> N:
@@ -81,7 +164,7 @@ def toolbar(title: str, w: float = SCREEN_DP[0]) -> N:
     ])
 
 
-def plots() -> str:
+def plots() -> AndroidScreen:
     """A list of plots: comfortable rows, a small star in each, a row cut off by the list's edge."""
     w = SCREEN_DP[0]
     rows = []
@@ -106,7 +189,7 @@ def plots() -> str:
     ])
 
 
-def plot_detail() -> str:
+def plot_detail() -> AndroidScreen:
     """Icon row with the WCAG spacing exception, an icon jammed against a button, a disabled button."""
     w = SCREEN_DP[0]
     icons = []
@@ -131,7 +214,7 @@ def plot_detail() -> str:
     ])
 
 
-def booking_form() -> str:
+def booking_form() -> AndroidScreen:
     """A date chip partly covered by a badge drawn over it: the overlap leaves too little."""
     w = SCREEN_DP[0]
     return dump([
@@ -149,7 +232,7 @@ def booking_form() -> str:
     ])
 
 
-def settings_landscape() -> str:
+def settings_landscape() -> AndroidScreen:
     """Reminder settings in landscape (rotation 1): every target comfortable."""
     w, h = SCREEN_DP[1], SCREEN_DP[0]
     rows = []
@@ -169,18 +252,23 @@ $ adb shell dumpsys display | grep -m1 DisplayDeviceInfo
 """
 
 
-def main() -> None:
-    out = HERE / "android"
+def write_android(out: Path) -> None:
     out.mkdir(exist_ok=True)
-    files = {
-        "plots.xml": plots(),
-        "plot_detail.xml": plot_detail(),
-        "booking_form.xml": booking_form(),
-        "settings_landscape.xml": settings_landscape(),
-        "device.txt": DEVICE_TXT,
-    }
-    for name, text in files.items():
-        (out / name).write_text(text, encoding="utf-8")
+    screens = {"plots": plots(), "plot_detail": plot_detail(), "booking_form": booking_form(),
+               "settings_landscape": settings_landscape()}
+    for name, screen in screens.items():
+        (out / f"{name}.xml").write_text(screen.xml(), encoding="utf-8")
+        screen.png().save(out / f"{name}.png", optimize=True)
+    (out / "device.txt").write_text(DEVICE_TXT, encoding="utf-8")
+
+
+def main() -> None:
+    from demo_other import write_annotated, write_ios, write_marked  # the other input kinds
+
+    write_android(HERE / "android")
+    write_ios(HERE / "ios")
+    write_annotated(HERE / "annotated")
+    write_marked(HERE / "marked")
 
 
 if __name__ == "__main__":

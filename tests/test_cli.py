@@ -55,6 +55,12 @@ def test_demo_covers_every_case_the_issue_names(in_repo: Path, capsys: pytest.Ca
     assert {"pass", "fail", "unmeasurable", "unchecked"} <= set(by_status)
     assert any("passes by spacing" in n for n in notes)
     assert "Remove date" in by_status["fail"] and "14" in by_status["fail"]  # the overlap
+    screens = report["screens"]
+    assert {s["platform"] for s in screens} == {"android", "ios"}
+    assert {s["coordinates"] for s in screens} == {"px", "pt"}
+    suffixes = {s["path"].rsplit(".", 1)[-1] for s in screens}
+    assert {"xml", "csv", "png"} <= suffixes  # dumps/trees/VOC, our CSV, a marked screenshot
+    assert sum(1 for s in screens if s["image"]) == len(screens)  # every demo screen has its picture
     kinds = {f["rule"] for s in report["screens"] for t in s["targets"] for f in t["findings"]}
     assert {"wcag22-aa/target-size", "android-guideline/touch-size", "android-guideline/touch-spacing"} <= kinds
 
@@ -185,4 +191,4 @@ def test_installed_command_runs_from_another_folder(tmp_path: Path) -> None:
         proc = subprocess.run([*cmd, "check", str(DEMO), "-f", "json"], cwd=tmp_path, capture_output=True,
                               text=True, timeout=120)
         assert proc.returncode == 1, proc.stderr
-        assert json.loads(proc.stdout)["summary"]["screens"] == 4
+        assert json.loads(proc.stdout)["summary"]["screens"] == 8

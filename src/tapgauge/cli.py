@@ -70,6 +70,8 @@ def check(
         help="TOML file with 'target' and 'ignore' lists of annotation class names.")] = None,
     marker: Annotated[Optional[str], typer.Option(
         help="Colour of boxes drawn on screenshots: magenta (default), red, orange, yellow, green, cyan, blue, purple or #rrggbb.")] = None,
+    overlay: Annotated[Optional[Path], typer.Option(
+        help="Write an overlay picture per screen into this folder: targets marked by status.")] = None,
     fmt: Annotated[str, typer.Option("--format", "-f", help=f"Output format: {', '.join(WRITERS)}.")] = "table",
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write the report here (atomically) instead of stdout.")] = None,
     fail_level: Annotated[Optional[str], typer.Option(
@@ -77,12 +79,12 @@ def check(
     width: Annotated[Optional[int], typer.Option(help="Table width in columns (default: the terminal's, or 80).")] = None,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
-    raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, fmt, output, fail_level, width))
+    raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width))
 
 
 def _check(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
-           classes: Path | None, marker: str | None, fmt: str, output: Path | None, fail_level: str | None,
-           width: int | None) -> int:
+           classes: Path | None, marker: str | None, overlay: Path | None, fmt: str, output: Path | None,
+           fail_level: str | None, width: int | None) -> int:
     try:
         writer = writer_for(fmt)
         config = load_config(Path.cwd())
@@ -111,6 +113,14 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
     for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
         where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
         _err(f"{where}: {e['message']}")
+    if overlay is not None:
+        from tapgauge.report.overlay import write_overlays  # Pillow drawing only when asked
+
+        try:
+            write_overlays(report, overlay)
+        except OSError as exc:
+            _err(f"{overlay}: cannot write overlay pictures: {exc.strerror or exc}")
+            return EXIT_ERROR
     if fmt == "table" and output is None:
         console_width = width or Console().width
         text = writer(report, width=console_width, color=sys.stdout.isatty())
