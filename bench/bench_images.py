@@ -1,0 +1,70 @@
+"""Benchmark: reading screenshots against the floor of decoding them, side by side.
+
+Usage: python bench/bench_images.py [--repeat 20]
+Uses the demo's 1080x2400 screenshots. Times (median of --repeat, one process):
+  floor:        OpenCV decoding the PNG (cv2.imread), and Pillow decoding it;
+  annotated:    tapgauge reading the VOC annotation with its picture (header + checksums);
+  marked:       tapgauge finding the marker boxes (decode + colour mask + contours);
+and the whole check of each. Ratios are to the OpenCV decode. No timing is asserted anywhere.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import time
+from pathlib import Path
+
+import cv2
+from PIL import Image
+
+from tapgauge.model import DeviceHints
+from tapgauge.pipeline import run_check
+from tapgauge.readers import read_screens
+from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
+
+DEMO = Path(__file__).resolve().parent.parent / "screens_demo"
+
+
+def timed(fn, repeat: int) -> float:  # type: ignore[no-untyped-def]
+    fn()
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--repeat", type=int, default=20)
+    a = ap.parse_args()
+    rulesets = select_rulesets(list(DEFAULT_RULESETS))
+    voc, voc_png = DEMO / "annotated" / "harvest_log.xml", DEMO / "annotated" / "harvest_log.png"
+    marked = DEMO / "marked" / "tool_shed.png"
+
+    def pil_decode(p: Path) -> None:
+        with Image.open(p) as im:
+            im.load()
+
+    rows = [
+        ("OpenCV decode (floor), annotated picture", lambda: cv2.imread(str(voc_png))),
+        ("Pillow decode, annotated picture", lambda: pil_decode(voc_png)),
+        ("read VOC + picture", lambda: read_screens(voc)),
+        ("check VOC screen end to end", lambda: run_check([voc], rulesets, DeviceHints(), DeviceHints())),
+        ("OpenCV decode (floor), marked picture", lambda: cv2.imread(str(marked))),
+        ("read marked screenshot (find boxes)", lambda: read_screens(marked)),
+        ("check marked screen end to end", lambda: run_check([marked], rulesets, DeviceHints(), DeviceHints())),
+    ]
+    results = {name: timed(fn, a.repeat) for name, fn in rows}
+    floor = {"annotated": results[rows[0][0]], "marked": results[rows[4][0]]}
+    print("| step (1080x2400 PNG) | median ms | ratio to OpenCV decode |")
+    print("|---|---:|---:|")
+    for name, _ in rows:
+        base = floor["marked"] if "marked" in name else floor["annotated"]
+        print(f"| {name} | {results[name] * 1000:.1f} | {results[name] / base:.2f}x |")
+
+
+if __name__ == "__main__":
+    main()
