@@ -127,3 +127,28 @@ def test_class_table_can_be_overridden(tmp_path: Path) -> None:
     (screen,) = read_screens(tmp_path / "shot.xml", ReadOptions(classes=load_class_map(table)))
     assert [t.cls for t in screen.targets] == ["doohickey"]
     assert default_class_map().target != load_class_map(table).target
+
+
+def test_decompression_bomb_limit_is_honoured(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # Pillow's own limit (Image.MAX_IMAGE_PIXELS) decides; here it is lowered so a small picture trips it.
+    picture(tmp_path)
+    voc(tmp_path)
+    monkeypatch.setattr(Image, "MAX_IMAGE_PIXELS", 1000)
+    with pytest.raises(InputError, match="too large to open safely"):
+        read_screens(tmp_path / "shot.xml")
+
+
+def test_bad_screenshot_input_does_not_stop_the_batch(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    from tapgauge.cli import main
+
+    good, bad = tmp_path / "good", tmp_path / "bad"
+    for d, cls in ((good, "button"), (bad, "doohickey")):
+        d.mkdir()
+        picture(d)
+        voc(d, cls=cls)
+        (d / "device.txt").write_text("density: 160\n")
+    (tmp_path / "broken.png").write_bytes(b"\x89PNG\r\n\x1a\nnope")
+    assert main(["check", str(tmp_path), "-f", "json"]) == 2
+    report = json.loads(capsys.readouterr().out)
+    assert [s["path"].rsplit("/", 2)[-2] for s in report["screens"]] == ["good"]
+    assert sorted(e["path"].rsplit("/", 1)[-1] for e in report["errors"]) == ["broken.png", "shot.xml"]
