@@ -11,12 +11,12 @@ and the whole check of each. Ratios are to the OpenCV decode. No timing is asser
 from __future__ import annotations
 
 import argparse
-import statistics
-import time
 from pathlib import Path
 
 import cv2
 from PIL import Image
+
+from timing import median_seconds
 
 from tapgauge.model import DeviceHints
 from tapgauge.pipeline import run_check
@@ -24,16 +24,6 @@ from tapgauge.readers import read_screens
 from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
 
 DEMO = Path(__file__).resolve().parent.parent / "screens_demo"
-
-
-def timed(fn, repeat: int) -> float:  # type: ignore[no-untyped-def]
-    fn()
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def main() -> None:
@@ -57,7 +47,7 @@ def main() -> None:
         ("read marked screenshot (find boxes)", lambda: read_screens(marked)),
         ("check marked screen end to end", lambda: run_check([marked], rulesets, DeviceHints(), DeviceHints())),
     ]
-    results = {name: timed(fn, a.repeat) for name, fn in rows}
+    results = {name: median_seconds(fn, a.repeat) for name, fn in rows}
     floor = {"annotated": results[rows[0][0]], "marked": results[rows[4][0]]}
     print("| step (1080x2400 PNG) | median ms | ratio to OpenCV decode |")
     print("|---|---:|---:|")

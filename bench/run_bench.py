@@ -10,14 +10,14 @@ It prints screens per second and the ratio to the floor. No timing is asserted a
 from __future__ import annotations
 
 import argparse
-import statistics
 import tempfile
-import time
 from pathlib import Path
 from subprocess import run
 import sys
 
 from lxml import etree
+
+from timing import median_seconds
 
 from tapgauge.model import DeviceHints
 from tapgauge.pipeline import run_check
@@ -38,15 +38,6 @@ def pipeline(folder: Path, rulesets: list) -> None:
     build_report(list(result.screens), list(result.errors), rulesets, Severity.ERROR)
 
 
-def timed(fn, repeat: int) -> float:
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
-
-
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--targets", type=int, nargs="+", default=[200, 1000, 5000])
@@ -62,8 +53,8 @@ def main() -> None:
             run([sys.executable, str(HERE / "make_corpus.py"), tmp, "--screens", str(a.screens), "--targets", str(n)], check=True)
             files = sorted(folder.glob("*.xml"))
             pipeline(folder, rulesets)  # warm caches
-            f = timed(lambda: floor(files), a.repeat)
-            t = timed(lambda: pipeline(folder, rulesets), a.repeat)
+            f = median_seconds(lambda: floor(files), a.repeat)
+            t = median_seconds(lambda: pipeline(folder, rulesets), a.repeat)
             print(f"| {n} | {a.screens} | {f:.4f} | {t:.4f} | {a.screens / t:.1f} | {t / f:.1f}x |")
 
 

@@ -12,17 +12,11 @@ from __future__ import annotations
 from pathlib import Path
 from xml.sax.saxutils import quoteattr
 
-from PIL import Image, ImageDraw, ImageFont
+from PIL import Image, ImageDraw
 
-PAPER = (252, 251, 247)
-INK = (34, 40, 36)
-LEAF = (58, 110, 78)
-MIST = (228, 234, 228)
+from make_demo import INK, LEAF, MIST, PAPER, font  # one palette for the whole demo app
+
 MARKER = (255, 0, 255)
-
-
-def font(px: float) -> ImageFont.FreeTypeFont | ImageFont.ImageFont:
-    return ImageFont.load_default(size=max(8, round(px)))
 
 
 # ---------------------------------------------------------------- iOS

@@ -102,10 +102,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
             classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
             marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
         )
-    except InputError as exc:
-        _err(str(exc))
-        return EXIT_ERROR
-    except ValueError as exc:
+    except (InputError, ValueError) as exc:
         _err(str(exc))
         return EXIT_ERROR
     result = run_check(paths, chosen, flags, config.device, announce_skips=rules is not None, options=options)
