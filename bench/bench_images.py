@@ -18,12 +18,18 @@ from PIL import Image
 
 from timing import median_seconds
 
-from tapgauge.model import DeviceHints
-from tapgauge.pipeline import run_check
+from tapgauge.pipeline import Settings, run_check
+from tapgauge.profiles import DEFAULT_PROFILES, select_profiles
+from tapgauge.score import Scoring
 from tapgauge.readers import read_screens
 from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
 
 DEMO = Path(__file__).resolve().parent.parent / "screens_demo"
+
+
+def settings(rulesets: list) -> Settings:  # type: ignore[type-arg]
+    """What `tapgauge check` does by default: the default rule sets and profiles."""
+    return Settings(tuple(rulesets), scoring=Scoring(tuple(select_profiles(list(DEFAULT_PROFILES)))))
 
 
 def main() -> None:
@@ -42,10 +48,10 @@ def main() -> None:
         ("OpenCV decode (floor), annotated picture", lambda: cv2.imread(str(voc_png))),
         ("Pillow decode, annotated picture", lambda: pil_decode(voc_png)),
         ("read VOC + picture", lambda: read_screens(voc)),
-        ("check VOC screen end to end", lambda: run_check([voc], rulesets, DeviceHints(), DeviceHints())),
+        ("check VOC screen end to end", lambda: run_check([voc], settings(rulesets))),
         ("OpenCV decode (floor), marked picture", lambda: cv2.imread(str(marked))),
         ("read marked screenshot (find boxes)", lambda: read_screens(marked)),
-        ("check marked screen end to end", lambda: run_check([marked], rulesets, DeviceHints(), DeviceHints())),
+        ("check marked screen end to end", lambda: run_check([marked], settings(rulesets))),
     ]
     results = {name: median_seconds(fn, a.repeat) for name, fn in rows}
     floor = {"annotated": results[rows[0][0]], "marked": results[rows[4][0]]}

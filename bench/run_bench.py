@@ -19,8 +19,9 @@ from lxml import etree
 
 from timing import median_seconds
 
-from tapgauge.model import DeviceHints
-from tapgauge.pipeline import run_check
+from tapgauge.pipeline import Settings, run_check
+from tapgauge.profiles import DEFAULT_PROFILES, select_profiles
+from tapgauge.score import Scoring
 from tapgauge.report.records import build_report
 from tapgauge.model import Severity
 from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
@@ -34,8 +35,13 @@ def floor(files: list[Path]) -> None:
 
 
 def pipeline(folder: Path, rulesets: list) -> None:
-    result = run_check([folder], rulesets, DeviceHints(), DeviceHints())
+    result = run_check([folder], settings(rulesets))
     build_report(list(result.screens), list(result.errors), rulesets, Severity.ERROR)
+
+
+def settings(rulesets: list) -> Settings:  # type: ignore[type-arg]
+    """What `tapgauge check` does by default: the default rule sets and profiles."""
+    return Settings(tuple(rulesets), scoring=Scoring(tuple(select_profiles(list(DEFAULT_PROFILES)))))
 
 
 def main() -> None:

@@ -18,7 +18,10 @@ from tapgauge import __version__
 from tapgauge.config import load_config
 from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
-from tapgauge.pipeline import run_check
+from tapgauge.pipeline import Settings, run_check
+from tapgauge.profiles import DEFAULT_PROFILES, apply_params, parse_start, select_profiles
+from tapgauge.difficulty import WIDTH_MODELS
+from tapgauge.score import Scoring
 from tapgauge.readers import ReadOptions
 from tapgauge.readers.classes import default_class_map, load_class_map
 from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker
@@ -77,14 +80,24 @@ def check(
     fail_level: Annotated[Optional[str], typer.Option(
         help="Lowest severity that fails the run: error, warning or info. Default: error.")] = None,
     width: Annotated[Optional[int], typer.Option(help="Table width in columns (default: the terminal's, or 80).")] = None,
+    profiles: Annotated[Optional[str], typer.Option(
+        help="Comma-separated slope profiles (ids or TOML files) for predicted time and misses. "
+        "Default: typical-adult,older-adult,reduced-precision.")] = None,
+    param: Annotated[Optional[list[str]], typer.Option(
+        help="Override one profile number: PROFILE.KEY=VALUE (KEY: intercept_ms, slope_ms_per_bit, alpha, sigma_a_mm).")] = None,
+    start: Annotated[str, typer.Option("--from", help="Where reaches start: centre, thumb-right, thumb-left, or X,Y in dp/pt.")] = "centre",
+    width_model: Annotated[str, typer.Option(help="Target width for Fitts's law: approach (default), smaller or horizontal.")] = "approach",
+    difficulty: Annotated[bool, typer.Option("--difficulty", help="Add predicted time and miss probability to the table.")] = False,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
-    raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width))
+    raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width,
+                            profiles, param or [], start, width_model, difficulty))
 
 
 def _check(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
            classes: Path | None, marker: str | None, overlay: Path | None, fmt: str, output: Path | None,
-           fail_level: str | None, width: int | None) -> int:
+           fail_level: str | None, width: int | None, profiles: str | None, params: list[str], start: str,
+           width_model: str, difficulty: bool) -> int:
     try:
         writer = writer_for(fmt)
         config = load_config(Path.cwd())
@@ -102,11 +115,14 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
             classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
             marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
         )
+        scoring = make_scoring(profiles, params, start, width_model)
     except (InputError, ValueError) as exc:
         _err(str(exc))
         return EXIT_ERROR
-    result = run_check(paths, chosen, flags, config.device, announce_skips=rules is not None, options=options)
-    report = build_report(list(result.screens), list(result.errors), chosen, level)
+    settings = Settings(tuple(chosen), flags, config.device, announce_skips=rules is not None, read=options,
+                        scoring=scoring)
+    result = run_check(paths, settings)
+    report = build_report(list(result.screens), list(result.errors), chosen, level, list(scoring.profiles))
     for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
         where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
         _err(f"{where}: {e['message']}")
@@ -120,7 +136,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
             return EXIT_ERROR
     if fmt == "table" and output is None:
         console_width = width or Console().width
-        text = writer(report, width=console_width, color=sys.stdout.isatty())
+        text = writer(report, width=console_width, color=sys.stdout.isatty(), difficulty=difficulty)
     else:
         text = writer(report, width=width)
     if output is not None:
@@ -176,6 +192,15 @@ def list_rules() -> None:
             table.add_row(r.id, r.kind, threshold + extra, r.severity.label)
         console.print(table)
         console.print()
+
+
+def make_scoring(profiles: str | None, params: list[str], start: str, width_model: str) -> Scoring:
+    """Profiles, overrides, start point and width model from options; ValueError/InputError if bad."""
+    chosen = apply_params(select_profiles(profiles.split(",") if profiles else list(DEFAULT_PROFILES)), params)
+    name, xy = parse_start(start)
+    if width_model not in WIDTH_MODELS:
+        raise ValueError(f"width model {width_model!r}: expected one of {', '.join(WIDTH_MODELS)}")
+    return Scoring(tuple(chosen), name, xy, width_model)
 
 
 def main(argv: list[str] | None = None) -> int:

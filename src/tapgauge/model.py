@@ -155,6 +155,18 @@ class Finding:
 
 
 @dataclass(frozen=True)
+class Difficulty:
+    """A target's predicted pointing difficulty for one profile, from the screen's start point."""
+
+    profile: str
+    width: float  # along the approach (or as the width model says), in ScreenResult.reach_unit
+    distance: float  # start to the target's centre, same unit
+    id_bits: float
+    time_ms: float
+    hit: float | None  # probability a centred aim lands inside; None without physical size
+
+
+@dataclass(frozen=True)
 class TargetResult:
     target: Target
     status: str  # pass | fail | exempt | unmeasurable | unchecked
@@ -163,6 +175,7 @@ class TargetResult:
     size_mm: tuple[float, float] | None
     findings: tuple[Finding, ...]
     notes: tuple[str, ...] = ()  # e.g. passed by the spacing exception
+    difficulty: tuple[Difficulty, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -172,6 +185,8 @@ class ScreenResult:
     targets: tuple[TargetResult, ...]
     notices: tuple[str, ...]
     rulesets: tuple[str, ...]  # ids of the rule sets applied to this screen
+    start: tuple[str, float, float] | None = None  # reach start: name, x, y in the platform unit
+    reach_unit: str = ""  # unit of Difficulty.width and .distance: "mm", or dp/pt without a ppi
 
 
 STATUSES = ("pass", "fail", "exempt", "unmeasurable", "unchecked")

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any
 
 from tapgauge import __version__
+from tapgauge.profiles import Profile
 from tapgauge.model import STATUSES, InputError, RuleSet, ScreenResult, Severity, TargetResult
 
 REPORT_FORMAT = "tapgauge-report"
@@ -41,6 +42,12 @@ def ruleset_record(rs: RuleSet) -> dict[str, Any]:
     }
 
 
+def profile_record(p: Profile) -> dict[str, Any]:
+    return {"id": p.id, "title": p.title, "intercept_ms": p.intercept_ms, "slope_ms_per_bit": p.slope_ms_per_bit,
+            "alpha": p.alpha, "sigma_a_mm": p.sigma_a_mm, "timing_source": p.timing_source,
+            "spread_source": p.spread_source, "path": p.path}
+
+
 def target_record(tr: TargetResult) -> dict[str, Any]:
     t = tr.target
     return {
@@ -61,6 +68,12 @@ def target_record(tr: TargetResult) -> dict[str, Any]:
             for f in tr.findings
         ],
         "notes": list(tr.notes),
+        "difficulty": [
+            {"profile": d.profile, "width": d.width, "distance": d.distance, "id_bits": d.id_bits,
+             "time_ms": d.time_ms, "hit_probability": d.hit,
+             "miss_probability": None if d.hit is None else round(1 - d.hit, 4)}
+            for d in tr.difficulty
+        ],
     }
 
 
@@ -82,6 +95,9 @@ def screen_record(sr: ScreenResult) -> dict[str, Any]:
             "ppi_source": d.ppi_source,
         },
         "rulesets": list(sr.rulesets),
+        "reach": None if sr.start is None else {
+            "from": sr.start[0], "x": sr.start[1], "y": sr.start[2], "unit": sr.reach_unit,
+        },
         "notices": list(sr.notices),
         "targets": targets,
         "summary": _status_counts(targets),
@@ -109,7 +125,7 @@ def exit_code(screens: list[dict[str, Any]], errors: list[dict[str, Any]], fail_
 
 
 def build_report(screens: list[ScreenResult], errors: list[InputError], rulesets: list[RuleSet],
-                 fail_level: Severity) -> dict[str, Any]:
+                 fail_level: Severity, profiles: list[Profile] | None = None) -> dict[str, Any]:
     screen_recs = sorted((screen_record(s) for s in screens), key=lambda r: (r["path"], r["name"]))
     error_recs = sorted((error_record(e) for e in errors), key=lambda r: (r["path"], r["line"] or 0))
     all_targets = [t for s in screen_recs for t in s["targets"]]
@@ -127,6 +143,7 @@ def build_report(screens: list[ScreenResult], errors: list[InputError], rulesets
         "tool": {"name": "tapgauge", "version": __version__},
         "fail_level": fail_level.label,
         "rulesets": [ruleset_record(rs) for rs in rulesets],
+        "profiles": [profile_record(p) for p in profiles or []],
         "screens": screen_recs,
         "errors": error_recs,
         "summary": summary,

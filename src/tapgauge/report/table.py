@@ -67,7 +67,36 @@ def _screen_table(s: dict[str, Any]) -> Table | None:
     return table
 
 
-def write_table(report: dict[str, Any], width: int | None = None, color: bool = False) -> str:
+HARDEST = 8  # rows in a screen's difficulty block
+
+
+def _difficulty_table(s: dict[str, Any], profiles: list[str]) -> Table | None:
+    scored = [t for t in s["targets"] if t["difficulty"]]
+    if not scored or not profiles:
+        return None
+
+    def hardness(t: dict[str, Any]) -> tuple[float, float]:
+        d = t["difficulty"][0]
+        return (d["miss_probability"] if d["miss_probability"] is not None else 0.0, d["time_ms"])
+
+    reach = s["reach"]
+    table = Table(title=f"hardest to hit from {reach['from']} (time ms / miss %)", title_justify="left",
+                  header_style="bold", pad_edge=False, show_edge=False)
+    table.add_column("target", overflow="fold", max_width=24)
+    table.add_column("ID bits", justify="right")
+    for p in profiles:
+        table.add_column(p, justify="right", overflow="fold")
+    for t in sorted(scored, key=hardness, reverse=True)[:HARDEST]:
+        cells = []
+        for d in t["difficulty"]:
+            miss = "-" if d["miss_probability"] is None else f"{d['miss_probability'] * 100:.0f}%"
+            cells.append(f"{d['time_ms']:.0f} / {miss}")
+        table.add_row(f"#{t['ordinal']} {t['name']}", f"{t['difficulty'][0]['id_bits']:.2f}", *cells)
+    return table
+
+
+def write_table(report: dict[str, Any], width: int | None = None, color: bool = False,
+                difficulty: bool = False) -> str:
     buf = io.StringIO()
     console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color,
                       highlight=False, soft_wrap=False)
@@ -80,6 +109,10 @@ def write_table(report: dict[str, Any], width: int | None = None, color: bool = 
         table = _screen_table(s)
         if table is not None:
             console.print(table)
+        if difficulty:
+            hard = _difficulty_table(s, [p["id"] for p in report["profiles"]])
+            if hard is not None:
+                console.print(hard)
         counts = s["summary"]
         reasons = Counter(t["reason"].split(" as #")[0] for t in s["targets"] if t["status"] == "unchecked")
         line = f"{counts['pass']} pass, {counts['fail']} fail, {counts['unmeasurable']} unmeasurable"
