@@ -14,7 +14,9 @@ import numpy as np
 from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import EPS, intersection_areas, largest_free_square, nearest_gaps, one_cover_squares, sizes, spacing_conflicts
 from tapgauge.measure import MeasuredScreen
-from tapgauge.model import Finding, Rule, RuleSet, ScreenResult, TargetResult
+from tapgauge.difficulty import hit_probability
+from tapgauge.model import Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult
+from tapgauge.profiles import find_profile
 
 PLATFORM_UNITS = ("dp", "pt")  # both mean "the platform's density-independent unit"
 
@@ -30,6 +32,7 @@ class Kind:
     run: Callable[[MeasuredScreen, Rule], KindResult]
     params: dict[str, tuple[type, bool]]  # name -> (type, required)
     doc: str
+    validate: Callable[[dict[str, object], str], str | None] = lambda params, unit: None  # -> error or None
 
 
 def _fmt(v: float) -> str:
@@ -111,6 +114,34 @@ def check_min_gap(m: MeasuredScreen, rule: Rule) -> KindResult:
     return KindResult(tuple(findings))
 
 
+def check_max_miss(m: MeasuredScreen, rule: Rule) -> KindResult:
+    profile = find_profile(str(rule.param("profile")))
+    limit = float(rule.param("max_miss"))
+    boxes = m.boxes("mm")
+    w, h = sizes(boxes)
+    miss = 1.0 - hit_probability(w, h, profile.alpha, profile.sigma_a_mm)
+    findings = [
+        (pos, Finding(rule.id, rule.severity, round(float(miss[pos]) * 100, 1), round(limit * 100, 1), "%",
+                      f"predicted miss {miss[pos]:.0%} for {profile.id} on {_fmt(w[pos])} x {_fmt(h[pos])} mm; "
+                      f"limit {limit:.0%}"))
+        for pos in np.flatnonzero(miss > limit + EPS).tolist()
+    ]
+    return KindResult(tuple(findings))
+
+
+def _validate_max_miss(params: dict[str, object], unit: str) -> str | None:
+    if unit != "mm":
+        return "a max-miss rule needs unit = \"mm\": the endpoint model works on the glass"
+    limit = params.get("max_miss")
+    if not isinstance(limit, float) or not 0 < limit < 1:
+        return "'max_miss' must be a probability between 0 and 1, such as 0.1"
+    try:
+        find_profile(str(params.get("profile")))
+    except InputError as exc:
+        return f"profile {params.get('profile')!r}: {exc.message}"
+    return None
+
+
 KINDS: dict[str, Kind] = {
     "min-size": Kind(
         check_min_size,
@@ -124,6 +155,13 @@ KINDS: dict[str, Kind] = {
         {"gap": (float, True), "exempt_at_size": (float, False)},
         "The edge-to-edge distance to the nearest other target (not nested in it) must be at least `gap`. "
         "With exempt_at_size, a target in which a square of that size fits is not failed.",
+    ),
+    "max-miss": Kind(
+        check_max_miss,
+        {"profile": (str, True), "max_miss": (float, True)},
+        "The predicted probability of missing the target (dual-Gaussian endpoint model, centred aim, "
+        "the named slope profile) must not exceed `max_miss`. Needs the physical ppi.",
+        _validate_max_miss,
     ),
 }
 

@@ -187,7 +187,9 @@ def list_rules() -> None:
         for col in ("rule id", "kind", "threshold", "severity"):
             table.add_column(col)
         for r in rs.rules:
-            threshold = ", ".join(f"{k} {v:g} {r.unit}" for k, v in r.params if isinstance(v, float))
+            threshold = ", ".join(
+                f"miss <= {v:.0%}" if k == "max_miss" else f"{k} {v}" if isinstance(v, str) else f"{k} {v:g} {r.unit}"
+                for k, v in r.params if not isinstance(v, bool))
             extra = " + spacing exception" if dict(r.params).get("spacing_exception") else ""
             table.add_row(r.id, r.kind, threshold + extra, r.severity.label)
         console.print(table)

@@ -89,6 +89,11 @@ def builtin_profiles() -> dict[str, Profile]:
 DEFAULT_PROFILES = ("typical-adult", "older-adult", "reduced-precision")
 
 
+def find_profile(item: str) -> Profile:
+    """One profile by built-in id or TOML path."""
+    return select_profiles([item])[0]
+
+
 def select_profiles(spec: list[str]) -> list[Profile]:
     builtins = builtin_profiles()
     chosen: list[Profile] = []

@@ -100,6 +100,8 @@ def _parse_rule(raw: dict[str, Any], set_id: str, head: dict[str, Any], fail: An
                 if isinstance(value, bool) or not isinstance(value, (int, float)) or not value > 0:
                     raise fail(f"'{key}' must be a positive number", key, at)
                 value = float(value)
+            if want is str and not isinstance(value, str):
+                raise fail(f"'{key}' must be a string", key, at)
             params.append((key, value))
         else:
             allowed = ", ".join([*_RULE_KEYS, *kind.params])
@@ -121,6 +123,9 @@ def _parse_rule(raw: dict[str, Any], set_id: str, head: dict[str, Any], fail: An
         severity = Severity.parse(raw["severity"])
     except ValueError as exc:
         raise fail(str(exc), "severity", at) from None
+    problem = kind.validate(dict(params), raw["unit"])
+    if problem:
+        raise fail(problem, "kind", at)
     return Rule(
         id=f"{set_id}/{raw['id']}", kind=kind_name, summary=raw["summary"], severity=severity,
         unit=raw["unit"], params=tuple(params), source=raw.get("source", head["source"]),
