@@ -6,6 +6,7 @@ Exit codes: 0 nothing at or above the fail level; 1 findings at or above it;
 
 from __future__ import annotations
 
+import json
 import sys
 from pathlib import Path
 from typing import Annotated, Optional
@@ -104,13 +105,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
         level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
         spec = rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS)
         chosen = select_rulesets(spec)
-        flags = DeviceHints(
-            density_dpi=parse_density(density) if density else None,
-            scale=parse_scale(scale) if scale else None,
-            xdpi=parse_ppi(ppi)[0] if ppi else None,
-            ydpi=parse_ppi(ppi)[1] if ppi else None,
-            source="command line",
-        )
+        flags = _common_device(density, scale, ppi)
         options = ReadOptions(
             classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
             marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
@@ -139,15 +134,65 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
         text = writer(report, width=console_width, color=sys.stdout.isatty(), difficulty=difficulty)
     else:
         text = writer(report, width=width)
-    if output is not None:
-        try:
-            write_atomic(output, text)
-        except OSError as exc:
-            _err(f"{output}: cannot write report: {exc.strerror or exc}")
-            return EXIT_ERROR
-    else:
+    return _emit(text, output) or int(report["summary"]["exit_code"])
+
+
+def _common_device(density: str | None, scale: str | None, ppi: str | None) -> DeviceHints:
+    return DeviceHints(
+        density_dpi=parse_density(density) if density else None,
+        scale=parse_scale(scale) if scale else None,
+        xdpi=parse_ppi(ppi)[0] if ppi else None,
+        ydpi=parse_ppi(ppi)[1] if ppi else None,
+        source="command line",
+    )
+
+
+def _emit(text: str, output: Path | None) -> int:
+    if output is None:
         sys.stdout.write(text)
-    return int(report["summary"]["exit_code"])
+        return 0
+    try:
+        write_atomic(output, text)
+    except OSError as exc:
+        _err(f"{output}: cannot write report: {exc.strerror or exc}")
+        return EXIT_ERROR
+    return 0
+
+
+@app.command("flow")
+def flow_cmd(
+    flow: Annotated[Path, typer.Argument(help="A flow file: 'from', 'screen' and 'tap' lines (see README).")],
+    profiles: Annotated[Optional[str], typer.Option(help="Comma-separated slope profiles (ids or TOML files).")] = None,
+    param: Annotated[Optional[list[str]], typer.Option(help="Override one profile number: PROFILE.KEY=VALUE.")] = None,
+    density: Annotated[Optional[str], typer.Option(help="Screen density (Android), if no sidecar gives it.")] = None,
+    scale: Annotated[Optional[str], typer.Option(help="Pixels per point (iOS).")] = None,
+    ppi: Annotated[Optional[str], typer.Option(help="Physical pixels per inch; needed for hit chances.")] = None,
+    width_model: Annotated[str, typer.Option(help="approach (default), smaller or horizontal.")] = "approach",
+    fmt: Annotated[str, typer.Option("--format", "-f", help="table or json.")] = "table",
+    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")] = None,
+) -> None:
+    """Predict the pointing time and misses of a task: the targets it taps, in order."""
+    from tapgauge.flows import parse_flow, run_flow
+    from tapgauge.report.table import write_flow_table
+
+    try:
+        if fmt not in ("table", "json"):
+            raise ValueError(f"unknown format {fmt!r}; expected table or json")
+        config = load_config(Path.cwd())
+        scoring = make_scoring(profiles, param or [], "centre", width_model)
+        read = ReadOptions(classes=config.classes or default_class_map(),
+                           marker_hue=parse_marker(config.marker or DEFAULT_MARKER))
+        record = run_flow(parse_flow(flow), list(scoring.profiles), _common_device(density, scale, ppi),
+                          config.device, read, width_model)
+    except (InputError, ValueError) as exc:
+        _err(str(exc))
+        raise typer.Exit(EXIT_ERROR) from None
+    if fmt == "json":
+        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
+    else:
+        text = write_flow_table(record, width=Console().width if output is None else 80,
+                                color=output is None and sys.stdout.isatty())
+    raise typer.Exit(_emit(text, output))
 
 
 @app.command("capture")

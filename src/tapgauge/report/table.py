@@ -140,3 +140,32 @@ def summary_line(report: dict[str, Any]) -> str:
         f"{f['error']} error, {f['warning']} warning, {f['info']} info; {s['errors']} unreadable; "
         f"{verdict} at fail level {report['fail_level']} (exit {s['exit_code']})"
     )
+
+
+def write_flow_table(record: dict[str, Any], width: int | None = None, color: bool = False) -> str:
+    """A tap sequence: one row per step, time and hit chance per profile, totals at the end."""
+    buf = io.StringIO()
+    console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color, highlight=False)
+    profiles = [t["profile"] for t in record["totals"]]
+    console.print(Text(f"{record['flow']}: {len(record['steps'])} taps from {record['from']}", style="bold"))
+    table = Table(header_style="bold", pad_edge=False, show_edge=False)
+    table.add_column("#", justify="right")
+    table.add_column("target", overflow="fold", max_width=24)
+    table.add_column("ID bits", justify="right")
+    for p in profiles:
+        table.add_column(f"{p}\nms / hit", justify="right")
+    for n, step in enumerate(record["steps"], start=1):
+        cells = []
+        for pred in step["predictions"]:
+            hit = "-" if pred["hit_probability"] is None else f"{pred['hit_probability'] * 100:.0f}%"
+            cells.append(f"{pred['time_ms']:.0f} / {hit}")
+        table.add_row(str(n), f"{step['screen'].rsplit('/', 1)[-1]} #{step['target']} {step['name']}",
+                      f"{step['predictions'][0]['id_bits']:.2f}", *cells)
+    console.print(table)
+    for t in record["totals"]:
+        if t["expected_misses"] is None:
+            console.print(f"{t['profile']}: {t['time_ms'] / 1000:.2f} s of pointing (no ppi: misses unknown)")
+        else:
+            console.print(f"{t['profile']}: {t['time_ms'] / 1000:.2f} s of pointing, {t['expected_misses']:.2f} "
+                          f"expected misses, {t['all_taps_hit'] * 100:.0f}% chance every tap lands")
+    return buf.getvalue()
