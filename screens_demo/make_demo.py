@@ -214,6 +214,25 @@ def plot_detail() -> AndroidScreen:
     ])
 
 
+def plot_detail_roomy() -> AndroidScreen:
+    """The redesign of plot_detail proposed by the committee: the same controls, roomier."""
+    w = SCREEN_DP[0]
+    icons = [N("android.widget.ImageButton", (16 + k * 56, 352, 16 + k * 56 + 48, 400), desc=label, click=True,
+               rid=f"tool_{k}")
+             for k, label in enumerate(["Share plot", "Print map", "Report a problem", "Add to calendar"])]
+    return dump([
+        toolbar("Plot B7"),
+        N("android.widget.ImageView", (0, 80, w, 300), rid="photo"),
+        N("android.widget.TextView", (16, 312, 376, 336), text="Plot B7, by the shed: 25 square metres"),
+        *icons,
+        N("android.widget.ImageButton", (16, 416, 64, 464), desc="What does booking include?", click=True, rid="help"),
+        N("android.widget.Button", (72, 416, 376, 472), text="Book this plot", click=True, rid="book"),
+        N("android.widget.Button", (16, 488, 376, 536), text="Cancel booking", click=True, enabled=False, rid="cancel"),
+        N("com.google.android.material.chip.Chip", (16, 560, 136, 608), text="Sunny", click=True, check=True, rid="chip_sun"),
+        N("com.google.android.material.chip.Chip", (144, 560, 264, 608), text="Water tap", click=True, check=True, rid="chip_tap"),
+    ])
+
+
 def booking_form() -> AndroidScreen:
     """A date chip partly covered by a badge drawn over it: the overlap leaves too little."""
     w = SCREEN_DP[0]
@@ -262,10 +281,21 @@ def write_android(out: Path) -> None:
     (out / "device.txt").write_text(DEVICE_TXT, encoding="utf-8")
 
 
+def write_alternatives(out: Path) -> None:
+    """Two designs of one screen, for `tapgauge compare`."""
+    for name, screen in (("compact", plot_detail()), ("roomy", plot_detail_roomy())):
+        folder = out / name
+        folder.mkdir(parents=True, exist_ok=True)
+        (folder / "plot_detail.xml").write_text(screen.xml(), encoding="utf-8")
+        screen.png().save(folder / "plot_detail.png", optimize=True)
+        (folder / "device.txt").write_text(DEVICE_TXT, encoding="utf-8")
+
+
 def main() -> None:
     from demo_other import write_annotated, write_ios, write_marked  # the other input kinds
 
     write_android(HERE / "android")
+    write_alternatives(HERE / "alternatives")
     write_ios(HERE / "ios")
     write_annotated(HERE / "annotated")
     write_marked(HERE / "marked")

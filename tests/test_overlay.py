@@ -21,7 +21,7 @@ def test_demo_overlays_sit_on_their_screenshots(tmp_path: Path, monkeypatch: pyt
     main(["check", "screens_demo", "-f", "json", "--overlay", str(out)])
     report = json.loads(capsys.readouterr().out)
     pictures = sorted(out.rglob("*.png"))
-    assert len(pictures) == report["summary"]["screens"] == 8
+    assert len(pictures) == report["summary"]["screens"] == len(report["screens"]) > 0
     for screen in report["screens"]:
         pic = Image.open(out / overlay_name(screen)).convert("RGB")
         if screen["image"]:

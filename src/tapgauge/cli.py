@@ -195,6 +195,46 @@ def flow_cmd(
     raise typer.Exit(_emit(text, output))
 
 
+@app.command("compare")
+def compare_cmd(
+    a: Annotated[Path, typer.Argument(help="Alternative A: a screen file or a folder of screens.")],
+    b: Annotated[Path, typer.Argument(help="Alternative B: the same screens, redesigned.")],
+    profiles: Annotated[Optional[str], typer.Option(help="Comma-separated slope profiles (ids or TOML files).")] = None,
+    param: Annotated[Optional[list[str]], typer.Option(help="Override one profile number: PROFILE.KEY=VALUE.")] = None,
+    start: Annotated[str, typer.Option("--from", help="Where reaches start: centre, thumb-right, thumb-left, or X,Y.")] = "centre",
+    width_model: Annotated[str, typer.Option(help="approach (default), smaller or horizontal.")] = "approach",
+    density: Annotated[Optional[str], typer.Option(help="Screen density (Android), if no sidecar gives it.")] = None,
+    scale: Annotated[Optional[str], typer.Option(help="Pixels per point (iOS).")] = None,
+    ppi: Annotated[Optional[str], typer.Option(help="Physical pixels per inch; needed for miss probabilities.")] = None,
+    fmt: Annotated[str, typer.Option("--format", "-f", help="table or json.")] = "table",
+    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")] = None,
+) -> None:
+    """Rank two design alternatives per profile by predicted misses and time, and show which targets decide it."""
+    from tapgauge.compare import compare
+    from tapgauge.report.table import write_compare_table
+
+    try:
+        if fmt not in ("table", "json"):
+            raise ValueError(f"unknown format {fmt!r}; expected table or json")
+        config = load_config(Path.cwd())
+        settings = Settings(
+            tuple(select_rulesets(list(config.rules or DEFAULT_RULESETS))), _common_device(density, scale, ppi),
+            config.device, read=ReadOptions(classes=config.classes or default_class_map(),
+                                            marker_hue=parse_marker(config.marker or DEFAULT_MARKER)),
+            scoring=make_scoring(profiles, param or [], start, width_model),
+        )
+        record = compare(a, b, settings)
+    except (InputError, ValueError) as exc:
+        _err(str(exc))
+        raise typer.Exit(EXIT_ERROR) from None
+    if fmt == "json":
+        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
+    else:
+        text = write_compare_table(record, width=Console().width if output is None else 80,
+                                   color=output is None and sys.stdout.isatty())
+    raise typer.Exit(_emit(text, output))
+
+
 @app.command("capture")
 def capture_cmd(
     name: Annotated[str, typer.Argument(help="Screen name: writes NAME.xml, NAME.png and NAME.device.txt.")],

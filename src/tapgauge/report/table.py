@@ -169,3 +169,37 @@ def write_flow_table(record: dict[str, Any], width: int | None = None, color: bo
             console.print(f"{t['profile']}: {t['time_ms'] / 1000:.2f} s of pointing, {t['expected_misses']:.2f} "
                           f"expected misses, {t['all_taps_hit'] * 100:.0f}% chance every tap lands")
     return buf.getvalue()
+
+
+def _pct(v: float | None) -> str:
+    return "-" if v is None else f"{v * 100:.0f}%"
+
+
+def write_compare_table(record: dict[str, Any], width: int | None = None, color: bool = False) -> str:
+    """Two alternatives side by side per profile, then the targets that make the difference."""
+    buf = io.StringIO()
+    console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color, highlight=False)
+    console.print(Text(f"A: {record['A']}\nB: {record['B']}", style="bold"))
+    console.print(f"{len(record['screens'])} screen(s) paired"
+                  + (f"; only in A: {', '.join(record['only_in_A'])}" if record["only_in_A"] else "")
+                  + (f"; only in B: {', '.join(record['only_in_B'])}" if record["only_in_B"] else ""))
+    table = Table(header_style="bold", pad_edge=False, show_edge=False)
+    for col in ("profile", "A miss/tap", "A ms/tap", "B miss/tap", "B ms/tap", "easier"):
+        table.add_column(col, justify="left" if col == "profile" else "right")
+    for r in record["ranking"]:
+        table.add_row(r["profile"], _pct(r["A"]["mean_miss"]), f"{r['A']['mean_time_ms']:.0f}",
+                      _pct(r["B"]["mean_miss"]), f"{r['B']['mean_time_ms']:.0f}", r["better"])
+    console.print(table)
+    if record["differences"]:
+        first = record["ranking"][0]["profile"] if record["ranking"] else ""
+        diff = Table(title=f"targets that make the difference ({first})", title_justify="left",
+                     header_style="bold", pad_edge=False, show_edge=False)
+        for col in ("target", "status A -> B", "miss A -> B", "ms A -> B"):
+            diff.add_column(col, overflow="fold")
+        for row in record["differences"]:
+            p = row["by_profile"][0]
+            ms = lambda v: "-" if v is None else f"{v:.0f}"  # noqa: E731
+            diff.add_row(f"{row['name']}", f"{row['A'] or 'absent'} -> {row['B'] or 'absent'}",
+                         f"{_pct(p['miss_A'])} -> {_pct(p['miss_B'])}", f"{ms(p['time_A'])} -> {ms(p['time_B'])}")
+        console.print(diff)
+    return buf.getvalue()
