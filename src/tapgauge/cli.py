@@ -235,6 +235,53 @@ def compare_cmd(
     raise typer.Exit(_emit(text, output))
 
 
+@app.command("calibrate")
+def calibrate_cmd(
+    trials: Annotated[Path, typer.Argument(help="CSV of per-condition summaries or per-trial taps (see README).")],
+    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write the fitted profile (TOML) here.")] = None,
+    name: Annotated[str, typer.Option(help="Id of the written profile.")] = "calibrated",
+    form: Annotated[str, typer.Option(help="ID form for summaries: shannon (default) or fitts.")] = "shannon",
+    chart: Annotated[Optional[Path], typer.Option(help="Write a PNG chart of ID against time with the fitted line.")] = None,
+    fmt: Annotated[str, typer.Option("--format", "-f", help="text or json.")] = "text",
+) -> None:
+    """Fit a slope profile (Fitts's-law line and touch spread) from a study's trial log."""
+    from tapgauge.calibrate import calibrate, fit_record, profile_toml
+    from tapgauge.profiles import parse_profile
+
+    try:
+        if fmt not in ("text", "json"):
+            raise ValueError(f"unknown format {fmt!r}; expected text or json")
+        fit = calibrate(trials, form)
+        toml = profile_toml(fit, name, trials.as_posix())
+        parse_profile(toml, "the fitted profile")  # what we write must load
+    except (InputError, ValueError) as exc:
+        _err(str(exc))
+        raise typer.Exit(EXIT_ERROR) from None
+    record = fit_record(fit, trials)
+    if fmt == "json":
+        typer.echo(json.dumps(record, indent=2))
+    else:
+        typer.echo(f"{trials}: {fit.conditions} conditions, {fit.form} ID")
+        typer.echo(f"MT = {fit.intercept_ms:.1f} + {fit.slope_ms_per_bit:.1f} ID ms   r = {fit.r:.4f}   r^2 = {fit.r_squared:.4f}")
+        if fit.throughput_bits_per_s is not None:
+            typer.echo(f"throughput (mean of means) = {fit.throughput_bits_per_s:.2f} bits/s")
+        if fit.sigma_a_mm is not None:
+            typer.echo(f"touch spread: sigma^2 = {fit.alpha:.5f} W^2 + {fit.sigma_a_mm:.3f}^2 (mm)")
+    try:
+        if output is not None:
+            write_atomic(output, toml)
+            typer.echo(f"wrote {output}", err=fmt == "json")
+        if chart is not None:
+            from tapgauge.report.chart import fit_chart_png
+
+            write_atomic(chart, fit_chart_png(list(fit.points), fit.intercept_ms, fit.slope_ms_per_bit,
+                                              f"{trials.name}: MT = {fit.intercept_ms:.1f} + {fit.slope_ms_per_bit:.1f} ID, r = {fit.r:.3f}"))
+            typer.echo(f"wrote {chart}", err=fmt == "json")
+    except OSError as exc:
+        _err(f"cannot write: {exc}")
+        raise typer.Exit(EXIT_ERROR) from None
+
+
 @app.command("capture")
 def capture_cmd(
     name: Annotated[str, typer.Argument(help="Screen name: writes NAME.xml, NAME.png and NAME.device.txt.")],
