@@ -6,6 +6,7 @@ Exit codes: 0 nothing at or above the fail level; 1 findings at or above it;
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 import sys
 from pathlib import Path
@@ -23,6 +24,7 @@ from tapgauge.pipeline import Settings, run_check
 from tapgauge.profiles import DEFAULT_PROFILES, apply_params, parse_start, select_profiles
 from tapgauge.difficulty import WIDTH_MODELS
 from tapgauge.score import Scoring
+from tapgauge.waivers import apply_waivers, waiver_records
 from tapgauge.readers import ReadOptions
 from tapgauge.readers.classes import default_class_map, load_class_map
 from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker
@@ -89,16 +91,17 @@ def check(
     start: Annotated[str, typer.Option("--from", help="Where reaches start: centre, thumb-right, thumb-left, or X,Y in dp/pt.")] = "centre",
     width_model: Annotated[str, typer.Option(help="Target width for Fitts's law: approach (default), smaller or horizontal.")] = "approach",
     difficulty: Annotated[bool, typer.Option("--difficulty", help="Add predicted time and miss probability to the table.")] = False,
+    today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD); default: today.")] = None,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
     raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width,
-                            profiles, param or [], start, width_model, difficulty))
+                            profiles, param or [], start, width_model, difficulty, today))
 
 
 def _check(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
            classes: Path | None, marker: str | None, overlay: Path | None, fmt: str, output: Path | None,
            fail_level: str | None, width: int | None, profiles: str | None, params: list[str], start: str,
-           width_model: str, difficulty: bool) -> int:
+           width_model: str, difficulty: bool, today: str | None) -> int:
     try:
         writer = writer_for(fmt)
         config = load_config(Path.cwd())
@@ -110,14 +113,16 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
             classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
             marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
         )
-        scoring = make_scoring(profiles, params, start, width_model)
+        scoring = make_scoring(profiles or _joined(config.profiles), params, start, width_model)
+        day = parse_day(today)
     except (InputError, ValueError) as exc:
         _err(str(exc))
         return EXIT_ERROR
-    settings = Settings(tuple(chosen), flags, config.device, announce_skips=rules is not None, read=options,
+    settings = Settings(tuple(chosen), flags, config.devices, announce_skips=rules is not None, read=options,
                         scoring=scoring)
     result = run_check(paths, settings)
-    report = build_report(list(result.screens), list(result.errors), chosen, level, list(scoring.profiles))
+    screens, outcomes = apply_waivers(list(result.screens), config.waivers, config.base, day)
+    report = build_report(screens, list(result.errors), chosen, level, list(scoring.profiles), waiver_records(outcomes))
     for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
         where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
         _err(f"{where}: {e['message']}")
@@ -179,11 +184,11 @@ def flow_cmd(
         if fmt not in ("table", "json"):
             raise ValueError(f"unknown format {fmt!r}; expected table or json")
         config = load_config(Path.cwd())
-        scoring = make_scoring(profiles, param or [], "centre", width_model)
+        scoring = make_scoring(profiles or _joined(config.profiles), param or [], "centre", width_model)
         read = ReadOptions(classes=config.classes or default_class_map(),
                            marker_hue=parse_marker(config.marker or DEFAULT_MARKER))
         record = run_flow(parse_flow(flow), list(scoring.profiles), _common_device(density, scale, ppi),
-                          config.device, read, width_model)
+                          config.devices, read, width_model)
     except (InputError, ValueError) as exc:
         _err(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
@@ -219,9 +224,9 @@ def compare_cmd(
         config = load_config(Path.cwd())
         settings = Settings(
             tuple(select_rulesets(list(config.rules or DEFAULT_RULESETS))), _common_device(density, scale, ppi),
-            config.device, read=ReadOptions(classes=config.classes or default_class_map(),
+            config.devices, read=ReadOptions(classes=config.classes or default_class_map(),
                                             marker_hue=parse_marker(config.marker or DEFAULT_MARKER)),
-            scoring=make_scoring(profiles, param or [], start, width_model),
+            scoring=make_scoring(profiles or _joined(config.profiles), param or [], start, width_model),
         )
         record = compare(a, b, settings)
     except (InputError, ValueError) as exc:
@@ -326,6 +331,19 @@ def list_rules() -> None:
             table.add_row(r.id, r.kind, threshold + extra, r.severity.label)
         console.print(table)
         console.print()
+
+
+def parse_day(text: str | None) -> dt.date:
+    if text is None:
+        return dt.date.today()
+    try:
+        return dt.date.fromisoformat(text)
+    except ValueError:
+        raise ValueError(f"--today {text!r}: expected a date such as 2027-01-31") from None
+
+
+def _joined(items: tuple[str, ...] | None) -> str | None:
+    return ",".join(items) if items else None
 
 
 def make_scoring(profiles: str | None, params: list[str], start: str, width_model: str) -> Scoring:

@@ -1,14 +1,17 @@
 """Project configuration: `tapgauge.toml`, or `[tool.tapgauge]` in `pyproject.toml`.
 
 Found by walking up from the current folder. Every key is checked; unknown keys and
-wrong types are errors naming the file and key.
+wrong types are errors naming the file, line and key. Paths and patterns in the
+config are relative to the config file's folder.
 """
 
 from __future__ import annotations
 
+import datetime as dt
+import fnmatch
 import re
 import tomllib
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -18,16 +21,78 @@ from tapgauge.readers.classes import ClassMap, class_map_from
 from tapgauge.readers.marked import parse_marker
 
 CONFIG_NAME = "tapgauge.toml"
+TOP_KEYS = ("project", "rules", "fail_level", "profiles", "marker", "device", "devices", "classes", "waivers", "gate")
+
+
+def relative_to_base(path: Path, base: Path) -> str:
+    """A screen path as config patterns see it: POSIX, relative to the config folder when inside it."""
+    try:
+        return path.resolve().relative_to(base.resolve()).as_posix()
+    except ValueError:
+        return path.as_posix()
+
+
+@dataclass(frozen=True)
+class DevicePattern:
+    pattern: str  # '*' matches any characters, '/' included
+    hints: DeviceHints
+
+
+@dataclass(frozen=True)
+class DeviceDefaults:
+    """The config's say on devices: the first matching pattern, else the [device] table."""
+
+    base: Path = Path(".")
+    patterns: tuple[DevicePattern, ...] = ()
+    fallback: DeviceHints = DeviceHints()
+
+    def for_path(self, path: Path) -> DeviceHints:
+        rel = relative_to_base(path, self.base)
+        return next((p.hints for p in self.patterns if fnmatch.fnmatchcase(rel, p.pattern)), self.fallback)
+
+
+@dataclass(frozen=True)
+class Waiver:
+    """A human decision that a finding is acceptable, with who, why and until when."""
+
+    screen: str  # glob on the screen path relative to the config folder
+    target: str  # "id:...", "label:..." or "class:..."
+    rule: str  # glob on rule ids, e.g. "wcag22-aa/target-size" or "wcag22-aa/*"
+    reason: str
+    author: str
+    expires: dt.date | None
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class GateSettings:
+    size_tolerance: float = 1.0  # dp/pt a target may shrink before it counts (common practice)
+    miss_tolerance: float = 0.02  # rise in predicted miss probability (common practice)
+    time_tolerance_ms: float = 25.0  # rise in predicted time (common practice)
+    missing: str = "report"  # or "fail": a screen or target that disappeared
 
 
 @dataclass(frozen=True)
 class Config:
     path: Path | None = None
+    project: str | None = None
     rules: tuple[str, ...] | None = None
     fail_level: Severity | None = None
-    device: DeviceHints = DeviceHints()
-    classes: ClassMap | None = None
+    profiles: tuple[str, ...] | None = None
     marker: str | None = None
+    classes: ClassMap | None = None
+    devices: DeviceDefaults = DeviceDefaults()
+    waivers: tuple[Waiver, ...] = ()
+    gate: GateSettings = GateSettings()
+    raw: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def base(self) -> Path:
+        return self.path.parent if self.path else Path.cwd()
+
+    @property
+    def device(self) -> DeviceHints:
+        return self.devices.fallback
 
 
 def find_config(start: Path) -> tuple[Path, dict[str, Any], str] | None:
@@ -61,9 +126,47 @@ def _loads(path: Path, text: str) -> dict[str, Any]:
         raise InputError(path, f"not valid TOML: {exc}", int(m.group(1)) if m else None) from None
 
 
-def _line(text: str, key: str) -> int | None:
-    m = re.search(rf"^\s*{re.escape(key)}\s*=", text, re.MULTILINE)
-    return text.count("\n", 0, m.start()) + 1 if m else None
+class _Reader:
+    """Checks one config table, naming file, line and key in every error."""
+
+    def __init__(self, path: Path, text: str) -> None:
+        self.path, self.text = path, text
+
+    def line(self, key: str, nth: int = 0) -> int | None:
+        hits = list(re.finditer(rf"^\s*{re.escape(key)}\s*=", self.text, re.MULTILINE))
+        m = hits[min(nth, len(hits) - 1)] if hits else None
+        return self.text.count("\n", 0, m.start()) + 1 if m else None
+
+    def bad(self, key: str, msg: str, nth: int = 0) -> InputError:
+        return InputError(self.path, f"config key '{key}': {msg}", self.line(key.split(".")[-1].split("]")[-1], nth))
+
+    def strings(self, table: dict[str, Any], key: str) -> tuple[str, ...] | None:
+        value = table.get(key)
+        if value is None:
+            return None
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            raise self.bad(key, "must be a list of strings")
+        return tuple(value)
+
+    def device(self, table: Any, where: str, allowed: tuple[str, ...] = ("density", "scale", "ppi"),
+               nth: int = 0) -> DeviceHints:
+        if not isinstance(table, dict):
+            raise self.bad(where, "must be a table with density, scale and/or ppi")
+        density = scale = ppi = None
+        for key, value in table.items():
+            if key not in allowed:
+                raise self.bad(f"{where}.{key}", f"unknown key; expected {', '.join(allowed)}", nth)
+            try:
+                if key == "density":
+                    density = parse_density(str(value))
+                elif key == "scale":
+                    scale = parse_scale(str(value))
+                elif key == "ppi":
+                    ppi = parse_ppi(str(value))
+            except ValueError as exc:
+                raise self.bad(f"{where}.{key}", str(exc), nth) from None
+        return DeviceHints(density_dpi=density, scale=scale, xdpi=ppi[0] if ppi else None,
+                           ydpi=ppi[1] if ppi else None, source=f"config {self.path.name}")
 
 
 def load_config(start: Path) -> Config:
@@ -71,63 +174,89 @@ def load_config(start: Path) -> Config:
     if found is None:
         return Config()
     path, table, text = found
-
-    def bad(key: str, msg: str) -> InputError:
-        return InputError(path, f"config key '{key}': {msg}", _line(text, key.split(".")[-1]))
-
-    allowed = {"rules", "fail_level", "device", "classes", "marker"}
+    r = _Reader(path, text)
     for key in table:
-        if key not in allowed:
-            raise bad(key, f"unknown key; expected one of {', '.join(sorted(allowed))}")
-    rules = table.get("rules")
-    if rules is not None and not (isinstance(rules, list) and all(isinstance(r, str) for r in rules)):
-        raise bad("rules", "must be a list of rule-set ids or file paths")
+        if key not in TOP_KEYS:
+            raise r.bad(key, f"unknown key; expected one of {', '.join(TOP_KEYS)}")
+    project = table.get("project")
+    if project is not None and not (isinstance(project, str) and project.strip()):
+        raise r.bad("project", "must be a non-empty string naming the project (baselines carry it)")
+    rules = r.strings(table, "rules")
     if rules is not None:
-        # Paths in the config are relative to the config file, not the current folder.
-        rules = [str(path.parent / r) if r.endswith(".toml") else r for r in rules]
-    classes = None
-    if "classes" in table:
-        if not isinstance(table["classes"], dict):
-            raise bad("classes", "must be a table with 'target' and 'ignore' lists")
-        classes = class_map_from(table["classes"], f"{path.name} [classes]")
+        rules = tuple(str(path.parent / x) if x.endswith(".toml") else x for x in rules)
+    profiles = r.strings(table, "profiles")
+    if profiles is not None:
+        profiles = tuple(str(path.parent / x) if x.endswith(".toml") else x for x in profiles)
     marker = table.get("marker")
     if marker is not None:
         try:
             parse_marker(str(marker))
         except ValueError as exc:
-            raise bad("marker", str(exc)) from None
-        marker = str(marker)
+            raise r.bad("marker", str(exc)) from None
     fail_level = None
     if "fail_level" in table:
         try:
             fail_level = Severity.parse(str(table["fail_level"]))
         except ValueError as exc:
-            raise bad("fail_level", str(exc)) from None
-    device = table.get("device", {})
-    if not isinstance(device, dict):
-        raise bad("device", "must be a table with density and/or ppi")
-    density = ppi = scale = None
-    for key, value in device.items():
-        if key == "density":
-            try:
-                density = parse_density(str(value))
-            except ValueError as exc:
-                raise bad("device.density", str(exc)) from None
-        elif key == "scale":
-            try:
-                scale = parse_scale(str(value))
-            except ValueError as exc:
-                raise bad("device.scale", str(exc)) from None
-        elif key == "ppi":
-            try:
-                ppi = parse_ppi(str(value))
-            except ValueError as exc:
-                raise bad("device.ppi", str(exc)) from None
-        else:
-            raise bad(f"device.{key}", "unknown key; expected density, scale or ppi")
-    hints = DeviceHints(
-        density_dpi=density, scale=scale, xdpi=ppi[0] if ppi else None, ydpi=ppi[1] if ppi else None,
-        source=f"config {path.name}",
+            raise r.bad("fail_level", str(exc)) from None
+    classes = None
+    if "classes" in table:
+        if not isinstance(table["classes"], dict):
+            raise r.bad("classes", "must be a table with 'target' and 'ignore' lists")
+        classes = class_map_from(table["classes"], f"{path.name} [classes]")
+    fallback = r.device(table.get("device", {}), "device")
+    patterns = []
+    raw_devices = table.get("devices", [])
+    if not isinstance(raw_devices, list):
+        raise r.bad("devices", "must be an array of tables: [[devices]] with match and density/scale/ppi")
+    for n, entry in enumerate(raw_devices):
+        if not isinstance(entry, dict) or not isinstance(entry.get("match"), str):
+            raise r.bad("match", "each [[devices]] needs match = \"PATTERN\" (relative to this file)", n)
+        hints = r.device({k: v for k, v in entry.items() if k != "match"}, "devices", nth=n)
+        patterns.append(DevicePattern(entry["match"], hints))
+    return Config(
+        path=path, project=project, rules=rules, fail_level=fail_level, profiles=profiles,
+        marker=str(marker) if marker is not None else None, classes=classes,
+        devices=DeviceDefaults(path.parent, tuple(patterns), fallback),
+        waivers=_waivers(r, table.get("waivers", [])), gate=_gate(r, table.get("gate", {})), raw=table,
     )
-    return Config(path=path, rules=tuple(rules) if rules is not None else None, fail_level=fail_level, device=hints,
-                  classes=classes, marker=marker)
+
+
+def _waivers(r: _Reader, raw: Any) -> tuple[Waiver, ...]:
+    if not isinstance(raw, list):
+        raise r.bad("waivers", "must be an array of tables: [[waivers]]")
+    out = []
+    required = ("screen", "target", "rule", "reason", "author")
+    for n, w in enumerate(raw):
+        if not isinstance(w, dict):
+            raise r.bad("waivers", "each [[waivers]] must be a table")
+        for key in w:
+            if key not in (*required, "expires"):
+                raise r.bad(key, f"unknown key in [[waivers]]; expected {', '.join(required)} and expires", n)
+        for key in required:
+            if not isinstance(w.get(key), str) or not w[key].strip():
+                raise r.bad(f"waivers.{key}", f"every waiver needs a non-empty '{key}'", n)
+        if not re.match(r"^(id|label|class):.+", w["target"]):
+            raise r.bad("target", "must be id:RESOURCE_ID, label:TEXT or class:CLASS", n)
+        expires = w.get("expires")
+        if expires is not None and not (isinstance(expires, dt.date) and not isinstance(expires, dt.datetime)):
+            raise r.bad("expires", "must be a TOML date such as 2027-03-31 (no quotes)", n)
+        out.append(Waiver(w["screen"], w["target"], w["rule"], w["reason"].strip(), w["author"].strip(), expires,
+                          r.line("screen", n)))
+    return tuple(out)
+
+
+def _gate(r: _Reader, raw: Any) -> GateSettings:
+    if not isinstance(raw, dict):
+        raise r.bad("gate", "must be a table")
+    numbers = ("size_tolerance", "miss_tolerance", "time_tolerance_ms")
+    for key, value in raw.items():
+        if key in numbers:
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
+                raise r.bad(f"gate.{key}", "must be a number of 0 or more")
+        elif key == "missing":
+            if value not in ("report", "fail"):
+                raise r.bad("gate.missing", "must be \"report\" or \"fail\"")
+        else:
+            raise r.bad(f"gate.{key}", f"unknown key; expected {', '.join(numbers)} or missing")
+    return GateSettings(**{k: (float(v) if k in numbers else v) for k, v in raw.items()})

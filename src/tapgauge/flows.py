@@ -24,6 +24,7 @@ from typing import Any
 
 import numpy as np
 
+from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
 from tapgauge.difficulty import predict
 from tapgauge.geometry import as_boxes
@@ -141,7 +142,7 @@ class Loaded:
     device: Device
 
 
-def run_flow(flow: Flow, profiles: list[Profile], flags: DeviceHints, config: DeviceHints,
+def run_flow(flow: Flow, profiles: list[Profile], flags: DeviceHints, config: DeviceDefaults,
              read: ReadOptions, width_model: str = "approach") -> dict[str, Any]:
     """Predict every step and the totals, per profile, as a plain record for the writers."""
     cache: dict[Path, Loaded] = {}
@@ -154,7 +155,7 @@ def run_flow(flow: Flow, profiles: list[Profile], flags: DeviceHints, config: De
             if len(screens) != 1:
                 raise InputError(flow.path, f"{path.name} holds {len(screens)} screens; a flow needs one per file", line)
             try:
-                device = resolve_device(screens[0], flags, *screens[0].hints, config)
+                device = resolve_device(screens[0], flags, *screens[0].hints, config.for_path(path))
             except ValueError as exc:
                 raise InputError(path, str(exc)) from None
             cache[path] = Loaded(screens[0], device)

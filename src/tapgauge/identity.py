@@ -1,30 +1,32 @@
 """Which target is which across two captures of a screen, without using coordinates.
 
-A target's key is its resource id, else its label, else its class, plus its rank
+A target's key is its resource id (else its label) with its class, plus its rank
 among targets with the same key in document order ("ordinal among equals"). Only
-when a target has none of these does its position stand in.
+when a target has neither id, label nor class does its position stand in.
 """
 
 from __future__ import annotations
 
+import hashlib
 from collections import Counter
 
 from tapgauge.model import Target
 
 
 def base_key(t: Target) -> str:
+    cls = t.cls.rsplit(".", 1)[-1]
     if t.resource_id:
-        return f"id:{t.resource_id.split(':id/', 1)[-1]}"
+        return f"id:{t.resource_id.split(':id/', 1)[-1]}|{cls}"
     if t.label:
-        return f"label:{t.label}"
-    if t.cls:
-        return f"class:{t.cls.rsplit('.', 1)[-1]}"
+        return f"label:{t.label}|{cls}"
+    if cls:
+        return f"class:{cls}"
     l, top, r, b = t.bounds
     return f"at:{l:g},{top:g},{r:g},{b:g}"
 
 
 def target_keys(targets: tuple[Target, ...] | list[Target]) -> list[str]:
-    """Keys unique within one screen, stable when targets move or resize."""
+    """Keys unique within one screen ('KEY#N'), stable when targets move or resize."""
     seen: Counter[str] = Counter()
     keys = []
     for t in targets:
@@ -32,3 +34,8 @@ def target_keys(targets: tuple[Target, ...] | list[Target]) -> list[str]:
         keys.append(f"{k}#{seen[k]}")
         seen[k] += 1
     return keys
+
+
+def fingerprint(screen_id: str, key: str) -> str:
+    """A short stable hash of a target's identity on a screen (no coordinates unless it has nothing else)."""
+    return hashlib.sha256(f"{screen_id}\n{key}".encode()).hexdigest()[:20]

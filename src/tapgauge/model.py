@@ -152,6 +152,7 @@ class Finding:
     required: float
     unit: str
     message: str
+    waiver: tuple[str, str, str | None] | None = None  # (reason, author, expires) when waived
 
 
 @dataclass(frozen=True)

@@ -10,6 +10,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from tapgauge.checks import check_screen
+from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
 from tapgauge.measure import measure
 from tapgauge.model import DeviceHints, InputError, RuleSet, ScreenResult
@@ -21,7 +22,7 @@ from tapgauge.score import Scoring
 class Settings:
     rulesets: tuple[RuleSet, ...]
     flags: DeviceHints = DeviceHints()  # from the command line: wins over everything
-    config: DeviceHints = DeviceHints()  # from the project config: loses to the screen's own files
+    config: DeviceDefaults = DeviceDefaults()  # from the project config: loses to the screen's own files
     announce_skips: bool = False  # say when a chosen rule set does not fit a screen's platform
     read: ReadOptions = field(default_factory=ReadOptions)
     scoring: Scoring = Scoring()
@@ -38,7 +39,7 @@ def check_file(path: Path, settings: Settings) -> list[ScreenResult]:
     results: list[ScreenResult] = []
     for screen in read_screens(path, settings.read):
         try:
-            device = resolve_device(screen, settings.flags, *screen.hints, settings.config)
+            device = resolve_device(screen, settings.flags, *screen.hints, settings.config.for_path(screen.path))
         except ValueError as exc:
             where = f" (image {screen.name})" if screen.name else ""
             raise InputError(path, f"{exc}{where}") from None

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any
 
 from tapgauge import __version__
+from tapgauge.identity import target_keys
 from tapgauge.profiles import Profile
 from tapgauge.model import STATUSES, InputError, RuleSet, ScreenResult, Severity, TargetResult
 
@@ -48,10 +49,11 @@ def profile_record(p: Profile) -> dict[str, Any]:
             "spread_source": p.spread_source, "path": p.path}
 
 
-def target_record(tr: TargetResult) -> dict[str, Any]:
+def target_record(tr: TargetResult, key: str) -> dict[str, Any]:
     t = tr.target
     return {
         "ordinal": t.ordinal,
+        "key": key,
         "line": t.line,
         "class": t.cls,
         "label": t.label,
@@ -64,7 +66,8 @@ def target_record(tr: TargetResult) -> dict[str, Any]:
         "reason": tr.reason,
         "findings": [
             {"rule": f.rule_id, "severity": f.severity.label, "measured": f.measured, "required": f.required,
-             "unit": f.unit, "message": f.message}
+             "unit": f.unit, "message": f.message,
+             "waiver": None if f.waiver is None else {"reason": f.waiver[0], "author": f.waiver[1], "expires": f.waiver[2]}}
             for f in tr.findings
         ],
         "notes": list(tr.notes),
@@ -79,7 +82,8 @@ def target_record(tr: TargetResult) -> dict[str, Any]:
 
 def screen_record(sr: ScreenResult) -> dict[str, Any]:
     d = sr.device
-    targets = [target_record(t) for t in sr.targets]
+    keys = target_keys([t.target for t in sr.targets])
+    targets = [target_record(t, k) for t, k in zip(sr.targets, keys)]
     return {
         "path": display_path(sr.screen.path),
         "name": sr.screen.name,
@@ -119,17 +123,20 @@ def exit_code(screens: list[dict[str, Any]], errors: list[dict[str, Any]], fail_
         return EXIT_ERROR
     for s in screens:
         for t in s["targets"]:
-            if t["status"] == "fail" and any(Severity.parse(f["severity"]) >= fail_level for f in t["findings"]):
+            if t["status"] == "fail" and any(Severity.parse(f["severity"]) >= fail_level and not f["waiver"]
+                                             for f in t["findings"]):
                 return EXIT_FINDINGS
     return EXIT_OK
 
 
 def build_report(screens: list[ScreenResult], errors: list[InputError], rulesets: list[RuleSet],
-                 fail_level: Severity, profiles: list[Profile] | None = None) -> dict[str, Any]:
+                 fail_level: Severity, profiles: list[Profile] | None = None,
+                 waivers: list[dict[str, Any]] | None = None) -> dict[str, Any]:
     screen_recs = sorted((screen_record(s) for s in screens), key=lambda r: (r["path"], r["name"]))
     error_recs = sorted((error_record(e) for e in errors), key=lambda r: (r["path"], r["line"] or 0))
     all_targets = [t for s in screen_recs for t in s["targets"]]
-    severities = Counter(f["severity"] for t in all_targets if t["status"] == "fail" for f in t["findings"])
+    severities = Counter(f["severity"] for t in all_targets if t["status"] == "fail" for f in t["findings"]
+                         if not f["waiver"])
     summary = {
         "screens": len(screen_recs),
         "errors": len(error_recs),
@@ -145,6 +152,7 @@ def build_report(screens: list[ScreenResult], errors: list[InputError], rulesets
         "rulesets": [ruleset_record(rs) for rs in rulesets],
         "profiles": [profile_record(p) for p in profiles or []],
         "screens": screen_recs,
+        "waivers": waivers or [],
         "errors": error_recs,
         "summary": summary,
     }
