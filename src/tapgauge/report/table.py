@@ -116,6 +116,8 @@ def write_table(report: dict[str, Any], width: int | None = None, color: bool = 
         counts = s["summary"]
         reasons = Counter(t["reason"].split(" as #")[0] for t in s["targets"] if t["status"] == "unchecked")
         line = f"{counts['pass']} pass, {counts['fail']} fail, {counts['unmeasurable']} unmeasurable"
+        if counts["exempt"]:
+            line += f", {counts['exempt']} exempt (waived)"
         if counts["unchecked"]:
             why = ", ".join(f"{n} {r}" for r, n in sorted(reasons.items()))
             line += f", {counts['unchecked']} unchecked ({why})"
@@ -125,6 +127,10 @@ def write_table(report: dict[str, Any], width: int | None = None, color: bool = 
         for e in report["errors"]:
             where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
             console.print(Text(f"error: {where}: {e['message']}", style="bold red"))
+    for w in report.get("waivers", []):
+        if w["state"] != "active":
+            why = "matches nothing" if w["state"] == "stale" else f"expired on {w['expires']}"
+            console.print(Text(f"waiver {w['target']} / {w['rule']} on {w['screen']} {why}", style="yellow"))
     console.print(Text(summary_line(report), style="bold"))
     return buf.getvalue()
 
@@ -136,7 +142,7 @@ def summary_line(report: dict[str, Any]) -> str:
     screens = f"{s['screens']} screen" + ("" if s["screens"] == 1 else "s")
     return (
         f"{screens}, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
-        f"{s['unmeasurable']} unmeasurable, {s['unchecked']} unchecked; findings on failing targets: "
+        f"{s['unmeasurable']} unmeasurable, {s['exempt']} exempt, {s['unchecked']} unchecked; findings on failing targets: "
         f"{f['error']} error, {f['warning']} warning, {f['info']} info; {s['errors']} unreadable; "
         f"{verdict} at fail level {report['fail_level']} (exit {s['exit_code']})"
     )
