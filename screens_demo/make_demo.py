@@ -157,9 +157,9 @@ def _paint(draw: ImageDraw.ImageDraw, node: N) -> None:
         _paint(draw, kid)
 
 
-def toolbar(title: str, w: float = SCREEN_DP[0]) -> N:
+def toolbar(title: str, w: float = SCREEN_DP[0], back_rid: str = "back", back_desc: str = "Back") -> N:
     return N("android.view.ViewGroup", (0, 24, w, 80), rid="toolbar", kids=[
-        N("android.widget.ImageButton", (4, 28, 52, 76), desc="Back", click=True, rid="back"),
+        N("android.widget.ImageButton", (4, 28, 52, 76), desc=back_desc, click=True, rid=back_rid),
         N("android.widget.TextView", (68, 36, 300, 68), text=title),
     ])
 
@@ -189,16 +189,23 @@ def plots() -> AndroidScreen:
     ])
 
 
-def plot_detail() -> AndroidScreen:
-    """Icon row with the WCAG spacing exception, an icon jammed against a button, a disabled button."""
+def plot_detail(release: int = 0) -> AndroidScreen:
+    """Icon row with the WCAG spacing exception, an icon jammed against a button, a disabled button.
+
+    release 1 and 2 are two versions for the release gate: the back button has no id (so its
+    label identifies it); version 2 drops that label and adds an undersized favourite icon.
+    """
     w = SCREEN_DP[0]
     icons = []
     # Four 20 x 20 dp icons, 4 dp apart: undersized, but their 24 dp circles only touch (WCAG passes).
     for k, label in enumerate(["Share plot", "Print map", "Report a problem", "Add to calendar"]):
         left = 16 + k * 24
         icons.append(N("android.widget.ImageButton", (left, 360, left + 20, 380), desc=label, click=True, rid=f"tool_{k}"))
+    if release == 2:  # a new 18 dp icon 2 dp after the row: its circle hits its neighbour's
+        icons.append(N("android.widget.ImageButton", (110, 361, 128, 379), desc="Favourite", click=True, rid="favourite"))
+    bar = toolbar("Plot B7") if not release else toolbar("Plot B7", back_rid="", back_desc="Back" if release == 1 else "")
     return dump([
-        toolbar("Plot B7"),
+        bar,
         N("android.widget.ImageView", (0, 80, w, 320), rid="photo"),
         N("android.widget.TextView", (16, 328, 376, 352), text="Plot B7, by the shed: 25 square metres"),
         *icons,
@@ -233,9 +240,13 @@ def plot_detail_roomy() -> AndroidScreen:
     ])
 
 
-def booking_form() -> AndroidScreen:
-    """A date chip partly covered by a badge drawn over it: the overlap leaves too little."""
+def booking_form(release: int = 0) -> AndroidScreen:
+    """A date chip partly covered by a badge drawn over it: the overlap leaves too little.
+
+    In release 2 the confirm button shrinks from 56 to 40 dp tall.
+    """
     w = SCREEN_DP[0]
+    confirm_top = 776 if release == 2 else 760
     return dump([
         toolbar("Book plot B7"),
         N("android.widget.EditText", (16, 96, 376, 152), text="Member name", click=True, long=True, rid="name"),
@@ -247,7 +258,7 @@ def booking_form() -> AndroidScreen:
         N("android.widget.ImageButton", (36, 192, 56, 212), desc="Remove date", click=True, rid="day_14_remove"),
         N("android.widget.Button", (96, 200, 144, 248), text="15", click=True, rid="day_15"),
         N("android.widget.CheckBox", (16, 272, 376, 290), text="I have read the plot rules", check=True, click=True, rid="rules_ok"),
-        N("android.widget.Button", (16, 760, 376, 816), text="Confirm booking", click=True, rid="confirm"),
+        N("android.widget.Button", (16, confirm_top, 376, 816), text="Confirm booking", click=True, rid="confirm"),
     ])
 
 
@@ -291,11 +302,23 @@ def write_alternatives(out: Path) -> None:
         (folder / "device.txt").write_text(DEVICE_TXT, encoding="utf-8")
 
 
+def write_releases(out: Path) -> None:
+    """Two versions of the app, for `tapgauge baseline` and `tapgauge gate`."""
+    for release in (1, 2):
+        folder = out / f"v{release}"
+        folder.mkdir(parents=True, exist_ok=True)
+        for name, screen in (("plot_detail", plot_detail(release)), ("booking_form", booking_form(release))):
+            (folder / f"{name}.xml").write_text(screen.xml(), encoding="utf-8")
+            screen.png().save(folder / f"{name}.png", optimize=True)
+        (folder / "device.txt").write_text(DEVICE_TXT, encoding="utf-8")
+
+
 def main() -> None:
     from demo_other import write_annotated, write_ios, write_marked  # the other input kinds
 
     write_android(HERE / "android")
     write_alternatives(HERE / "alternatives")
+    write_releases(HERE / "releases")
     write_ios(HERE / "ios")
     write_annotated(HERE / "annotated")
     write_marked(HERE / "marked")

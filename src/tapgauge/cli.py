@@ -17,7 +17,7 @@ from rich.console import Console
 from rich.table import Table
 
 from tapgauge import __version__
-from tapgauge.config import load_config
+from tapgauge.config import Config, load_config
 from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
 from tapgauge.pipeline import Settings, run_check
@@ -104,28 +104,14 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
            width_model: str, difficulty: bool, today: str | None) -> int:
     try:
         writer = writer_for(fmt)
-        config = load_config(Path.cwd())
-        level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
-        spec = rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS)
-        chosen = select_rulesets(spec)
-        flags = _common_device(density, scale, ppi)
-        options = ReadOptions(
-            classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
-            marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
-        )
-        scoring = make_scoring(profiles or _joined(config.profiles), params, start, width_model)
-        day = parse_day(today)
-    except (InputError, ValueError) as exc:
+    except ValueError as exc:
         _err(str(exc))
         return EXIT_ERROR
-    settings = Settings(tuple(chosen), flags, config.devices, announce_skips=rules is not None, read=options,
-                        scoring=scoring)
-    result = run_check(paths, settings)
-    screens, outcomes = apply_waivers(list(result.screens), config.waivers, config.base, day)
-    report = build_report(screens, list(result.errors), chosen, level, list(scoring.profiles), waiver_records(outcomes))
-    for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
-        where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
-        _err(f"{where}: {e['message']}")
+    built = _run_report(paths, rules, density, scale, ppi, classes, marker, fail_level, profiles, params, start,
+                        width_model, today)
+    if isinstance(built, int):
+        return built
+    report, _ = built
     if overlay is not None:
         from tapgauge.report.overlay import write_overlays  # Pillow drawing only when asked
 
@@ -140,6 +126,140 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
     else:
         text = writer(report, width=width)
     return _emit(text, output) or int(report["summary"]["exit_code"])
+
+
+def _run_report(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
+                classes: Path | None, marker: str | None, fail_level: str | None, profiles: str | None,
+                params: list[str], start: str, width_model: str, today: str | None) -> tuple[dict, Config] | int:
+    """The whole pipeline from options to the report records; an exit code when options are bad."""
+    try:
+        config = load_config(Path.cwd())
+        level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
+        chosen = select_rulesets(rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS))
+        read = ReadOptions(
+            classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
+            marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
+        )
+        scoring = make_scoring(profiles or _joined(config.profiles), params, start, width_model)
+        settings = Settings(tuple(chosen), _common_device(density, scale, ppi), config.devices,
+                            announce_skips=rules is not None, read=read, scoring=scoring)
+        day = parse_day(today)
+    except (InputError, ValueError) as exc:
+        _err(str(exc))
+        return EXIT_ERROR
+    result = run_check(paths, settings)
+    screens, outcomes = apply_waivers(list(result.screens), config.waivers, config.base, day)
+    report = build_report(screens, list(result.errors), chosen, level, list(scoring.profiles), waiver_records(outcomes))
+    for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
+        where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
+        _err(f"{where}: {e['message']}")
+    return report, config
+
+
+def _screen_ids(report: dict, roots: list[Path]) -> dict[str, str]:
+    """Stable screen ids for baselines: each screen's path relative to the folder it was found in."""
+    from tapgauge.gate import screen_ref
+
+    ids: dict[str, str] = {}
+    resolved = [(r.resolve(), r.is_dir()) for r in roots]
+    for s in report["screens"]:
+        p = Path(s["path"]).resolve()
+        sid = p.name
+        for root, is_dir in resolved:
+            if is_dir and (root == p or root in p.parents):
+                sid = p.relative_to(root).as_posix()
+                break
+        ids[screen_ref(s)] = f"{sid}::{s['name']}" if s["name"] else sid
+    return ids
+
+
+@app.command("baseline")
+def baseline_cmd(
+    paths: Annotated[list[Path], typer.Argument(help="Screen files or folders, as for check.")],
+    output: Annotated[Path, typer.Option("--output", "-o", help="Baseline file to write (JSON, atomically).")],
+    force: Annotated[bool, typer.Option("--force", help="Replace a file that is not this project's baseline.")] = False,
+    rules: Annotated[Optional[str], typer.Option("--rules", "-r", help="Rule sets, as for check.")] = None,
+    density: Annotated[Optional[str], typer.Option(help="Screen density (Android).")] = None,
+    scale: Annotated[Optional[str], typer.Option(help="Pixels per point (iOS).")] = None,
+    ppi: Annotated[Optional[str], typer.Option(help="Physical pixels per inch.")] = None,
+    profiles: Annotated[Optional[str], typer.Option(help="Slope profiles, as for check.")] = None,
+    start: Annotated[str, typer.Option("--from", help="Where reaches start, as for check.")] = "centre",
+    today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD).")] = None,
+) -> None:
+    """Record each target's identity, size, status and predicted difficulty, for the release gate."""
+    from tapgauge.gate import baseline_from_report, check_overwrite
+
+    built = _run_report(paths, rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today)
+    if isinstance(built, int):
+        raise typer.Exit(built)
+    report, config = built
+    if report["errors"]:
+        _err("not writing a baseline while screens could not be read (see above)")
+        raise typer.Exit(EXIT_ERROR)
+    project = config.project or (config.base.name if config.path else Path.cwd().name)
+    try:
+        if not force:
+            check_overwrite(output, project)
+        doc = baseline_from_report(report, _screen_ids(report, paths), project)
+        write_atomic(output, json.dumps(doc, indent=1, ensure_ascii=False) + "\n")
+    except InputError as exc:
+        _err(str(exc))
+        raise typer.Exit(EXIT_ERROR) from None
+    except OSError as exc:
+        _err(f"{output}: cannot write baseline: {exc.strerror or exc}")
+        raise typer.Exit(EXIT_ERROR) from None
+    n = sum(len(v["targets"]) for v in doc["screens"].values())
+    typer.echo(f"wrote {output}: {len(doc['screens'])} screens, {n} targets, project {project!r}")
+
+
+@app.command("gate")
+def gate_cmd(
+    paths: Annotated[list[Path], typer.Argument(help="Screen files or folders, as recorded in the baseline.")],
+    baseline: Annotated[Path, typer.Option("--baseline", "-b", help="Baseline file written by `tapgauge baseline`.")],
+    fmt: Annotated[str, typer.Option("--format", "-f", help="table or json.")] = "table",
+    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")] = None,
+    size_tolerance: Annotated[Optional[float], typer.Option(help="dp/pt a target may shrink unnoticed (default 1).")] = None,
+    miss_tolerance: Annotated[Optional[float], typer.Option(help="Rise in predicted miss probability allowed (default 0.02).")] = None,
+    time_tolerance: Annotated[Optional[float], typer.Option(help="Rise in predicted time allowed, ms (default 25).")] = None,
+    missing: Annotated[Optional[str], typer.Option(help="A screen or target that disappeared: report (default) or fail.")] = None,
+    rules: Annotated[Optional[str], typer.Option("--rules", "-r", help="Rule sets, as for check.")] = None,
+    density: Annotated[Optional[str], typer.Option(help="Screen density (Android).")] = None,
+    scale: Annotated[Optional[str], typer.Option(help="Pixels per point (iOS).")] = None,
+    ppi: Annotated[Optional[str], typer.Option(help="Physical pixels per inch.")] = None,
+    profiles: Annotated[Optional[str], typer.Option(help="Slope profiles, as for check.")] = None,
+    start: Annotated[str, typer.Option("--from", help="Where reaches start, as for check.")] = "centre",
+    today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD).")] = None,
+) -> None:
+    """Fail (exit 1) only on what got worse since the baseline; report what got better."""
+    from dataclasses import replace as _replace
+
+    from tapgauge.gate import gate, gate_record, load_baseline
+    from tapgauge.report.table import write_gate_table
+
+    try:
+        if fmt not in ("table", "json"):
+            raise ValueError(f"unknown format {fmt!r}; expected table or json")
+        if missing not in (None, "report", "fail"):
+            raise ValueError(f"--missing {missing!r}: expected report or fail")
+        base = load_baseline(baseline)
+    except (InputError, ValueError) as exc:
+        _err(str(exc))
+        raise typer.Exit(EXIT_ERROR) from None
+    built = _run_report(paths, rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today)
+    if isinstance(built, int):
+        raise typer.Exit(built)
+    report, config = built
+    tol = config.gate
+    overrides = {k: v for k, v in {"size_tolerance": size_tolerance, "miss_tolerance": miss_tolerance,
+                                   "time_tolerance_ms": time_tolerance, "missing": missing}.items() if v is not None}
+    worse, better, gone = gate(report, _screen_ids(report, paths), base, _replace(tol, **overrides))
+    record = gate_record(worse, better, gone, baseline.as_posix(), len(report["errors"]))
+    if fmt == "json":
+        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
+    else:
+        text = write_gate_table(record, width=Console().width if output is None else 80,
+                                color=output is None and sys.stdout.isatty())
+    raise typer.Exit(_emit(text, output) or record["summary"]["exit_code"])
 
 
 def _common_device(density: str | None, scale: str | None, ppi: str | None) -> DeviceHints:
@@ -285,6 +405,25 @@ def calibrate_cmd(
     except OSError as exc:
         _err(f"cannot write: {exc}")
         raise typer.Exit(EXIT_ERROR) from None
+
+
+@app.command("config")
+def config_cmd() -> None:
+    """Print the effective settings and where each came from (config file or built-in default)."""
+    from tapgauge.config import effective_settings
+
+    try:
+        config = load_config(Path.cwd())
+    except InputError as exc:
+        _err(str(exc))
+        raise typer.Exit(EXIT_ERROR) from None
+    defaults = {"rules": DEFAULT_RULESETS, "fail_level": "error", "profiles": DEFAULT_PROFILES, "marker": DEFAULT_MARKER}
+    table = Table(show_edge=False, pad_edge=False, box=None, padding=(0, 2, 0, 0))
+    for col in ("setting", "value", "from"):
+        table.add_column(col, overflow="fold")
+    for key, value, origin in effective_settings(config, defaults):
+        table.add_row(key, value, origin)
+    Console(highlight=False).print(table)
 
 
 @app.command("capture")

@@ -260,3 +260,40 @@ def _gate(r: _Reader, raw: Any) -> GateSettings:
         else:
             raise r.bad(f"gate.{key}", f"unknown key; expected {', '.join(numbers)} or missing")
     return GateSettings(**{k: (float(v) if k in numbers else v) for k, v in raw.items()})
+
+
+def effective_settings(config: Config, defaults: dict[str, Any]) -> list[tuple[str, str, str]]:
+    """(key, value, where it came from) for every setting, for `tapgauge config`."""
+    where = f"{config.path}" if config.path else ""
+
+    def origin(key: str) -> str:
+        return where if key in config.raw else "built-in default"
+
+    def device_text(h: DeviceHints) -> str:
+        parts = [f"density {h.density_dpi:g}" if h.density_dpi else "", f"scale {h.scale:g}" if h.scale else "",
+                 f"ppi {h.xdpi:g},{h.ydpi:g}" if h.xdpi else ""]
+        return ", ".join(p for p in parts if p) or "(none: from flags or sidecars only)"
+
+    rows = [
+        ("config file", str(config.path) if config.path else "(none found from here up)", ""),
+        ("project", config.project or "(unnamed)", origin("project")),
+        ("rules", ", ".join(config.rules or defaults["rules"]), origin("rules")),
+        ("fail_level", (config.fail_level.label if config.fail_level else defaults["fail_level"]), origin("fail_level")),
+        ("profiles", ", ".join(config.profiles or defaults["profiles"]), origin("profiles")),
+        ("marker", config.marker or defaults["marker"], origin("marker")),
+        ("classes", "custom table" if config.classes else "built-in table", origin("classes")),
+        ("device", device_text(config.devices.fallback), origin("device")),
+    ]
+    for p in config.devices.patterns:
+        rows.append((f"device for {p.pattern}", device_text(p.hints), where))
+    g = config.gate
+    rows += [
+        ("gate.size_tolerance", f"{g.size_tolerance:g} dp/pt", origin("gate")),
+        ("gate.miss_tolerance", f"{g.miss_tolerance:g}", origin("gate")),
+        ("gate.time_tolerance_ms", f"{g.time_tolerance_ms:g} ms", origin("gate")),
+        ("gate.missing", g.missing, origin("gate")),
+    ]
+    for w in config.waivers:
+        until = f" until {w.expires}" if w.expires else ""
+        rows.append((f"waiver (line {w.line})", f"{w.screen} {w.target} {w.rule}{until}: {w.reason} ({w.author})", where))
+    return rows

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from tapgauge.report.json_writer import write_json
+from tapgauge.report.junit import write_junit
+from tapgauge.report.sarif import write_sarif
 from tapgauge.report.table import write_table
 
 Writer = Callable[..., str]
@@ -11,6 +13,8 @@ Writer = Callable[..., str]
 WRITERS: dict[str, Writer] = {
     "table": write_table,
     "json": write_json,
+    "sarif": write_sarif,
+    "junit": write_junit,
 }
 
 

@@ -1,0 +1,190 @@
+"""Baselines and the release gate: fail a build only on what got worse.
+
+A baseline records, per screen and target, a coordinate-free identity (see identity.py)
+with the target's size, status, failing rules and predicted difficulty; no pixel
+positions, so moving a control does not look like a change. The gate compares a new
+run with it and lists regressions and improvements. Identical targets are matched by
+count: a third identical failure where the baseline had two is new.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from tapgauge import __version__
+from tapgauge.config import GateSettings
+from tapgauge.identity import fingerprint
+from tapgauge.model import InputError, Severity
+
+BASELINE_FORMAT = "tapgauge-baseline"
+BASELINE_VERSION = 1
+
+
+def _failing(t: dict[str, Any], fail_level: Severity) -> list[str]:
+    if t["status"] not in ("fail", "unmeasurable"):
+        return []
+    return sorted({f["rule"] for f in t["findings"] if not f["waiver"] and Severity.parse(f["severity"]) >= fail_level})
+
+
+def baseline_from_report(report: dict[str, Any], screen_ids: dict[str, str], project: str) -> dict[str, Any]:
+    """The baseline document for a report. `screen_ids` maps report paths (+ '::name') to stable ids."""
+    level = Severity.parse(report["fail_level"])
+    screens: dict[str, Any] = {}
+    for s in report["screens"]:
+        sid = screen_ids[screen_ref(s)]
+        unit = s["device"]["unit"]
+        targets = []
+        for t in s["targets"]:
+            if t["status"] == "unchecked":
+                continue
+            targets.append({
+                "key": t["key"], "fingerprint": fingerprint(sid, t["key"]), "name": t["name"], "status": t["status"],
+                "failing": _failing(t, level), "size": [t["size"]["width"], t["size"]["height"]], "unit": unit,
+                "size_mm": None if t["size_mm"] is None else [t["size_mm"]["width"], t["size_mm"]["height"]],
+                "difficulty": {d["profile"]: {"time_ms": d["time_ms"], "miss": d["miss_probability"]}
+                               for d in t["difficulty"]},
+            })
+        screens[sid] = {"targets": sorted(targets, key=lambda x: x["key"])}
+    return {
+        "format": BASELINE_FORMAT, "version": BASELINE_VERSION, "project": project,
+        "tool": {"name": "tapgauge", "version": __version__},
+        "fail_level": report["fail_level"],
+        "rulesets": [r["id"] for r in report["rulesets"]],
+        "profiles": [p["id"] for p in report["profiles"]],
+        "screens": dict(sorted(screens.items())),
+    }
+
+
+def screen_ref(s: dict[str, Any]) -> str:
+    return f"{s['path']}::{s['name']}" if s["name"] else s["path"]
+
+
+def load_baseline(path: Path) -> dict[str, Any]:
+    """A baseline file, checked; anything else (missing, corrupt, other version) is an error."""
+    try:
+        data = json.loads(path.read_text("utf-8"))
+    except FileNotFoundError:
+        raise InputError(path, "baseline not found; record one with `tapgauge baseline SCREENS -o FILE`") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(path, f"cannot read baseline: {exc}") from None
+    except json.JSONDecodeError as exc:
+        raise InputError(path, f"baseline is not valid JSON ({exc.msg}); re-record it", exc.lineno) from None
+    if not isinstance(data, dict) or data.get("format") != BASELINE_FORMAT:
+        raise InputError(path, f"not a tapgauge baseline (expected \"format\": \"{BASELINE_FORMAT}\")")
+    if data.get("version") != BASELINE_VERSION:
+        raise InputError(path, f"baseline version {data.get('version')!r}; this tapgauge reads version "
+                               f"{BASELINE_VERSION}: re-record it")
+    screens = data.get("screens")
+    if not isinstance(screens, dict) or not all(
+        isinstance(v, dict) and isinstance(v.get("targets"), list) for v in screens.values()
+    ):
+        raise InputError(path, "baseline is damaged: 'screens' must map screen ids to their targets; re-record it")
+    for sid, v in screens.items():
+        for t in v["targets"]:
+            if not isinstance(t, dict) or not {"key", "status", "failing", "size", "difficulty"} <= set(t):
+                raise InputError(path, f"baseline is damaged: a target on {sid} lacks key, status, failing, size "
+                                       "or difficulty; re-record it")
+    return data
+
+
+def check_overwrite(path: Path, project: str) -> None:
+    """Refuse to replace a file that is not this project's baseline."""
+    if not path.exists():
+        return
+    try:
+        old = json.loads(path.read_text("utf-8"))
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError):
+        raise InputError(path, "exists and is not a tapgauge baseline; pass --force to replace it") from None
+    if not isinstance(old, dict) or old.get("format") != BASELINE_FORMAT:
+        raise InputError(path, "exists and is not a tapgauge baseline; pass --force to replace it")
+    if old.get("project") != project:
+        raise InputError(path, f"is the baseline of project {old.get('project')!r}, not {project!r}; "
+                               "pass --force to replace it")
+
+
+@dataclass(frozen=True)
+class Change:
+    kind: str  # new-failure, shrank, harder, gone-screen, gone-target | fixed, grew, easier
+    screen: str
+    target: str  # key ('' for a whole screen)
+    name: str
+    message: str
+    fingerprint: str
+
+
+def gate(report: dict[str, Any], screen_ids: dict[str, str], baseline: dict[str, Any],
+         settings: GateSettings) -> tuple[list[Change], list[Change], list[Change]]:
+    """(regressions, improvements, gone) of a report against a baseline.
+
+    Screens and targets that disappeared are regressions when settings.missing is
+    "fail"; otherwise they are only reported.
+    """
+    current = baseline_from_report(report, screen_ids, baseline.get("project", ""))
+    worse: list[Change] = []
+    better: list[Change] = []
+    gone: list[Change] = []
+    for sid in baseline["screens"]:
+        if sid not in current["screens"]:
+            gone.append(Change("gone-screen", sid, "", "", f"screen {sid} is in the baseline but was not checked",
+                               fingerprint(sid, "")))
+    for sid, new_screen in current["screens"].items():
+        old = {t["key"]: t for t in baseline["screens"].get(sid, {"targets": []})["targets"]}
+        new = {t["key"]: t for t in new_screen["targets"]}
+        for key, t in new.items():
+            fp = fingerprint(sid, key)
+            b = old.get(key)
+            fresh = sorted(set(t["failing"]) - set(b["failing"] if b else []))
+            if fresh:
+                how = "new target" if b is None else "now"
+                worse.append(Change("new-failure", sid, key, t["name"], f"{t['name']} ({how}) fails {', '.join(fresh)}", fp))
+            if b is None:
+                continue
+            fixed = sorted(set(b["failing"]) - set(t["failing"]))
+            if fixed:
+                better.append(Change("fixed", sid, key, t["name"], f"{t['name']} no longer fails {', '.join(fixed)}", fp))
+            unit = t["unit"]
+            (ow, oh), (nw, nh) = b["size"], t["size"]
+            if nw < ow - settings.size_tolerance or nh < oh - settings.size_tolerance:
+                worse.append(Change("shrank", sid, key, t["name"],
+                                    f"{t['name']} shrank from {ow:g} x {oh:g} to {nw:g} x {nh:g} {unit}", fp))
+            elif nw > ow + settings.size_tolerance or nh > oh + settings.size_tolerance:
+                better.append(Change("grew", sid, key, t["name"],
+                                     f"{t['name']} grew from {ow:g} x {oh:g} to {nw:g} x {nh:g} {unit}", fp))
+            for profile, d in t["difficulty"].items():
+                o = b["difficulty"].get(profile)
+                if o is None:
+                    continue
+                if d["miss"] is not None and o["miss"] is not None:
+                    if d["miss"] > o["miss"] + settings.miss_tolerance:
+                        worse.append(Change("harder", sid, key, t["name"], f"{t['name']}: predicted miss for {profile} "
+                                            f"rose from {o['miss']:.0%} to {d['miss']:.0%}", fp))
+                    elif d["miss"] < o["miss"] - settings.miss_tolerance:
+                        better.append(Change("easier", sid, key, t["name"], f"{t['name']}: predicted miss for {profile} "
+                                             f"fell from {o['miss']:.0%} to {d['miss']:.0%}", fp))
+                if d["time_ms"] > o["time_ms"] + settings.time_tolerance_ms:
+                    worse.append(Change("harder", sid, key, t["name"], f"{t['name']}: predicted time for {profile} "
+                                        f"rose from {o['time_ms']:.0f} to {d['time_ms']:.0f} ms", fp))
+        for key, b in old.items():
+            if key not in new:
+                change = Change("gone-target", sid, key, b.get("name", ""),
+                                f"{b.get('name') or key} is in the baseline but not on the screen now "
+                                "(removed, or its id, label or class changed)", fingerprint(sid, key))
+                gone.append(change)
+    if settings.missing == "fail":
+        return worse + gone, better, []
+    return worse, better, gone
+
+
+def gate_record(worse: list[Change], better: list[Change], gone: list[Change], baseline_path: str,
+                errors: int) -> dict[str, Any]:
+    def rows(changes: list[Change]) -> list[dict[str, Any]]:
+        return [dict(c.__dict__) for c in sorted(changes, key=lambda c: (c.screen, c.target, c.kind, c.message))]
+
+    code = 2 if errors else 1 if worse else 0
+    return {"format": "tapgauge-gate", "version": 1, "baseline": baseline_path, "regressions": rows(worse),
+            "improvements": rows(better), "gone": rows(gone),
+            "summary": {"regressions": len(worse), "improvements": len(better), "gone": len(gone),
+                        "errors": errors, "exit_code": code}}

@@ -1,0 +1,107 @@
+"""SARIF 2.1.0 (OASIS) for code-scanning dashboards.
+
+One result per finding on a failing, unmeasurable or exempt target; waived findings
+carry an external suppression with the waiver's reason. Locations point at the
+screen file and the target's line; where the screen has a screenshot, the result
+attaches it with the target's rectangle in image pixels. partialFingerprints use
+the coordinate-free target identity, so moving a control does not reopen a result.
+"""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+from tapgauge import __version__
+from tapgauge.identity import fingerprint
+
+LEVELS = {"error": "error", "warning": "warning", "info": "note"}
+SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
+
+
+def _image_scale(screen: dict[str, Any]) -> float:
+    """Screen coordinates to screenshot pixels: points times the scale, pixels as they are."""
+    if screen["coordinates"] == "pt":
+        return float(screen["device"]["scale"] or 1.0)
+    return 1.0
+
+
+def sarif_document(report: dict[str, Any]) -> dict[str, Any]:
+    rules = [r for rs in report["rulesets"] for r in rs["rules"]]
+    index = {r["id"]: k for k, r in enumerate(rules)}
+    results: list[dict[str, Any]] = []
+    artifacts: dict[str, int] = {}
+
+    def artifact(uri: str) -> int:
+        return artifacts.setdefault(uri, len(artifacts))
+
+    for s in report["screens"]:
+        sid = f"{s['path']}::{s['name']}" if s["name"] else s["path"]
+        k = _image_scale(s)
+        for t in s["targets"]:
+            if t["status"] not in ("fail", "unmeasurable", "exempt"):
+                continue
+            for f in t["findings"]:
+                region: dict[str, Any] = {"startLine": t["line"]} if t["line"] else {}
+                location = {"physicalLocation": {"artifactLocation": {"uri": s["path"], "index": artifact(s["path"])},
+                                                 **({"region": region} if region else {})},
+                            "logicalLocations": [{"name": f"#{t['ordinal']} {t['name']}", "kind": "element"}]}
+                result: dict[str, Any] = {
+                    "ruleId": f["rule"],
+                    "ruleIndex": index[f["rule"]],
+                    "level": LEVELS[f["severity"]],
+                    "message": {"text": f"#{t['ordinal']} {t['name']}: {f['message']} "
+                                        f"(found {f['measured']:g}, needs {f['required']:g} {f['unit']})"},
+                    "locations": [location],
+                    "partialFingerprints": {"tapgaugeTarget/v1": fingerprint(sid, t["key"] + "/" + f["rule"])},
+                    "properties": {"status": t["status"], "measured": f["measured"], "required": f["required"],
+                                   "unit": f["unit"]},
+                }
+                if f["waiver"]:
+                    w = f["waiver"]
+                    until = f" until {w['expires']}" if w["expires"] else ""
+                    result["suppressions"] = [{"kind": "external", "status": "accepted",
+                                               "justification": f"{w['reason']} ({w['author']}{until})"}]
+                if s["image"]:
+                    left, top, right, bottom = (v * k for v in t["bounds"])
+                    result["attachments"] = [{
+                        "description": {"text": "screenshot with the target's rectangle"},
+                        "artifactLocation": {"uri": s["image"], "index": artifact(s["image"])},
+                        "rectangles": [{"left": left, "top": top, "right": right, "bottom": bottom,
+                                        "message": {"text": f"#{t['ordinal']} {t['name']}"}}],
+                    }]
+                results.append(result)
+    driver = {
+        "name": "tapgauge",
+        "version": __version__,
+        "rules": [
+            {"id": r["id"], "name": r["id"].replace("/", "-"),
+             "shortDescription": {"text": r["summary"]},
+             "fullDescription": {"text": f"{r['summary']}. Source: {r['source']}."},
+             "help": {"text": f"{r['summary']}. Source: {r['source']} ({r['url']}). tapgauge's figures support, "
+                              "and do not replace, an audit under the law that applies and by a qualified person."},
+             "helpUri": r["url"],
+             "defaultConfiguration": {"level": LEVELS[r["severity"]]},
+             "properties": {"kind": r["kind"], "unit": r["unit"], "params": r["params"]}}
+            for r in rules
+        ],
+    }
+    return {
+        "$schema": SARIF_SCHEMA,
+        "version": "2.1.0",
+        "runs": [{
+            "tool": {"driver": driver},
+            "artifacts": [{"location": {"uri": uri}} for uri, _ in sorted(artifacts.items(), key=lambda kv: kv[1])],
+            "results": results,
+            "invocations": [{"executionSuccessful": not report["errors"],
+                             "toolExecutionNotifications": [
+                                 {"level": "error", "message": {"text": e["message"]},
+                                  "locations": [{"physicalLocation": {"artifactLocation": {"uri": e["path"]},
+                                                                      **({"region": {"startLine": e["line"]}} if e["line"] else {})}}]}
+                                 for e in report["errors"]]}],
+        }],
+    }
+
+
+def write_sarif(report: dict[str, Any], width: int | None = None) -> str:
+    return json.dumps(sarif_document(report), indent=2, ensure_ascii=False) + "\n"
