@@ -43,15 +43,18 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
                 mm, p.alpha, p.sigma_a_mm, width_model)
         for p in profiles
     ]
+    # Round whole arrays once: per-element round() dominated this stage on large batches.
+    columns = [
+        (np.round(pred.width, 4).tolist(), np.round(pred.distance, 4).tolist(), np.round(pred.id_bits, 4).tolist(),
+         np.round(pred.time_ms, 2).tolist(), np.round(pred.hit, 4).tolist())
+        for pred in per_profile
+    ]
     targets = list(sr.targets)
     for row, k in enumerate(scored):
         targets[k] = replace(targets[k], difficulty=tuple(
-            Difficulty(
-                profile=p.id, width=round(float(pred.width[row]), 4), distance=round(float(pred.distance[row]), 4),
-                id_bits=round(float(pred.id_bits[row]), 4), time_ms=round(float(pred.time_ms[row]), 2),
-                hit=None if np.isnan(pred.hit[row]) else round(float(pred.hit[row]), 4),
-            )
-            for p, pred in zip(profiles, per_profile)
+            Difficulty(profile=p.id, width=w[row], distance=d[row], id_bits=i[row], time_ms=t[row],
+                       hit=None if h[row] != h[row] else h[row])
+            for p, (w, d, i, t, h) in zip(profiles, columns)
         ))
     return replace(sr, targets=tuple(targets), start=(start, round(float(start_unit[0]), 2), round(float(start_unit[1]), 2)),
                    reach_unit="mm" if unit == "mm" else device.unit)

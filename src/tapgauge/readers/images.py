@@ -8,15 +8,19 @@ from __future__ import annotations
 
 import warnings
 from pathlib import Path
-
-from PIL import Image, UnidentifiedImageError
+from typing import TYPE_CHECKING
 
 from tapgauge.model import InputError
+
+if TYPE_CHECKING:
+    from PIL import Image
 
 IMAGE_SUFFIXES = (".png", ".jpg", ".jpeg")
 
 
 def _open(path: Path) -> Image.Image:
+    from PIL import Image, UnidentifiedImageError  # here, so a run with no pictures never loads Pillow
+
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("error", Image.DecompressionBombWarning)
