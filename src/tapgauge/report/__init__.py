@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from tapgauge.report.findings import write_csv, write_markdown
 from tapgauge.report.json_writer import write_json
 from tapgauge.report.junit import write_junit
 from tapgauge.report.sarif import write_sarif
@@ -10,11 +11,20 @@ from tapgauge.report.table import write_table
 
 Writer = Callable[..., str]
 
+
+def write_html(report: dict, width: int | None = None) -> str:  # type: ignore[type-arg]
+    from tapgauge.report.html import write_html as html  # Pillow drawing only when asked
+
+    return html(report, width)
+
 WRITERS: dict[str, Writer] = {
     "table": write_table,
     "json": write_json,
     "sarif": write_sarif,
     "junit": write_junit,
+    "csv": write_csv,
+    "md": write_markdown,
+    "html": write_html,
 }
 
 

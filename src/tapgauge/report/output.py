@@ -12,6 +12,9 @@ def write_atomic(path: Path, content: str | bytes) -> None:
     data = content.encode("utf-8") if isinstance(content, str) else content
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
     try:
+        mask = os.umask(0)  # mkstemp makes files private; give the report the usual permissions
+        os.umask(mask)
+        os.chmod(tmp, 0o666 & ~mask)
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()

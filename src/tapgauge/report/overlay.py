@@ -101,14 +101,24 @@ def _to_coords(size: float, unit: str, device: dict[str, Any]) -> tuple[float, f
     return size * device["coords_per_unit"], size * device["coords_per_unit"]
 
 
-def draw_overlay(screen: dict[str, Any], report: dict[str, Any], image: Image.Image | None) -> Image.Image:
-    """The overlay of one screen record as a new picture (the screenshot is not changed)."""
+def draw_overlay(screen: dict[str, Any], report: dict[str, Any], image: Image.Image | None,
+                 max_width: int | None = None) -> Image.Image:
+    """The overlay of one screen record as a new picture (the screenshot is not changed).
+
+    With max_width the picture is drawn at most that wide (cheaper than drawing big and shrinking).
+    """
     w, h = float(screen["width"]), float(screen["height"])
     if image is not None:
-        base = Image.blend(image.convert("RGB"), Image.new("RGB", image.size, PAPER), 0.35)
+        picture = image.convert("RGB")
+        if max_width and picture.width > max_width:
+            picture = picture.resize((max_width, max(1, round(picture.height * max_width / picture.width))),
+                                     Image.Resampling.BILINEAR)
+        base = Image.blend(picture, Image.new("RGB", picture.size, PAPER), 0.35)
         fx, fy = base.width / w, base.height / h
     else:
         k = 2.0 if screen["coordinates"] == "pt" else 1.0
+        if max_width:
+            k = min(k, max_width / w)
         base = Image.new("RGB", (max(1, round(w * k)), max(1, round(h * k))), (244, 244, 242))
         fx = fy = k
     s = max(1, round(base.width / 540))  # line widths and text grow with the picture

@@ -1,0 +1,138 @@
+"""The auditor's findings table: one row per finding, with a plain-language fix hint.
+
+CSV and Markdown writers share these rows; the column order is part of the contract
+(README, "Findings tables") and only ever grows at the end.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+from typing import Any
+
+from tapgauge.difficulty import hit_probability
+
+COLUMNS = (
+    "screen", "target", "label", "resource_id", "class", "rule_set", "rule", "severity", "status",
+    "measured", "required", "unit", "width", "height", "size_unit", "width_mm", "height_mm",
+    "miss_probability", "profile", "waiver", "fix",
+)
+
+
+def _num(v: float | None, digits: int = 1) -> str:
+    return "" if v is None else f"{v:.{digits}f}".rstrip("0").rstrip(".")
+
+
+def _rules(report: dict[str, Any]) -> dict[str, dict[str, Any]]:
+    return {r["id"]: r for rs in report["rulesets"] for r in rs["rules"]}
+
+
+def _size_for_miss(limit: float, alpha: float, sigma_a: float) -> float:
+    """Smallest square side (mm) whose predicted miss is at most `limit` (bisection)."""
+    lo, hi = 0.0, 200.0
+    for _ in range(60):
+        mid = (lo + hi) / 2
+        if 1 - hit_probability([mid], [mid], alpha, sigma_a)[0] > limit:  # type: ignore[arg-type]
+            lo = mid
+        else:
+            hi = mid
+    return hi
+
+
+def fix_hint(finding: dict[str, Any], target: dict[str, Any], rule: dict[str, Any] | None, unit: str) -> str:
+    """What would make the finding go away, in the finding's own unit."""
+    if rule is None:
+        return ""
+    need, got, u = finding["required"], finding["measured"], finding["unit"]
+    if rule["kind"] == "min-size":
+        w, h = (target["size_mm"]["width"], target["size_mm"]["height"]) if u == "mm" and target["size_mm"] else (
+            target["size"]["width"], target["size"]["height"])
+        if min(w, h) + 1e-9 >= need:
+            return (f"targets drawn over it leave only a {_num(got)} {u} square: move them off it, "
+                    f"or make it {_num(need - got)} {u} larger")
+        x, y = max(0.0, need - w) / 2, max(0.0, need - h) / 2
+        goal = f"to reach {_num(need)} x {_num(need)} {u}"
+        if x and y and abs(x - y) < 0.05:
+            hint = f"add {_num(x)} {u} of touchable padding on every side {goal}"
+        elif x and y:
+            hint = f"add {_num(x)} {u} on the left and right and {_num(y)} {u} above and below, as touchable padding, {goal}"
+        elif x:
+            hint = f"add {_num(x)} {u} of touchable padding on the left and right {goal}"
+        else:
+            hint = f"add {_num(y)} {u} of touchable padding above and below {goal}"
+        if rule["params"].get("spacing_exception"):
+            hint += f", or clear a {_num(need)} {u} circle around it"
+        return hint
+    if rule["kind"] == "min-gap":
+        return f"move it {_num(need - got)} {u} further from its nearest neighbour ({_num(need)} {u} clear)"
+    if rule["kind"] == "max-miss":
+        from tapgauge.profiles import find_profile
+
+        p = find_profile(str(rule["params"]["profile"]))
+        side = _size_for_miss(float(rule["params"]["max_miss"]), p.alpha, p.sigma_a_mm)
+        return f"enlarge it to about {_num(side)} x {_num(side)} mm to bring {p.id}'s predicted misses within the limit"
+    return ""
+
+
+def finding_rows(report: dict[str, Any]) -> list[dict[str, str]]:
+    rules = _rules(report)
+    profile = report["profiles"][0]["id"] if report.get("profiles") else ""
+    rows: list[dict[str, str]] = []
+    for s in report["screens"]:
+        screen = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
+        unit = s["device"]["unit"]
+        for t in s["targets"]:
+            miss = next((d["miss_probability"] for d in t["difficulty"] if d["profile"] == profile), None)
+            for f in t["findings"]:
+                w = f["waiver"]
+                rows.append({
+                    "screen": screen, "target": f"#{t['ordinal']}", "label": t["label"],
+                    "resource_id": t["resource_id"], "class": t["class"],
+                    "rule_set": f["rule"].split("/", 1)[0], "rule": f["rule"], "severity": f["severity"],
+                    "status": t["status"], "measured": _num(f["measured"], 2), "required": _num(f["required"], 2),
+                    "unit": f["unit"], "width": _num(t["size"]["width"], 2), "height": _num(t["size"]["height"], 2),
+                    "size_unit": unit,
+                    "width_mm": _num(t["size_mm"]["width"], 2) if t["size_mm"] else "",
+                    "height_mm": _num(t["size_mm"]["height"], 2) if t["size_mm"] else "",
+                    "miss_probability": "" if miss is None or (isinstance(miss, float) and math.isnan(miss)) else f"{miss:.2f}",
+                    "profile": profile if miss is not None else "",
+                    "waiver": "" if not w else f"{w['reason']} ({w['author']}{', until ' + w['expires'] if w['expires'] else ''})",
+                    "fix": "" if w else fix_hint(f, t, rules.get(f["rule"]), unit),
+                })
+    return rows
+
+
+def write_csv(report: dict[str, Any], width: int | None = None) -> str:
+    buf = io.StringIO()
+    out = csv.DictWriter(buf, fieldnames=list(COLUMNS), lineterminator="\n")
+    out.writeheader()
+    out.writerows(finding_rows(report))
+    return buf.getvalue()
+
+
+def _md_cell(text: str) -> str:
+    return text.replace("|", "\\|").replace("\n", " ")
+
+
+MD_COLUMNS = ("screen", "target", "label", "rule", "severity", "status", "measured", "required", "unit",
+              "width_mm", "height_mm", "miss_probability", "waiver", "fix")
+
+
+def write_markdown(report: dict[str, Any], width: int | None = None) -> str:
+    s = report["summary"]
+    lines = [
+        "# Touch target findings", "",
+        f"{s['screens']} screens, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
+        f"{s['unmeasurable']} unmeasurable, {s['exempt']} exempt, {s['unchecked']} not checked.", "",
+        "Measured by tapgauge. These figures support, and do not replace, an accessibility audit under the "
+        "law that applies and by a qualified person.", "",
+        "| " + " | ".join(MD_COLUMNS) + " |",
+        "|" + "|".join("---" for _ in MD_COLUMNS) + "|",
+    ]
+    for row in finding_rows(report):
+        lines.append("| " + " | ".join(_md_cell(row[c]) for c in MD_COLUMNS) + " |")
+    lines += ["", "## Sources", ""]
+    for rs in report["rulesets"]:
+        lines.append(f"- **{rs['id']}**: {rs['title']}. {rs['source']}. <{rs['url']}>")
+    return "\n".join(lines) + "\n"

@@ -1,0 +1,47 @@
+"""CSV and Markdown findings tables: golden files for the demo and a stable column order."""
+
+from __future__ import annotations
+
+import csv
+import io
+import os
+from pathlib import Path
+
+import pytest
+
+from conftest import DATA, DEMO
+from tapgauge.cli import main
+from tapgauge.report.findings import COLUMNS
+
+
+@pytest.fixture
+def in_repo(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.chdir(DEMO.parent)
+
+
+def _golden(path: Path, text: str) -> None:
+    if os.environ.get("TAPGAUGE_UPDATE_GOLDEN"):
+        path.write_text(text)
+    assert text == path.read_text()
+
+
+def test_csv_golden_and_columns(in_repo: None, capsys: pytest.CaptureFixture[str]) -> None:
+    main(["check", "screens_demo", "-f", "csv"])
+    text = capsys.readouterr().out
+    _golden(DATA / "demo_findings.csv", text)
+    rows = list(csv.DictReader(io.StringIO(text)))
+    assert tuple(rows[0].keys()) == COLUMNS  # the documented order
+    overlap = next(r for r in rows if r["label"] == "14" and r["rule"] == "wcag22-aa/target-size")
+    assert "drawn over it" in overlap["fix"]
+    padding = next(r for r in rows if r["label"] == "Remove date" and r["rule"] == "wcag22-aa/target-size")
+    # 20 x 20 dp against 24 dp: 2 dp on every side (arithmetic), or the WCAG spacing circle.
+    assert padding["fix"].startswith("add 2 dp of touchable padding on every side")
+
+
+def test_markdown_golden(in_repo: None, capsys: pytest.CaptureFixture[str]) -> None:
+    main(["check", "screens_demo", "-f", "md"])
+    text = capsys.readouterr().out
+    _golden(DATA / "demo_findings.md", text)
+    assert "do not replace, an accessibility audit" in text
+    header = next(line for line in text.splitlines() if line.startswith("| screen"))
+    assert header.count("|") == 15
