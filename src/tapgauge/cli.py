@@ -8,7 +8,10 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import os
 import sys
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Annotated, Optional
 
@@ -20,7 +23,7 @@ from tapgauge import __version__
 from tapgauge.config import Config, load_config
 from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
-from tapgauge.pipeline import Settings, run_check
+from tapgauge.pipeline import Settings, default_jobs, run_check
 from tapgauge.profiles import DEFAULT_PROFILES, apply_params, parse_start, select_profiles
 from tapgauge.difficulty import WIDTH_MODELS
 from tapgauge.score import Scoring
@@ -92,23 +95,24 @@ def check(
     width_model: Annotated[str, typer.Option(help="Target width for Fitts's law: approach (default), smaller or horizontal.")] = "approach",
     difficulty: Annotated[bool, typer.Option("--difficulty", help="Add predicted time and miss probability to the table.")] = False,
     today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD); default: today.")] = None,
+    jobs: Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")] = None,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
     raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width,
-                            profiles, param or [], start, width_model, difficulty, today))
+                            profiles, param or [], start, width_model, difficulty, today, jobs))
 
 
 def _check(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
            classes: Path | None, marker: str | None, overlay: Path | None, fmt: str, output: Path | None,
            fail_level: str | None, width: int | None, profiles: str | None, params: list[str], start: str,
-           width_model: str, difficulty: bool, today: str | None) -> int:
+           width_model: str, difficulty: bool, today: str | None, jobs: int | None = None) -> int:
     try:
         writer = writer_for(fmt)
     except ValueError as exc:
         _err(str(exc))
         return EXIT_ERROR
     built = _run_report(paths, rules, density, scale, ppi, classes, marker, fail_level, profiles, params, start,
-                        width_model, today)
+                        width_model, today, jobs)
     if isinstance(built, int):
         return built
     report, _ = built
@@ -130,9 +134,12 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
 
 def _run_report(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
                 classes: Path | None, marker: str | None, fail_level: str | None, profiles: str | None,
-                params: list[str], start: str, width_model: str, today: str | None) -> tuple[dict, Config] | int:
+                params: list[str], start: str, width_model: str, today: str | None,
+                jobs: int | None = None) -> tuple[dict, Config] | int:
     """The whole pipeline from options to the report records; an exit code when options are bad."""
     try:
+        if jobs is not None and jobs < 1:
+            raise ValueError(f"--jobs {jobs}: expected 1 or more worker processes")
         config = load_config(Path.cwd())
         level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
         chosen = select_rulesets(rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS))
@@ -147,13 +154,32 @@ def _run_report(paths: list[Path], rules: str | None, density: str | None, scale
     except (InputError, ValueError) as exc:
         _err(str(exc))
         return EXIT_ERROR
-    result = run_check(paths, settings)
+    with _progress() as tick:
+        result = run_check(paths, settings, jobs or default_jobs(), tick)
     screens, outcomes = apply_waivers(list(result.screens), config.waivers, config.base, day)
     report = build_report(screens, list(result.errors), chosen, level, list(scoring.profiles), waiver_records(outcomes))
     for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
         where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
         _err(f"{where}: {e['message']}")
     return report, config
+
+
+@contextmanager
+def _progress() -> Iterator[Callable[[int, int], None] | None]:
+    """A progress bar on stderr when a person is watching; silent in CI and when piped."""
+    if not sys.stderr.isatty() or os.environ.get("CI"):
+        yield None
+        return
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
+
+    with Progress("checking", BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
+                  console=Console(stderr=True), transient=True) as bar:
+        task = bar.add_task("screens", total=None)
+
+        def tick(done: int, total: int) -> None:
+            bar.update(task, completed=done, total=total)
+
+        yield tick
 
 
 def _screen_ids(report: dict, roots: list[Path]) -> dict[str, str]:
@@ -185,11 +211,12 @@ def baseline_cmd(
     profiles: Annotated[Optional[str], typer.Option(help="Slope profiles, as for check.")] = None,
     start: Annotated[str, typer.Option("--from", help="Where reaches start, as for check.")] = "centre",
     today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD).")] = None,
+    jobs: Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")] = None,
 ) -> None:
     """Record each target's identity, size, status and predicted difficulty, for the release gate."""
     from tapgauge.gate import baseline_from_report, check_overwrite
 
-    built = _run_report(paths, rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today)
+    built = _run_report(paths, rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
     if isinstance(built, int):
         raise typer.Exit(built)
     report, config = built
@@ -229,6 +256,7 @@ def gate_cmd(
     profiles: Annotated[Optional[str], typer.Option(help="Slope profiles, as for check.")] = None,
     start: Annotated[str, typer.Option("--from", help="Where reaches start, as for check.")] = "centre",
     today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD).")] = None,
+    jobs: Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")] = None,
 ) -> None:
     """Fail (exit 1) only on what got worse since the baseline; report what got better."""
     from dataclasses import replace as _replace
@@ -245,7 +273,7 @@ def gate_cmd(
     except (InputError, ValueError) as exc:
         _err(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    built = _run_report(paths, rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today)
+    built = _run_report(paths, rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
     if isinstance(built, int):
         raise typer.Exit(built)
     report, config = built

@@ -25,6 +25,10 @@ class InputError(Exception):
         where = f"{self.path}:{line}" if line else self.path
         super().__init__(f"{where}: {message}")
 
+    def __reduce__(self) -> tuple[type, tuple[str, str, int | None]]:
+        # Rebuilt from its parts, so it survives the trip back from a worker process.
+        return (InputError, (self.path, self.message, self.line))
+
 
 class Severity(IntEnum):
     INFO = 1

@@ -1,0 +1,178 @@
+"""Hostile and broken input: every reader gives a clear error for that file, the batch goes on,
+nothing half-written is left, and inputs are never changed. Fuzzing is bounded for CI."""
+
+from __future__ import annotations
+
+import errno
+import hashlib
+import json
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from PIL import Image
+
+from conftest import DEMO
+from tapgauge.cli import main
+from tapgauge.model import InputError
+from tapgauge.pipeline import Settings, check_one
+from tapgauge.readers import read_screens
+from tapgauge.readers.xmlsafe import MAX_BYTES
+from tapgauge.rulesets import select_rulesets
+
+FUZZ = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+ANDROID = (DEMO / "android" / "plot_detail.xml").read_bytes()
+IOS = (DEMO / "ios" / "seed_tray.xml").read_bytes()
+SETTINGS = Settings(tuple(select_rulesets(["wcag22-aa", "android-guideline"])))
+
+
+def _outcome(path: Path) -> str:
+    """A file must give screens or an InputError; anything else is a crash."""
+    try:
+        read_screens(path)
+        return "ok"
+    except InputError:
+        return "error"
+
+
+def _mutate(data: bytes, cuts: list[tuple[int, bytes]]) -> bytes:
+    out = bytearray(data)
+    for pos, junk in cuts:
+        p = pos % (len(out) + 1)
+        out[p:p + len(junk)] = junk
+    return bytes(out)
+
+
+mutations = st.lists(st.tuples(st.integers(0, 10**6), st.binary(min_size=1, max_size=12)), min_size=1, max_size=6)
+
+
+@FUZZ
+@given(mutations)
+def test_fuzzed_android_dumps_never_crash(tmp_path: Path, cuts: list[tuple[int, bytes]]) -> None:
+    p = tmp_path / "f.xml"
+    p.write_bytes(_mutate(ANDROID, cuts))
+    (tmp_path / "device.txt").write_text("density: 440\n")
+    assert _outcome(p) in ("ok", "error")
+    results = check_one(p, SETTINGS)  # the whole pipeline, not just the reader
+    assert all(isinstance(r, InputError) or r.screen.path == p for r in results)
+
+
+@FUZZ
+@given(mutations)
+def test_fuzzed_ios_trees_never_crash(tmp_path: Path, cuts: list[tuple[int, bytes]]) -> None:
+    p = tmp_path / "t.xml"
+    p.write_bytes(_mutate(IOS, cuts))
+    assert _outcome(p) in ("ok", "error")
+
+
+@FUZZ
+@given(st.text(max_size=300), st.sampled_from(["boxes.csv", "boxes.json", "shot.txt", "shot.xml"]))
+def test_fuzzed_annotations_never_crash(tmp_path: Path, text: str, name: str) -> None:
+    Image.new("RGB", (50, 40)).save(tmp_path / "shot.png")
+    (tmp_path / "classes.txt").write_text("button\n")
+    p = tmp_path / name
+    p.write_text(text)
+    assert _outcome(p) in ("ok", "error")
+
+
+@FUZZ
+@given(st.lists(st.tuples(st.sampled_from(["image", "left", "top", "right", "bottom", "class"]),
+                          st.one_of(st.floats(allow_nan=True, allow_infinity=True).map(str),
+                                    st.sampled_from(["shot.png", "button", "", "-1", "1e308", "nan"]))),
+                max_size=8))
+def test_fuzzed_csv_rows_never_crash(tmp_path: Path, cells: list[tuple[str, str]]) -> None:
+    Image.new("RGB", (50, 40)).save(tmp_path / "shot.png")
+    row = {"image": "shot.png", "left": "1", "top": "1", "right": "5", "bottom": "5", "class": "button"}
+    row.update(dict(cells))
+    p = tmp_path / "boxes.csv"
+    p.write_text(",".join(row) + "\n" + ",".join(row.values()) + "\n")
+    assert _outcome(p) in ("ok", "error")
+
+
+@pytest.mark.parametrize(("body", "expect"), [
+    (b'<?xml version="1.0"?><!DOCTYPE h [<!ENTITY x SYSTEM "http://127.0.0.1:9/x">]><hierarchy>&x;</hierarchy>', "DOCTYPE"),
+    (b'<?xml version="1.0"?><!DOCTYPE h SYSTEM "file:///etc/passwd"><hierarchy/>', "DOCTYPE"),
+    (b"<hierarchy>" + b"<node bounds='[0,0][1,1]'>" * 5000 + b"</node>" * 5000 + b"</hierarchy>", "malformed XML"),
+    (b"<hierarchy><node text='\xff\xfe' bounds='[0,0][1,1]'/></hierarchy>", "malformed XML"),
+    (b"<hierarchy><node clickable='true' bounds='[0,0][99999999999999999999,1]'/></hierarchy>", "outside any plausible"),
+    (b"\x89PNG\r\n\x1a\n", "malformed XML"),
+])
+def test_hostile_xml_is_refused_with_a_clear_error(tmp_path: Path, body: bytes, expect: str) -> None:
+    p = tmp_path / "h.xml"
+    p.write_bytes(body)
+    with pytest.raises(InputError, match=expect):
+        read_screens(p)
+
+
+def test_huge_files_are_refused_before_reading(tmp_path: Path) -> None:
+    p = tmp_path / "huge.xml"
+    with open(p, "wb") as fh:  # sparse: costs no disk
+        fh.truncate(MAX_BYTES + 1)
+    with pytest.raises(InputError, match="limited to"):
+        read_screens(p)
+
+
+def test_unreadable_file_is_an_error_for_that_file(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+                                                  capsys: pytest.CaptureFixture[str]) -> None:
+    (tmp_path / "device.txt").write_text("density: 440\n")
+    (tmp_path / "good.xml").write_bytes(ANDROID)
+    (tmp_path / "locked.xml").write_bytes(ANDROID)
+    real = Path.read_bytes
+
+    def read_bytes(self: Path) -> bytes:  # root ignores file modes, so refuse the way the OS would
+        if self.name == "locked.xml":
+            raise PermissionError(errno.EACCES, "Permission denied", str(self))
+        return real(self)
+
+    monkeypatch.setattr(Path, "read_bytes", read_bytes)
+    assert main(["check", str(tmp_path), "-f", "json", "-j", "1"]) == 2
+    rep = json.loads(capsys.readouterr().out)
+    assert [s["path"].rsplit("/", 1)[-1] for s in rep["screens"]] == ["good.xml"]
+    assert "Permission denied" in rep["errors"][0]["message"]
+
+
+def test_a_full_disk_leaves_nothing_half_written(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+                                                 capsys: pytest.CaptureFixture[str]) -> None:
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "report.json").write_text("previous report")
+    import os as _os
+
+    def no_space(fd: int) -> None:
+        raise OSError(errno.ENOSPC, "No space left on device")
+
+    monkeypatch.setattr(_os, "fsync", no_space)
+    code = main(["check", str(DEMO / "android"), "-f", "json", "-o", str(out / "report.json")])
+    assert code == 2 and "No space left" in capsys.readouterr().err
+    assert [p.name for p in out.iterdir()] == ["report.json"]  # no temporary file left behind
+    assert (out / "report.json").read_text() == "previous report"  # the old report is intact
+
+
+def test_output_into_a_file_instead_of_a_folder_is_exit_2(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    (tmp_path / "afile").write_text("x")
+    assert main(["check", str(DEMO / "android"), "-o", str(tmp_path / "afile" / "r.json")]) == 2
+    assert main(["check", str(DEMO / "android"), "--overlay", str(tmp_path / "afile")]) == 2
+
+
+def _digest(folder: Path) -> dict[str, str]:
+    return {p.relative_to(folder).as_posix(): hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+def test_inputs_are_never_changed(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    before = _digest(DEMO)
+    for args in (["check", str(DEMO), "-f", "html", "-o", str(tmp_path / "r.html"), "--overlay", str(tmp_path / "o")],
+                 ["baseline", str(DEMO / "releases" / "v1"), "-o", str(tmp_path / "b.json")],
+                 ["gate", str(DEMO / "releases" / "v2"), "-b", str(tmp_path / "b.json")]):
+        main(args)
+    capsys.readouterr()
+    assert _digest(DEMO) == before
+
+
+def test_results_do_not_depend_on_the_number_of_workers(capsys: pytest.CaptureFixture[str]) -> None:
+    outs = []
+    for jobs in ("1", "2"):
+        main(["check", str(DEMO), "-f", "json", "-j", jobs])
+        outs.append(capsys.readouterr().out)
+    assert outs[0] == outs[1]
