@@ -176,3 +176,22 @@ def test_results_do_not_depend_on_the_number_of_workers(capsys: pytest.CaptureFi
         main(["check", str(DEMO), "-f", "json", "-j", jobs])
         outs.append(capsys.readouterr().out)
     assert outs[0] == outs[1]
+
+
+# Regression tests for crashes the fuzzers found.
+
+def test_regression_csv_row_with_an_empty_image_name(tmp_path: Path) -> None:
+    # Found by test_fuzzed_csv_rows_never_crash: Path.with_name("") raised ValueError.
+    p = tmp_path / "boxes.csv"
+    p.write_text("image,left,top,right,bottom,class\n,1,1,5,5,button\n")
+    with pytest.raises(InputError, match="is not beside the CSV"):
+        read_screens(p)
+
+
+def test_regression_coco_image_with_an_empty_file_name(tmp_path: Path) -> None:
+    # The same ValueError, reached through a COCO file with "file_name": "".
+    p = tmp_path / "boxes.json"
+    p.write_text(json.dumps({"images": [{"id": 1, "file_name": "", "width": 5, "height": 5}],
+                             "annotations": [], "categories": []}))
+    with pytest.raises(InputError, match="not beside the COCO file"):
+        read_screens(p)

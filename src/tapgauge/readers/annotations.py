@@ -136,8 +136,8 @@ def read_coco(path: Path, classes: ClassMap, hints_for: HintsFor) -> list[Screen
     screens: list[Screen] = []
     for image_id, info in sorted(images.items(), key=lambda kv: str(kv[1].get("file_name"))):
         filename = str(info.get("file_name", ""))
-        image = path.with_name(Path(filename).name)
-        if not filename or not image.is_file():
+        image = path.with_name(Path(filename).name) if Path(filename).name else path
+        if not Path(filename).name or not image.is_file():
             raise InputError(path, f"images id {image_id} names '{filename}', which is not beside the COCO file")
         actual = image_size(image)
         try:
@@ -217,8 +217,8 @@ def read_csv(path: Path, classes: ClassMap, hints_for: HintsFor) -> list[Screen]
         per_image.setdefault(row.get("image", ""), []).append((l, t, r, b, cls, row.get("label") or cls, line))
     screens: list[Screen] = []
     for name, raws in sorted(per_image.items()):
-        image = path.with_name(Path(name).name)
-        if not name or not image.is_file():
+        image = path.with_name(Path(name).name) if Path(name).name else path
+        if not Path(name).name or not image.is_file():
             raise InputError(path, f"image '{name}' is not beside the CSV file", raws[0][6])
         screens.append(_screen(path, image, image_size(image), raws, classes, hints_for(image), name=image.name))
     return screens
