@@ -143,10 +143,7 @@ def _run_report(paths: list[Path], rules: str | None, density: str | None, scale
         config = load_config(Path.cwd())
         level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
         chosen = select_rulesets(rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS))
-        read = ReadOptions(
-            classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
-            marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
-        )
+        read = _read_options(config, classes, marker)
         scoring = make_scoring(profiles or _joined(config.profiles), params, start, width_model)
         settings = Settings(tuple(chosen), _common_device(density, scale, ppi), config.devices,
                             announce_skips=rules is not None, read=read, scoring=scoring)
@@ -282,12 +279,7 @@ def gate_cmd(
                                    "time_tolerance_ms": time_tolerance, "missing": missing}.items() if v is not None}
     worse, better, gone = gate(report, _screen_ids(report, paths), base, _replace(tol, **overrides))
     record = gate_record(worse, better, gone, baseline.as_posix(), len(report["errors"]))
-    if fmt == "json":
-        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
-    else:
-        text = write_gate_table(record, width=Console().width if output is None else 80,
-                                color=output is None and sys.stdout.isatty())
-    raise typer.Exit(_emit(text, output) or record["summary"]["exit_code"])
+    raise typer.Exit(_emit_record(record, fmt, output, write_gate_table) or record["summary"]["exit_code"])
 
 
 def _common_device(density: str | None, scale: str | None, ppi: str | None) -> DeviceHints:
@@ -298,6 +290,24 @@ def _common_device(density: str | None, scale: str | None, ppi: str | None) -> D
         ydpi=parse_ppi(ppi)[1] if ppi else None,
         source="command line",
     )
+
+
+def _read_options(config: Config, classes: Path | None = None, marker: str | None = None) -> ReadOptions:
+    """Reader options from flags, else the config, else the built-in defaults."""
+    return ReadOptions(
+        classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
+        marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
+    )
+
+
+def _emit_record(record: dict, fmt: str, output: Path | None, table: Callable[..., str]) -> int:
+    """A command's record as JSON or through its table writer, to stdout or a file."""
+    if fmt == "json":
+        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
+    else:
+        text = table(record, width=Console().width if output is None else 80,
+                     color=output is None and sys.stdout.isatty())
+    return _emit(text, output)
 
 
 def _emit(text: str, output: Path | None) -> int:
@@ -333,19 +343,12 @@ def flow_cmd(
             raise ValueError(f"unknown format {fmt!r}; expected table or json")
         config = load_config(Path.cwd())
         scoring = make_scoring(profiles or _joined(config.profiles), param or [], "centre", width_model)
-        read = ReadOptions(classes=config.classes or default_class_map(),
-                           marker_hue=parse_marker(config.marker or DEFAULT_MARKER))
         record = run_flow(parse_flow(flow), list(scoring.profiles), _common_device(density, scale, ppi),
-                          config.devices, read, width_model)
+                          config.devices, _read_options(config), width_model)
     except (InputError, ValueError) as exc:
         _err(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    if fmt == "json":
-        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
-    else:
-        text = write_flow_table(record, width=Console().width if output is None else 80,
-                                color=output is None and sys.stdout.isatty())
-    raise typer.Exit(_emit(text, output))
+    raise typer.Exit(_emit_record(record, fmt, output, write_flow_table))
 
 
 @app.command("compare")
@@ -372,20 +375,14 @@ def compare_cmd(
         config = load_config(Path.cwd())
         settings = Settings(
             tuple(select_rulesets(list(config.rules or DEFAULT_RULESETS))), _common_device(density, scale, ppi),
-            config.devices, read=ReadOptions(classes=config.classes or default_class_map(),
-                                            marker_hue=parse_marker(config.marker or DEFAULT_MARKER)),
+            config.devices, read=_read_options(config),
             scoring=make_scoring(profiles or _joined(config.profiles), param or [], start, width_model),
         )
         record = compare(a, b, settings)
     except (InputError, ValueError) as exc:
         _err(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    if fmt == "json":
-        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
-    else:
-        text = write_compare_table(record, width=Console().width if output is None else 80,
-                                   color=output is None and sys.stdout.isatty())
-    raise typer.Exit(_emit(text, output))
+    raise typer.Exit(_emit_record(record, fmt, output, write_compare_table))
 
 
 @app.command("calibrate")
