@@ -51,8 +51,8 @@ def main() -> None:
     ap.add_argument("--repeat", type=int, default=5)
     a = ap.parse_args()
     rulesets = select_rulesets(list(DEFAULT_RULESETS))
-    print(f"| targets/screen | screens | lxml floor s | tapgauge s | screens/s | ratio to floor |")
-    print(f"|---:|---:|---:|---:|---:|---:|")
+    print("| targets/screen | screens | lxml floor s | tapgauge s | screens/s | ratio to floor |")
+    print("|---:|---:|---:|---:|---:|---:|")
     for n in a.targets:
         with tempfile.TemporaryDirectory() as tmp:
             folder = Path(tmp)

@@ -245,7 +245,6 @@ def booking_form(release: int = 0) -> AndroidScreen:
 
     In release 2 the confirm button shrinks from 56 to 40 dp tall.
     """
-    w = SCREEN_DP[0]
     confirm_top = 776 if release == 2 else 760
     return dump([
         toolbar("Book plot B7"),

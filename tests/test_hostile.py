@@ -18,7 +18,7 @@ from tapgauge.cli import main
 from tapgauge.model import InputError
 from tapgauge.pipeline import Settings, check_one
 from tapgauge.readers import read_screens
-from tapgauge.readers.xmlsafe import MAX_BYTES
+from tapgauge.textfile import MAX_BYTES
 from tapgauge.rulesets import select_rulesets
 
 FUZZ = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
@@ -195,3 +195,16 @@ def test_regression_coco_image_with_an_empty_file_name(tmp_path: Path) -> None:
                              "annotations": [], "categories": []}))
     with pytest.raises(InputError, match="not beside the COCO file"):
         read_screens(p)
+
+
+def test_huge_sidecars_and_bad_text_files_are_refused(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    # Every text input goes through one bounded reader: huge is refused unread, non-UTF-8 names the line.
+    (tmp_path / "s.xml").write_bytes(ANDROID)
+    with open(tmp_path / "device.txt", "wb") as fh:
+        fh.truncate(MAX_BYTES + 1)
+    with pytest.raises(InputError, match="device sidecar is .* bytes"):
+        read_screens(tmp_path / "s.xml")
+    flow = tmp_path / "t.flow"
+    flow.write_bytes(b"from centre\n\xff\xfe tap #1\n")
+    assert main(["flow", str(flow)]) == 2
+    assert "t.flow:2: flow file is not UTF-8" in capsys.readouterr().err

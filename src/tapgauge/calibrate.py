@@ -29,6 +29,7 @@ import numpy as np
 
 from tapgauge.model import InputError
 from tapgauge.profiles import Profile, builtin_profiles
+from tapgauge.textfile import read_text
 
 WE_FACTOR = math.sqrt(2 * math.pi * math.e)  # 4.133: We = 4.133 * SD (ISO 9241-9 effective width)
 SUMMARY = ("amplitude", "width", "time_ms")
@@ -54,10 +55,7 @@ class Fit:
 
 
 def _rows(path: Path) -> tuple[list[str], list[tuple[int, dict[str, str]]]]:
-    try:
-        text = path.read_text("utf-8-sig")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"cannot read trial log: {exc}") from None
+    text = read_text(path, "trial log", encoding="utf-8-sig")
     lines = [(n, ln) for n, ln in enumerate(text.splitlines(), start=1) if ln.strip() and not ln.lstrip().startswith("#")]
     if not lines:
         raise InputError(path, "no data: expected a CSV header and rows")

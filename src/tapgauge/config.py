@@ -19,6 +19,7 @@ from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
 from tapgauge.readers.classes import ClassMap, class_map_from
 from tapgauge.readers.marked import parse_marker
+from tapgauge.textfile import read_text
 
 CONFIG_NAME = "tapgauge.toml"
 TOP_KEYS = ("project", "rules", "fail_level", "profiles", "marker", "device", "devices", "classes", "waivers", "gate")
@@ -112,10 +113,7 @@ def find_config(start: Path) -> tuple[Path, dict[str, Any], str] | None:
 
 
 def _read(path: Path) -> str:
-    try:
-        return path.read_text("utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"cannot read config: {exc}") from None
+    return read_text(path, "config")
 
 
 def _loads(path: Path, text: str) -> dict[str, Any]:

@@ -32,6 +32,7 @@ from tapgauge.measure import to_unit
 from tapgauge.model import Device, DeviceHints, InputError, Screen, Target
 from tapgauge.profiles import Profile, parse_start, start_points
 from tapgauge.readers import ReadOptions, read_screens
+from tapgauge.textfile import read_text
 
 
 @dataclass(frozen=True)
@@ -64,10 +65,7 @@ def _strip_comment(line: str) -> str:
 
 
 def parse_flow(path: Path) -> Flow:
-    try:
-        text = path.read_text("utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"cannot read flow file: {exc}") from None
+    text = read_text(path, "flow file")
     start, xy = "centre", None
     screen: Path | None = None
     steps: list[Step] = []

@@ -18,6 +18,7 @@ from tapgauge import __version__
 from tapgauge.config import GateSettings
 from tapgauge.identity import fingerprint
 from tapgauge.model import InputError, Severity
+from tapgauge.textfile import read_text
 
 BASELINE_FORMAT = "tapgauge-baseline"
 BASELINE_VERSION = 1
@@ -64,12 +65,10 @@ def screen_ref(s: dict[str, Any]) -> str:
 
 def load_baseline(path: Path) -> dict[str, Any]:
     """A baseline file, checked; anything else (missing, corrupt, other version) is an error."""
+    if not path.exists():
+        raise InputError(path, "baseline not found; record one with `tapgauge baseline SCREENS -o FILE`")
     try:
-        data = json.loads(path.read_text("utf-8"))
-    except FileNotFoundError:
-        raise InputError(path, "baseline not found; record one with `tapgauge baseline SCREENS -o FILE`") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"cannot read baseline: {exc}") from None
+        data = json.loads(read_text(path, "baseline"))
     except json.JSONDecodeError as exc:
         raise InputError(path, f"baseline is not valid JSON ({exc.msg}); re-record it", exc.lineno) from None
     if not isinstance(data, dict) or data.get("format") != BASELINE_FORMAT:
@@ -95,8 +94,8 @@ def check_overwrite(path: Path, project: str) -> None:
     if not path.exists():
         return
     try:
-        old = json.loads(path.read_text("utf-8"))
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError):
+        old = json.loads(read_text(path, "baseline"))
+    except (InputError, json.JSONDecodeError):
         raise InputError(path, "exists and is not a tapgauge baseline; pass --force to replace it") from None
     if not isinstance(old, dict) or old.get("format") != BASELINE_FORMAT:
         raise InputError(path, "exists and is not a tapgauge baseline; pass --force to replace it")

@@ -12,9 +12,9 @@ import tomllib
 from dataclasses import dataclass, replace
 from functools import cache
 from importlib import resources
-from pathlib import Path
 from typing import Any
 
+from tapgauge.choose import choose
 from tapgauge.model import InputError
 
 NUMBERS = ("intercept_ms", "slope_ms_per_bit", "alpha", "sigma_a_mm")
@@ -95,26 +95,7 @@ def find_profile(item: str) -> Profile:
 
 
 def select_profiles(spec: list[str]) -> list[Profile]:
-    builtins = builtin_profiles()
-    chosen: list[Profile] = []
-    for item in (s.strip() for s in spec):
-        if not item:
-            continue
-        if item.endswith(".toml") or Path(item).is_file():
-            path = Path(item)
-            try:
-                chosen.append(parse_profile(path.read_text("utf-8"), str(path)))
-            except (OSError, UnicodeDecodeError) as exc:
-                raise InputError(path, f"cannot read profile: {exc}") from None
-        elif item in builtins:
-            chosen.append(builtins[item])
-        else:
-            raise InputError(item, f"no such profile; built-in ids are: {', '.join(builtins)}")
-    ids = [p.id for p in chosen]
-    dup = next((i for i in ids if ids.count(i) > 1), None)
-    if dup:
-        raise InputError(dup, "profile chosen twice")
-    return chosen
+    return choose(spec, builtin_profiles(), parse_profile, lambda p: p.id, "profile")
 
 
 def apply_params(profiles: list[Profile], params: list[str]) -> list[Profile]:

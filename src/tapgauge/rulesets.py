@@ -11,10 +11,10 @@ import re
 import tomllib
 from functools import cache
 from importlib import resources
-from pathlib import Path
 from typing import Any
 
 from tapgauge.checks import KINDS
+from tapgauge.choose import choose
 from tapgauge.model import InputError, Rule, RuleSet, Severity
 
 DEFAULT_RULESETS = ("wcag22-aa", "android-guideline", "apple-guideline")
@@ -147,33 +147,6 @@ def builtin_rulesets() -> dict[str, RuleSet]:
     return found
 
 
-def load_ruleset_file(path: Path) -> RuleSet:
-    try:
-        text = path.read_text("utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"cannot read rule file: {exc}") from None
-    return parse_ruleset(text, str(path))
-
-
 def select_rulesets(spec: list[str]) -> list[RuleSet]:
     """Rule sets from ids of built-in sets and/or paths to TOML files, in the order given."""
-    builtins = builtin_rulesets()
-    chosen: list[RuleSet] = []
-    for item in spec:
-        item = item.strip()
-        if not item:
-            continue
-        path = Path(item)
-        if item.endswith(".toml") or path.is_file():
-            if not path.is_file():
-                raise InputError(path, "rule file not found")
-            chosen.append(load_ruleset_file(path))
-        elif item in builtins:
-            chosen.append(builtins[item])
-        else:
-            raise InputError(item, f"no such rule set; built-in ids are: {', '.join(builtins)}")
-    ids = [rs.id for rs in chosen]
-    dup = next((i for i in ids if ids.count(i) > 1), None)
-    if dup:
-        raise InputError(dup, "rule set chosen twice")
-    return chosen
+    return choose(spec, builtin_rulesets(), parse_ruleset, lambda rs: rs.id, "rule set")

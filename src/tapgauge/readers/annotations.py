@@ -23,6 +23,7 @@ from lxml import etree
 from tapgauge.model import DeviceHints, InputError, Screen, Target
 from tapgauge.readers.classes import ClassMap
 from tapgauge.readers.images import IMAGE_SUFFIXES, image_size
+from tapgauge.textfile import read_text
 
 HintsFor = Callable[[Path], tuple[DeviceHints, ...]]  # the device hints (sidecar) for an image
 Raw = tuple[float, float, float, float, str, str, int | None]  # l, t, r, b, class, label, line
@@ -109,9 +110,7 @@ def _find_image(annotation: Path, filename: str) -> Path:
 
 def read_coco(path: Path, classes: ClassMap, hints_for: HintsFor) -> list[Screen]:
     try:
-        data = json.loads(path.read_text("utf-8"))
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"cannot read file: {exc}") from None
+        data = json.loads(read_text(path, "COCO file"))
     except json.JSONDecodeError as exc:
         raise InputError(path, f"not valid JSON: {exc.msg}", exc.lineno) from None
     if not isinstance(data, dict) or not all(isinstance(data.get(k), list) for k in ("images", "annotations", "categories")):
@@ -152,7 +151,7 @@ def read_coco(path: Path, classes: ClassMap, hints_for: HintsFor) -> list[Screen
 def coco_image_names(path: Path) -> set[str]:
     """Images a COCO file describes (best effort, for discovery; errors surface on reading)."""
     try:
-        data = json.loads(path.read_text("utf-8"))
+        data = json.loads(read_text(path))
         return {Path(str(i["file_name"])).name for i in data["images"]}
     except Exception:  # noqa: BLE001 - the real read reports what is wrong
         return set()
@@ -168,10 +167,10 @@ def read_yolo(path: Path, classes: ClassMap, hints_for: HintsFor) -> Screen:
     names_file = path.with_name("classes.txt")
     if not names_file.is_file():
         raise InputError(path, "YOLO labels need the class names: a 'classes.txt' beside them, one name per line")
-    names = [n.strip() for n in names_file.read_text("utf-8", errors="replace").splitlines() if n.strip()]
+    names = [n.strip() for n in read_text(names_file, "class list", errors="replace").splitlines() if n.strip()]
     w, h = image_size(image)
     raws: list[Raw] = []
-    for n, line in enumerate(path.read_text("utf-8", errors="replace").splitlines(), start=1):
+    for n, line in enumerate(read_text(path, "YOLO labels", errors="replace").splitlines(), start=1):
         if not line.strip() or line.lstrip().startswith("#"):
             continue
         parts = line.split()
@@ -194,10 +193,7 @@ CSV_COLUMNS = ("image", "left", "top", "right", "bottom", "class")
 
 
 def _csv_rows(path: Path) -> tuple[list[str], list[tuple[int, dict[str, str]]]]:
-    try:
-        text = path.read_text("utf-8-sig")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"cannot read file: {exc}") from None
+    text = read_text(path, "CSV file", encoding="utf-8-sig")
     reader = csv.DictReader(io.StringIO(text))
     header = [h.strip() for h in (reader.fieldnames or [])]
     missing = [c for c in CSV_COLUMNS if c not in header]

@@ -9,6 +9,7 @@ from importlib import resources
 from pathlib import Path
 
 from tapgauge.model import InputError
+from tapgauge.textfile import read_text
 
 
 def normalise(name: str) -> str:
@@ -58,9 +59,7 @@ def default_class_map() -> ClassMap:
 
 def load_class_map(path: Path) -> ClassMap:
     try:
-        table = tomllib.loads(path.read_text("utf-8"))
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(path, f"cannot read classes file: {exc}") from None
+        table = tomllib.loads(read_text(path, "classes file"))
     except tomllib.TOMLDecodeError as exc:
         raise InputError(path, f"not valid TOML: {exc}") from None
     return class_map_from(table, str(path))

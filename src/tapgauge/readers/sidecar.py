@@ -11,6 +11,7 @@ from pathlib import Path
 
 from tapgauge.device import parse_device_text
 from tapgauge.model import DeviceHints, InputError
+from tapgauge.textfile import read_text
 
 FOLDER_SIDECAR = "device.txt"
 SIDECAR_SUFFIX = ".device.txt"
@@ -25,10 +26,7 @@ def sidecar_for(screen_path: Path) -> Path | None:
 
 
 def read_sidecar(path: Path) -> DeviceHints:
-    try:
-        text = path.read_text("utf-8", errors="replace")
-    except OSError as exc:
-        raise InputError(path, f"cannot read device sidecar: {exc.strerror or exc}") from None
+    text = read_text(path, "device sidecar", errors="replace")
     try:
         hints = parse_device_text(text, source=f"sidecar {path.name}")
     except ValueError as exc:

@@ -12,21 +12,15 @@ from pathlib import Path
 from lxml import etree
 
 from tapgauge.model import InputError
+from tapgauge.textfile import read_bytes
 
-MAX_BYTES = 64 * 1024 * 1024  # far above any real dump; guards memory
 _DOCTYPE = re.compile(rb"<!DOCTYPE|<!ENTITY", re.IGNORECASE)
 
 
 def parse_xml(path: Path, data: bytes | None = None) -> etree._Element:
     """Parse a file into its root element or raise InputError naming file and line."""
     if data is None:
-        try:
-            size = path.stat().st_size
-            if size > MAX_BYTES:
-                raise InputError(path, f"file is {size} bytes; XML inputs are limited to {MAX_BYTES}")
-            data = path.read_bytes()
-        except OSError as exc:
-            raise InputError(path, f"cannot read file: {exc.strerror or exc}") from None
+        data = read_bytes(path)
     if not data.strip():
         raise InputError(path, "file is empty; expected an XML document")
     m = _DOCTYPE.search(data[:65536]) or _DOCTYPE.search(data)

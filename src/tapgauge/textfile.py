@@ -1,0 +1,34 @@
+"""Reading an input file whole, bounded: one place for the size limit and the read errors.
+
+Every reader, rule, profile, config, flow and trial file goes through here, so a huge
+file is refused before it is read and a read failure is an InputError naming the file.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from tapgauge.model import InputError
+
+MAX_BYTES = 64 * 1024 * 1024  # far above any real screen, annotation or config file; guards memory
+
+
+def read_bytes(path: Path, what: str = "file") -> bytes:
+    try:
+        size = path.stat().st_size
+        if size > MAX_BYTES:
+            raise InputError(path, f"{what} is {size} bytes; inputs are limited to {MAX_BYTES}")
+        return path.read_bytes()
+    except FileNotFoundError:
+        raise InputError(path, f"{what} not found") from None
+    except OSError as exc:
+        raise InputError(path, f"cannot read {what}: {exc.strerror or exc}") from None
+
+
+def read_text(path: Path, what: str = "file", encoding: str = "utf-8", errors: str = "strict") -> str:
+    data = read_bytes(path, what)
+    try:
+        return data.decode(encoding, errors)
+    except UnicodeDecodeError as exc:
+        line = data.count(b"\n", 0, exc.start) + 1
+        raise InputError(path, f"{what} is not UTF-8 text (byte {exc.start})", line) from None
