@@ -208,3 +208,14 @@ def test_huge_sidecars_and_bad_text_files_are_refused(tmp_path: Path, capsys: py
     flow.write_bytes(b"from centre\n\xff\xfe tap #1\n")
     assert main(["flow", str(flow)]) == 2
     assert "t.flow:2: flow file is not UTF-8" in capsys.readouterr().err
+
+
+def test_regression_csv_with_a_bare_carriage_return(tmp_path: Path) -> None:
+    # Found by test_fuzzed_annotations_never_crash: a lone '\r' in a CSV raised csv.Error.
+    Image.new("RGB", (50, 40)).save(tmp_path / "shot.png")
+    p = tmp_path / "boxes.csv"
+    p.write_bytes(b'image,left,top,right,bottom,class\r"shot.png",1,1,5,5,button\r')  # old Mac line ends
+    assert [t.bounds for t in read_screens(p)[0].targets] == [(1.0, 1.0, 5.0, 5.0)]
+    p.write_bytes(b"\r0")
+    with pytest.raises(InputError):
+        read_screens(p)

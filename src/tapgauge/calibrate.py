@@ -60,7 +60,10 @@ def _rows(path: Path) -> tuple[list[str], list[tuple[int, dict[str, str]]]]:
     if not lines:
         raise InputError(path, "no data: expected a CSV header and rows")
     reader = csv.reader(io.StringIO("\n".join(ln for _, ln in lines)))
-    table = list(reader)
+    try:
+        table = list(reader)
+    except csv.Error as exc:
+        raise InputError(path, f"not readable as CSV: {exc}") from None
     header = [h.strip().lower() for h in table[0]]
     rows = []
     for (n, _), cells in zip(lines[1:], table[1:]):

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from tapgauge.device import MM_PER_INCH
-from tapgauge.geometry import EPS, intersection_areas, largest_free_square, nearest_gaps, one_cover_squares, sizes, spacing_conflicts
+from tapgauge.geometry import EPS, intersection_areas, nearest_gaps, sizes, spacing_conflicts
 from tapgauge.measure import MeasuredScreen
 from tapgauge.difficulty import hit_probability
 from tapgauge.model import Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult
@@ -48,30 +48,16 @@ def display_unit(m: MeasuredScreen, rule: Rule) -> str:
     return m.device.unit if rule.unit in PLATFORM_UNITS else rule.unit
 
 
-def _boxes(m: MeasuredScreen, rule: Rule) -> np.ndarray:
-    return m.boxes("mm" if rule.unit == "mm" else "platform")
-
-
-def free_squares(m: MeasuredScreen, boxes: np.ndarray) -> np.ndarray:
-    """Per checked target, the side of the largest square left once targets on top are removed."""
-    w, h = sizes(boxes)
-    side = np.minimum(w, h)
-    single = [(pos, over[0]) for pos, over in enumerate(m.covers) if len(over) == 1]
-    if single:
-        pos, over = np.array(single).T
-        side[pos] = one_cover_squares(boxes[pos], boxes[over])
-    for pos, over in enumerate(m.covers):
-        if len(over) > 1:
-            side[pos] = largest_free_square(boxes[pos], boxes[list(over)])[0]
-    return side
+def _unit(rule: Rule) -> str:
+    return "mm" if rule.unit == "mm" else "platform"
 
 
 def check_min_size(m: MeasuredScreen, rule: Rule) -> KindResult:
     size = float(rule.param("size"))
     spacing = bool(dict(rule.params).get("spacing_exception", False))
     unit = display_unit(m, rule)
-    boxes = _boxes(m, rule)
-    side = free_squares(m, boxes)
+    boxes = m.boxes(_unit(rule))
+    side = m.free_squares(_unit(rule))
     under = side < size - EPS
     conflicts = spacing_conflicts(boxes, under, size) if spacing else np.full(len(side), -1)
     findings: list[tuple[int, Finding]] = []
@@ -95,12 +81,12 @@ def check_min_size(m: MeasuredScreen, rule: Rule) -> KindResult:
 def check_min_gap(m: MeasuredScreen, rule: Rule) -> KindResult:
     gap = float(rule.param("gap"))
     unit = display_unit(m, rule)
-    boxes = _boxes(m, rule)
+    boxes = m.boxes(_unit(rule))
     nearest, who = nearest_gaps(boxes, gap)
     failing = nearest < gap - EPS
     exempt_at = dict(rule.params).get("exempt_at_size")
     if exempt_at is not None:
-        failing &= free_squares(m, boxes) < float(exempt_at) - EPS
+        failing &= m.free_squares(_unit(rule)) < float(exempt_at) - EPS
     findings: list[tuple[int, Finding]] = []
     for pos in np.flatnonzero(failing).tolist():
         d, other = float(nearest[pos]), int(who[pos])

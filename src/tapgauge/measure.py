@@ -7,12 +7,20 @@ dropped. Overlap and clipping are found here once, for every rule to use.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from tapgauge.device import MM_PER_INCH
-from tapgauge.geometry import FloatArray, as_boxes, covering_pairs, scale_boxes
+from tapgauge.geometry import (
+    FloatArray,
+    as_boxes,
+    covering_pairs,
+    largest_free_square,
+    one_cover_squares,
+    scale_boxes,
+    sizes,
+)
 from tapgauge.model import Device, Screen, Target
 
 
@@ -25,10 +33,32 @@ class MeasuredScreen:
     boxes_px: FloatArray  # boxes of the checked targets, in screen coordinates
     covers: tuple[tuple[int, ...], ...]  # per checked target: positions in `checked` drawn over it
     clipped_by: tuple[str, ...]  # per checked target: "" or a description of the clipping container
+    # Derived arrays, computed once per unit: several rules ask for the same ones.
+    _derived: dict[tuple[str, str], FloatArray] = field(default_factory=dict, repr=False)
 
     def boxes(self, unit: str) -> FloatArray:
         """The checked boxes in the platform unit, or in millimetres with unit="mm"."""
-        return to_unit(self.boxes_px, self.device, unit)
+        key = ("boxes", unit)
+        if key not in self._derived:
+            self._derived[key] = to_unit(self.boxes_px, self.device, unit)
+        return self._derived[key]
+
+    def free_squares(self, unit: str) -> FloatArray:
+        """Per checked target, the side of the largest square left once targets drawn over it are removed."""
+        key = ("free", unit)
+        if key not in self._derived:
+            boxes = self.boxes(unit)
+            w, h = sizes(boxes)
+            side = np.minimum(w, h)
+            single = [(pos, over[0]) for pos, over in enumerate(self.covers) if len(over) == 1]
+            if single:
+                pos, over = np.array(single).T
+                side[pos] = one_cover_squares(boxes[pos], boxes[over])
+            for pos, over in enumerate(self.covers):
+                if len(over) > 1:
+                    side[pos] = largest_free_square(boxes[pos], boxes[list(over)])[0]
+            self._derived[key] = side
+        return self._derived[key]
 
     def target(self, position: int) -> Target:
         return self.screen.targets[self.checked[position]]

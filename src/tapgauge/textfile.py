@@ -28,7 +28,8 @@ def read_bytes(path: Path, what: str = "file") -> bytes:
 def read_text(path: Path, what: str = "file", encoding: str = "utf-8", errors: str = "strict") -> str:
     data = read_bytes(path, what)
     try:
-        return data.decode(encoding, errors)
+        # Universal newlines, as text-mode open() gives: '\r\n' and a lone '\r' end a line.
+        return data.decode(encoding, errors).replace("\r\n", "\n").replace("\r", "\n")
     except UnicodeDecodeError as exc:
         line = data.count(b"\n", 0, exc.start) + 1
         raise InputError(path, f"{what} is not UTF-8 text (byte {exc.start})", line) from None

@@ -195,12 +195,18 @@ CSV_COLUMNS = ("image", "left", "top", "right", "bottom", "class")
 def _csv_rows(path: Path) -> tuple[list[str], list[tuple[int, dict[str, str]]]]:
     text = read_text(path, "CSV file", encoding="utf-8-sig")
     reader = csv.DictReader(io.StringIO(text))
-    header = [h.strip() for h in (reader.fieldnames or [])]
+    try:
+        header = [h.strip() for h in (reader.fieldnames or [])]
+    except csv.Error as exc:
+        raise InputError(path, f"not a readable CSV header: {exc}", 1) from None
     missing = [c for c in CSV_COLUMNS if c not in header]
     if missing:
         raise InputError(path, f"CSV header lacks {', '.join(missing)}; expected columns "
                                f"{','.join(CSV_COLUMNS)} and optionally label", 1)
-    rows = [(reader.line_num, {k.strip(): (v or "").strip() for k, v in row.items() if k}) for row in reader]
+    try:
+        rows = [(reader.line_num, {k.strip(): (v or "").strip() for k, v in row.items() if k}) for row in reader]
+    except csv.Error as exc:
+        raise InputError(path, f"not readable as CSV: {exc}", reader.line_num) from None
     return header, rows
 
 
