@@ -45,6 +45,26 @@ app = typer.Typer(
 )
 
 
+# Options several commands share, declared once.
+RulesOpt = Annotated[Optional[str], typer.Option(
+    "--rules", "-r", help="Comma-separated rule-set ids and/or paths to TOML rule files. "
+    f"Default: {','.join(DEFAULT_RULESETS)} (each applies to its own platform).")]
+DensityOpt = Annotated[Optional[str], typer.Option(
+    help="Screen density in dpi, or a bucket name (mdpi, hdpi, xhdpi, xxhdpi, xxxhdpi), if no sidecar gives it.")]
+ScaleOpt = Annotated[Optional[str], typer.Option(
+    help="iOS pixels per point (1, 2 or 3); needed for iOS screenshots, and for mm on iOS trees.")]
+PpiOpt = Annotated[Optional[str], typer.Option(
+    help="Physical pixels per inch, one number or X,Y for the natural x and y axes; enables mm and miss chances.")]
+ProfilesOpt = Annotated[Optional[str], typer.Option(
+    help="Comma-separated slope profiles (ids or TOML files). Default: typical-adult,older-adult,reduced-precision.")]
+ParamOpt = Annotated[Optional[list[str]], typer.Option(
+    help="Override one profile number: PROFILE.KEY=VALUE (KEY: intercept_ms, slope_ms_per_bit, alpha, sigma_a_mm).")]
+StartOpt = Annotated[str, typer.Option("--from", help="Where reaches start: centre, thumb-right, thumb-left, or X,Y in dp/pt.")]
+WidthModelOpt = Annotated[str, typer.Option(help="Target width for Fitts's law: approach (default), smaller or horizontal.")]
+TodayOpt = Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD); default: today.")]
+JobsOpt = Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")]
+
+
 def _err(message: str) -> None:
     Console(stderr=True, highlight=False, soft_wrap=True).print(f"tapgauge: {message}", markup=False)
 
@@ -66,15 +86,10 @@ def _root(
 @app.command()
 def check(
     paths: Annotated[list[Path], typer.Argument(help="Screen files or folders (searched recursively).")],
-    rules: Annotated[Optional[str], typer.Option(
-        "--rules", "-r", help="Comma-separated rule-set ids and/or paths to TOML rule files. "
-        f"Default: {','.join(DEFAULT_RULESETS)} (each applies to its own platform).")] = None,
-    density: Annotated[Optional[str], typer.Option(
-        help="Screen density in dpi, or a bucket name (mdpi, hdpi, xhdpi, xxhdpi, xxxhdpi).")] = None,
-    scale: Annotated[Optional[str], typer.Option(
-        help="iOS pixels per point (1, 2 or 3); needed for iOS screenshots, and for mm on iOS trees.")] = None,
-    ppi: Annotated[Optional[str], typer.Option(
-        help="Physical pixels per inch, one number or X,Y for the natural x and y axes; enables mm.")] = None,
+    rules: RulesOpt = None,
+    density: DensityOpt = None,
+    scale: ScaleOpt = None,
+    ppi: PpiOpt = None,
     classes: Annotated[Optional[Path], typer.Option(
         help="TOML file with 'target' and 'ignore' lists of annotation class names.")] = None,
     marker: Annotated[Optional[str], typer.Option(
@@ -86,16 +101,13 @@ def check(
     fail_level: Annotated[Optional[str], typer.Option(
         help="Lowest severity that fails the run: error, warning or info. Default: error.")] = None,
     width: Annotated[Optional[int], typer.Option(help="Table width in columns (default: the terminal's, or 80).")] = None,
-    profiles: Annotated[Optional[str], typer.Option(
-        help="Comma-separated slope profiles (ids or TOML files) for predicted time and misses. "
-        "Default: typical-adult,older-adult,reduced-precision.")] = None,
-    param: Annotated[Optional[list[str]], typer.Option(
-        help="Override one profile number: PROFILE.KEY=VALUE (KEY: intercept_ms, slope_ms_per_bit, alpha, sigma_a_mm).")] = None,
-    start: Annotated[str, typer.Option("--from", help="Where reaches start: centre, thumb-right, thumb-left, or X,Y in dp/pt.")] = "centre",
-    width_model: Annotated[str, typer.Option(help="Target width for Fitts's law: approach (default), smaller or horizontal.")] = "approach",
+    profiles: ProfilesOpt = None,
+    param: ParamOpt = None,
+    start: StartOpt = "centre",
+    width_model: WidthModelOpt = "approach",
     difficulty: Annotated[bool, typer.Option("--difficulty", help="Add predicted time and miss probability to the table.")] = False,
-    today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD); default: today.")] = None,
-    jobs: Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")] = None,
+    today: TodayOpt = None,
+    jobs: JobsOpt = None,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
     raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width,
@@ -201,14 +213,14 @@ def baseline_cmd(
     paths: Annotated[list[Path], typer.Argument(help="Screen files or folders, as for check.")],
     output: Annotated[Path, typer.Option("--output", "-o", help="Baseline file to write (JSON, atomically).")],
     force: Annotated[bool, typer.Option("--force", help="Replace a file that is not this project's baseline.")] = False,
-    rules: Annotated[Optional[str], typer.Option("--rules", "-r", help="Rule sets, as for check.")] = None,
-    density: Annotated[Optional[str], typer.Option(help="Screen density (Android).")] = None,
-    scale: Annotated[Optional[str], typer.Option(help="Pixels per point (iOS).")] = None,
-    ppi: Annotated[Optional[str], typer.Option(help="Physical pixels per inch.")] = None,
-    profiles: Annotated[Optional[str], typer.Option(help="Slope profiles, as for check.")] = None,
-    start: Annotated[str, typer.Option("--from", help="Where reaches start, as for check.")] = "centre",
-    today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD).")] = None,
-    jobs: Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")] = None,
+    rules: RulesOpt = None,
+    density: DensityOpt = None,
+    scale: ScaleOpt = None,
+    ppi: PpiOpt = None,
+    profiles: ProfilesOpt = None,
+    start: StartOpt = "centre",
+    today: TodayOpt = None,
+    jobs: JobsOpt = None,
 ) -> None:
     """Record each target's identity, size, status and predicted difficulty, for the release gate."""
     from tapgauge.gate import baseline_from_report, check_overwrite
@@ -246,14 +258,14 @@ def gate_cmd(
     miss_tolerance: Annotated[Optional[float], typer.Option(help="Rise in predicted miss probability allowed (default 0.02).")] = None,
     time_tolerance: Annotated[Optional[float], typer.Option(help="Rise in predicted time allowed, ms (default 25).")] = None,
     missing: Annotated[Optional[str], typer.Option(help="A screen or target that disappeared: report (default) or fail.")] = None,
-    rules: Annotated[Optional[str], typer.Option("--rules", "-r", help="Rule sets, as for check.")] = None,
-    density: Annotated[Optional[str], typer.Option(help="Screen density (Android).")] = None,
-    scale: Annotated[Optional[str], typer.Option(help="Pixels per point (iOS).")] = None,
-    ppi: Annotated[Optional[str], typer.Option(help="Physical pixels per inch.")] = None,
-    profiles: Annotated[Optional[str], typer.Option(help="Slope profiles, as for check.")] = None,
-    start: Annotated[str, typer.Option("--from", help="Where reaches start, as for check.")] = "centre",
-    today: Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD).")] = None,
-    jobs: Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")] = None,
+    rules: RulesOpt = None,
+    density: DensityOpt = None,
+    scale: ScaleOpt = None,
+    ppi: PpiOpt = None,
+    profiles: ProfilesOpt = None,
+    start: StartOpt = "centre",
+    today: TodayOpt = None,
+    jobs: JobsOpt = None,
 ) -> None:
     """Fail (exit 1) only on what got worse since the baseline; report what got better."""
     from dataclasses import replace as _replace
@@ -325,12 +337,12 @@ def _emit(text: str, output: Path | None) -> int:
 @app.command("flow")
 def flow_cmd(
     flow: Annotated[Path, typer.Argument(help="A flow file: 'from', 'screen' and 'tap' lines (see README).")],
-    profiles: Annotated[Optional[str], typer.Option(help="Comma-separated slope profiles (ids or TOML files).")] = None,
-    param: Annotated[Optional[list[str]], typer.Option(help="Override one profile number: PROFILE.KEY=VALUE.")] = None,
-    density: Annotated[Optional[str], typer.Option(help="Screen density (Android), if no sidecar gives it.")] = None,
-    scale: Annotated[Optional[str], typer.Option(help="Pixels per point (iOS).")] = None,
-    ppi: Annotated[Optional[str], typer.Option(help="Physical pixels per inch; needed for hit chances.")] = None,
-    width_model: Annotated[str, typer.Option(help="approach (default), smaller or horizontal.")] = "approach",
+    profiles: ProfilesOpt = None,
+    param: ParamOpt = None,
+    density: DensityOpt = None,
+    scale: ScaleOpt = None,
+    ppi: PpiOpt = None,
+    width_model: WidthModelOpt = "approach",
     fmt: Annotated[str, typer.Option("--format", "-f", help="table or json.")] = "table",
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")] = None,
 ) -> None:
@@ -355,13 +367,13 @@ def flow_cmd(
 def compare_cmd(
     a: Annotated[Path, typer.Argument(help="Alternative A: a screen file or a folder of screens.")],
     b: Annotated[Path, typer.Argument(help="Alternative B: the same screens, redesigned.")],
-    profiles: Annotated[Optional[str], typer.Option(help="Comma-separated slope profiles (ids or TOML files).")] = None,
-    param: Annotated[Optional[list[str]], typer.Option(help="Override one profile number: PROFILE.KEY=VALUE.")] = None,
-    start: Annotated[str, typer.Option("--from", help="Where reaches start: centre, thumb-right, thumb-left, or X,Y.")] = "centre",
-    width_model: Annotated[str, typer.Option(help="approach (default), smaller or horizontal.")] = "approach",
-    density: Annotated[Optional[str], typer.Option(help="Screen density (Android), if no sidecar gives it.")] = None,
-    scale: Annotated[Optional[str], typer.Option(help="Pixels per point (iOS).")] = None,
-    ppi: Annotated[Optional[str], typer.Option(help="Physical pixels per inch; needed for miss probabilities.")] = None,
+    profiles: ProfilesOpt = None,
+    param: ParamOpt = None,
+    start: StartOpt = "centre",
+    width_model: WidthModelOpt = "approach",
+    density: DensityOpt = None,
+    scale: ScaleOpt = None,
+    ppi: PpiOpt = None,
     fmt: Annotated[str, typer.Option("--format", "-f", help="table or json.")] = "table",
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")] = None,
 ) -> None:
