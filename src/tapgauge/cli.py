@@ -12,8 +12,9 @@ import os
 import sys
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
+from dataclasses import dataclass
 from pathlib import Path
-from typing import Annotated, Optional
+from typing import Annotated, Optional, TextIO
 
 import typer
 from rich.console import Console
@@ -23,17 +24,18 @@ from tapgauge import __version__
 from tapgauge.config import Config, load_config
 from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
-from tapgauge.pipeline import Settings, default_jobs, run_check
+from tapgauge.jsontext import dumps
+from tapgauge.pipeline import Settings, default_jobs, iter_results, record_one
 from tapgauge.profiles import DEFAULT_PROFILES, apply_params, parse_start, select_profiles
 from tapgauge.difficulty import WIDTH_MODELS
 from tapgauge.score import Scoring
-from tapgauge.waivers import apply_waivers, waiver_records
+from tapgauge.waivers import Waivers
 from tapgauge.readers import ReadOptions
 from tapgauge.readers.classes import default_class_map, load_class_map
 from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker
-from tapgauge.report import WRITERS, writer_for
-from tapgauge.report.output import write_atomic
-from tapgauge.report.records import EXIT_ERROR, build_report
+from tapgauge.report import TOTALS_FIRST, WRITERS, writer_for
+from tapgauge.report.output import atomic_text, write_atomic
+from tapgauge.report.records import EXIT_ERROR, Report
 from tapgauge.rulesets import DEFAULT_RULESETS, builtin_rulesets, select_rulesets
 
 app = typer.Typer(
@@ -123,32 +125,89 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
     except ValueError as exc:
         _err(str(exc))
         return EXIT_ERROR
-    built = _run_report(paths, rules, density, scale, ppi, classes, marker, fail_level, profiles, params, start,
-                        width_model, today, jobs)
-    if isinstance(built, int):
-        return built
-    report, _ = built
-    if overlay is not None:
-        from tapgauge.report.overlay import write_overlays  # Pillow drawing only when asked
+    run = _prepare(rules, density, scale, ppi, classes, marker, fail_level, profiles, params, start, width_model,
+                   today, jobs)
+    if isinstance(run, int):
+        return run
+    overlay_failed: list[str] = []
+    with _progress() as tick:
+        report = run.report(paths, tick)
+        if overlay is not None:
+            report.observe(_overlay_writer(report, overlay, overlay_failed))
+        if fmt == "table" and output is None:
+            code = _write(report, output, lambda r, out: writer(
+                r, out, width=width or Console().width, color=sys.stdout.isatty(), difficulty=difficulty))
+        else:
+            code = _write(report, output, lambda r, out: writer(r, out, width=width), fmt in TOTALS_FIRST)
+    if overlay_failed:
+        _err(f"{overlay}: cannot write overlay pictures: {overlay_failed[0]}")
+        return EXIT_ERROR
+    return code or report.exit_code
 
+
+def _overlay_writer(report: Report, folder: Path, failed: list[str]) -> Callable[[dict], None]:
+    """Draw each screen's overlay as it passes; after the first failure, say it once and stop drawing."""
+    from tapgauge.report.overlay import write_overlay  # Pillow drawing only when asked
+
+    def draw(screen: dict) -> None:
+        if failed:
+            return
         try:
-            write_overlays(report, overlay)
+            write_overlay(screen, report, folder)
         except OSError as exc:
-            _err(f"{overlay}: cannot write overlay pictures: {exc.strerror or exc}")
-            return EXIT_ERROR
-    if fmt == "table" and output is None:
-        console_width = width or Console().width
-        text = writer(report, width=console_width, color=sys.stdout.isatty(), difficulty=difficulty)
-    else:
-        text = writer(report, width=width)
-    return _emit(text, output) or int(report["summary"]["exit_code"])
+            failed.append(str(exc.strerror or exc))
+
+    return draw
 
 
-def _run_report(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
-                classes: Path | None, marker: str | None, fail_level: str | None, profiles: str | None,
-                params: list[str], start: str, width_model: str, today: str | None,
-                jobs: int | None = None) -> tuple[dict, Config] | int:
-    """The whole pipeline from options to the report records; an exit code when options are bad."""
+def _write(report: Report, output: Path | None, write: Callable[[Report, TextIO], None],
+           totals_first: bool = False) -> int:
+    """Write the report as it streams, to stdout or atomically to a file; 2 if the file cannot be written."""
+    def run(out: TextIO) -> None:
+        if totals_first:
+            with report.spooled() as spool:
+                write(spool, out)
+        else:
+            write(report, out)
+
+    if output is None:
+        run(sys.stdout)
+        return 0
+    try:
+        with atomic_text(output) as fh:
+            run(fh)
+    except OSError as exc:
+        _err(f"{output}: cannot write report: {exc.strerror or exc}")
+        return EXIT_ERROR
+    return 0
+
+
+@dataclass(frozen=True)
+class _Run:
+    """A checked-and-ready run: settings from options and config; `report()` starts it."""
+
+    settings: Settings
+    config: Config
+    level: Severity
+    jobs: int
+
+    def report(self, paths: list[Path], tick: Callable[[int, int], None] | None) -> Report:
+        items = iter_results(paths, self.settings, self.jobs, tick, work=record_one)
+        return Report(items, list(self.settings.rulesets), self.level, list(self.settings.scoring.profiles),
+                      self.settings.waivers, on_error=_print_error)
+
+
+def _print_error(e: dict) -> None:
+    """Input errors always go to stderr as they happen, whatever the format; reports carry them too."""
+    where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
+    _err(f"{where}: {e['message']}")
+
+
+def _prepare(rules: str | None, density: str | None, scale: str | None, ppi: str | None,
+             classes: Path | None, marker: str | None, fail_level: str | None, profiles: str | None,
+             params: list[str], start: str, width_model: str, today: str | None,
+             jobs: int | None = None) -> _Run | int:
+    """Options and config made into a run; an exit code (after saying why) when they are bad."""
     try:
         if jobs is not None and jobs < 1:
             raise ValueError(f"--jobs {jobs}: expected 1 or more worker processes")
@@ -157,20 +216,13 @@ def _run_report(paths: list[Path], rules: str | None, density: str | None, scale
         chosen = select_rulesets(rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS))
         read = _read_options(config, classes, marker)
         scoring = make_scoring(profiles or _joined(config.profiles), params, start, width_model)
+        waivers = Waivers(config.waivers, config.base, parse_day(today))
         settings = Settings(tuple(chosen), _common_device(density, scale, ppi), config.devices,
-                            announce_skips=rules is not None, read=read, scoring=scoring)
-        day = parse_day(today)
+                            announce_skips=rules is not None, read=read, scoring=scoring, waivers=waivers)
     except (InputError, ValueError) as exc:
         _err(str(exc))
         return EXIT_ERROR
-    with _progress() as tick:
-        result = run_check(paths, settings, jobs or default_jobs(), tick)
-    screens, outcomes = apply_waivers(list(result.screens), config.waivers, config.base, day)
-    report = build_report(screens, list(result.errors), chosen, level, list(scoring.profiles), waiver_records(outcomes))
-    for e in report["errors"]:  # always on stderr, whatever the format; reports carry them too
-        where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
-        _err(f"{where}: {e['message']}")
-    return report, config
+    return _Run(settings, config, level, jobs or default_jobs())
 
 
 @contextmanager
@@ -191,21 +243,24 @@ def _progress() -> Iterator[Callable[[int, int], None] | None]:
         yield tick
 
 
-def _screen_ids(report: dict, roots: list[Path]) -> dict[str, str]:
+def _screen_namer(roots: list[Path]) -> Callable[[dict], str]:
     """Stable screen ids for baselines: each screen's path relative to the folder it was found in."""
-    from tapgauge.gate import screen_ref
-
-    ids: dict[str, str] = {}
     resolved = [(r.resolve(), r.is_dir()) for r in roots]
-    for s in report["screens"]:
+
+    def screen_id(s: dict) -> str:
         p = Path(s["path"]).resolve()
         sid = p.name
         for root, is_dir in resolved:
             if is_dir and (root == p or root in p.parents):
                 sid = p.relative_to(root).as_posix()
                 break
-        ids[screen_ref(s)] = f"{sid}::{s['name']}" if s["name"] else sid
-    return ids
+        return f"{sid}::{s['name']}" if s["name"] else sid
+
+    return screen_id
+
+
+class _Discard(Exception):
+    """Raised inside an atomic write to leave no file behind."""
 
 
 @app.command("baseline")
@@ -223,29 +278,31 @@ def baseline_cmd(
     jobs: JobsOpt = None,
 ) -> None:
     """Record each target's identity, size, status and predicted difficulty, for the release gate."""
-    from tapgauge.gate import baseline_from_report, check_overwrite
+    from tapgauge.gate import check_overwrite, write_baseline
 
-    built = _run_report(paths, rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
-    if isinstance(built, int):
-        raise typer.Exit(built)
-    report, config = built
-    if report["errors"]:
-        _err("not writing a baseline while screens could not be read (see above)")
-        raise typer.Exit(EXIT_ERROR)
+    run = _prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
+    if isinstance(run, int):
+        raise typer.Exit(run)
+    config = run.config
     project = config.project or (config.base.name if config.path else Path.cwd().name)
     try:
         if not force:
             check_overwrite(output, project)
-        doc = baseline_from_report(report, _screen_ids(report, paths), project)
-        write_atomic(output, json.dumps(doc, indent=1, ensure_ascii=False) + "\n")
+        with _progress() as tick, atomic_text(output) as fh:
+            report = run.report(paths, tick)
+            screens, targets = write_baseline(fh, report, _screen_namer(paths), project)
+            if report.errors:
+                raise _Discard
+    except _Discard:
+        _err("not writing a baseline while screens could not be read (see above)")
+        raise typer.Exit(EXIT_ERROR) from None
     except InputError as exc:
         _err(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
     except OSError as exc:
         _err(f"{output}: cannot write baseline: {exc.strerror or exc}")
         raise typer.Exit(EXIT_ERROR) from None
-    n = sum(len(v["targets"]) for v in doc["screens"].values())
-    typer.echo(f"wrote {output}: {len(doc['screens'])} screens, {n} targets, project {project!r}")
+    typer.echo(f"wrote {output}: {screens} screens, {targets} targets, project {project!r}")
 
 
 @app.command("gate")
@@ -282,15 +339,19 @@ def gate_cmd(
     except (InputError, ValueError) as exc:
         _err(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    built = _run_report(paths, rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
-    if isinstance(built, int):
-        raise typer.Exit(built)
-    report, config = built
-    tol = config.gate
+    run = _prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
+    if isinstance(run, int):
+        raise typer.Exit(run)
     overrides = {k: v for k, v in {"size_tolerance": size_tolerance, "miss_tolerance": miss_tolerance,
                                    "time_tolerance_ms": time_tolerance, "missing": missing}.items() if v is not None}
-    worse, better, gone = gate(report, _screen_ids(report, paths), base, _replace(tol, **overrides))
-    record = gate_record(worse, better, gone, baseline.as_posix(), len(report["errors"]))
+    try:
+        with _progress() as tick:
+            report = run.report(paths, tick)
+            worse, better, gone = gate(report, _screen_namer(paths), base, _replace(run.config.gate, **overrides))
+    except InputError as exc:
+        _err(str(exc))
+        raise typer.Exit(EXIT_ERROR) from None
+    record = gate_record(worse, better, gone, baseline.as_posix(), len(report.errors))
     raise typer.Exit(_emit_record(record, fmt, output, write_gate_table) or record["summary"]["exit_code"])
 
 
@@ -315,7 +376,7 @@ def _read_options(config: Config, classes: Path | None = None, marker: str | Non
 def _emit_record(record: dict, fmt: str, output: Path | None, table: Callable[..., str]) -> int:
     """A command's record as JSON or through its table writer, to stdout or a file."""
     if fmt == "json":
-        text = json.dumps(record, indent=2, ensure_ascii=False) + "\n"
+        text = dumps(record) + "\n"
     else:
         text = table(record, width=Console().width if output is None else 80,
                      color=output is None and sys.stdout.isatty())

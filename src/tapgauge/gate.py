@@ -10,14 +10,17 @@ count: a third identical failure where the baseline had two is new.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, TextIO
 
 from tapgauge import __version__
 from tapgauge.config import GateSettings
 from tapgauge.identity import fingerprint
+from tapgauge.jsontext import write_streamed
 from tapgauge.model import InputError, Severity
+from tapgauge.report.records import Report
 from tapgauge.textfile import read_text
 
 BASELINE_FORMAT = "tapgauge-baseline"
@@ -30,33 +33,58 @@ def _failing(t: dict[str, Any], fail_level: Severity) -> list[str]:
     return sorted({f["rule"] for f in t["findings"] if not f["waiver"] and Severity.parse(f["severity"]) >= fail_level})
 
 
-def baseline_from_report(report: dict[str, Any], screen_ids: dict[str, str], project: str) -> dict[str, Any]:
-    """The baseline document for a report. `screen_ids` maps report paths (+ '::name') to stable ids."""
-    level = Severity.parse(report["fail_level"])
-    screens: dict[str, Any] = {}
-    for s in report["screens"]:
-        sid = screen_ids[screen_ref(s)]
-        unit = s["device"]["unit"]
-        targets = []
-        for t in s["targets"]:
-            if t["status"] == "unchecked":
-                continue
-            targets.append({
-                "key": t["key"], "fingerprint": fingerprint(sid, t["key"]), "name": t["name"], "status": t["status"],
-                "failing": _failing(t, level), "size": [t["size"]["width"], t["size"]["height"]], "unit": unit,
-                "size_mm": None if t["size_mm"] is None else [t["size_mm"]["width"], t["size_mm"]["height"]],
-                "difficulty": {d["profile"]: {"time_ms": d["time_ms"], "miss": d["miss_probability"]}
-                               for d in t["difficulty"]},
-            })
-        screens[sid] = {"targets": sorted(targets, key=lambda x: x["key"])}
-    return {
-        "format": BASELINE_FORMAT, "version": BASELINE_VERSION, "project": project,
-        "tool": {"name": "tapgauge", "version": __version__},
-        "fail_level": report["fail_level"],
-        "rulesets": [r["id"] for r in report["rulesets"]],
-        "profiles": [p["id"] for p in report["profiles"]],
-        "screens": dict(sorted(screens.items())),
-    }
+def baseline_entry(s: dict[str, Any], sid: str, level: Severity) -> dict[str, Any]:
+    """One screen's part of a baseline: its checked targets by identity, sorted by key."""
+    unit = s["device"]["unit"]
+    targets = []
+    for t in s["targets"]:
+        if t["status"] == "unchecked":
+            continue
+        targets.append({
+            "key": t["key"], "fingerprint": fingerprint(sid, t["key"]), "name": t["name"], "status": t["status"],
+            "failing": _failing(t, level), "size": [t["size"]["width"], t["size"]["height"]], "unit": unit,
+            "size_mm": None if t["size_mm"] is None else [t["size_mm"]["width"], t["size_mm"]["height"]],
+            "difficulty": {d["profile"]: {"time_ms": d["time_ms"], "miss": d["miss_probability"]}
+                           for d in t["difficulty"]},
+        })
+    return {"targets": sorted(targets, key=lambda x: x["key"])}
+
+
+def _entries(report: Report, screen_id: Callable[[dict[str, Any]], str]) -> Iterator[tuple[str, dict[str, Any]]]:
+    """(screen id, baseline entry) per screen as the report passes; a screen id seen twice is an error."""
+    level = Severity.parse(report.fail_level)
+    seen: set[str] = set()
+    for s in report.screens:
+        sid = screen_id(s)
+        if sid in seen:
+            raise InputError(Path(s["path"]), f"screen id {sid!r} is given twice (the same relative path under two "
+                                              "folders): check those folders in separate runs")
+        seen.add(sid)
+        yield sid, baseline_entry(s, sid, level)
+
+
+def write_baseline(out: TextIO, report: Report, screen_id: Callable[[dict[str, Any]], str], project: str) -> tuple[int, int]:
+    """Write the baseline document as the screens pass; returns (screens, targets) written."""
+    counts = [0, 0]
+
+    def entries() -> Iterator[tuple[str, dict[str, Any]]]:
+        for sid, entry in _entries(report, screen_id):
+            counts[0] += 1
+            counts[1] += len(entry["targets"])
+            yield sid, entry
+
+    def document(screens: Any, final: bool) -> dict[str, Any]:
+        return {
+            "format": BASELINE_FORMAT, "version": BASELINE_VERSION, "project": project,
+            "tool": {"name": "tapgauge", "version": __version__},
+            "fail_level": report.fail_level,
+            "rulesets": [r["id"] for r in report.rulesets],
+            "profiles": [p["id"] for p in report.profiles],
+            "screens": screens,
+        }
+
+    write_streamed(out, document, entries(), mapping=True)
+    return counts[0], counts[1]
 
 
 def screen_ref(s: dict[str, Any]) -> str:
@@ -114,66 +142,78 @@ class Change:
     fingerprint: str
 
 
-def gate(report: dict[str, Any], screen_ids: dict[str, str], baseline: dict[str, Any],
+def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], baseline: dict[str, Any],
          settings: GateSettings) -> tuple[list[Change], list[Change], list[Change]]:
-    """(regressions, improvements, gone) of a report against a baseline.
+    """(regressions, improvements, gone) of a report against a baseline, screen by screen as they pass.
 
     Screens and targets that disappeared are regressions when settings.missing is
-    "fail"; otherwise they are only reported.
+    "fail"; otherwise they are only reported. Each baseline screen is let go once
+    compared (the baseline's "screens" are consumed), so memory falls as the run goes on.
     """
-    current = baseline_from_report(report, screen_ids, baseline.get("project", ""))
+    remaining: dict[str, Any] = baseline["screens"]
     worse: list[Change] = []
     better: list[Change] = []
     gone: list[Change] = []
-    for sid in baseline["screens"]:
-        if sid not in current["screens"]:
-            gone.append(Change("gone-screen", sid, "", "", f"screen {sid} is in the baseline but was not checked",
-                               fingerprint(sid, "")))
-    for sid, new_screen in current["screens"].items():
-        old = {t["key"]: t for t in baseline["screens"].get(sid, {"targets": []})["targets"]}
-        new = {t["key"]: t for t in new_screen["targets"]}
-        for key, t in new.items():
-            fp = fingerprint(sid, key)
-            b = old.get(key)
-            fresh = sorted(set(t["failing"]) - set(b["failing"] if b else []))
-            if fresh:
-                how = "new target" if b is None else "now"
-                worse.append(Change("new-failure", sid, key, t["name"], f"{t['name']} ({how}) fails {', '.join(fresh)}", fp))
-            if b is None:
-                continue
-            fixed = sorted(set(b["failing"]) - set(t["failing"]))
-            if fixed:
-                better.append(Change("fixed", sid, key, t["name"], f"{t['name']} no longer fails {', '.join(fixed)}", fp))
-            unit = t["unit"]
-            (ow, oh), (nw, nh) = b["size"], t["size"]
-            if nw < ow - settings.size_tolerance or nh < oh - settings.size_tolerance:
-                worse.append(Change("shrank", sid, key, t["name"],
-                                    f"{t['name']} shrank from {ow:g} x {oh:g} to {nw:g} x {nh:g} {unit}", fp))
-            elif nw > ow + settings.size_tolerance or nh > oh + settings.size_tolerance:
-                better.append(Change("grew", sid, key, t["name"],
-                                     f"{t['name']} grew from {ow:g} x {oh:g} to {nw:g} x {nh:g} {unit}", fp))
-            for profile, d in t["difficulty"].items():
-                o = b["difficulty"].get(profile)
-                if o is None:
-                    continue
-                if d["miss"] is not None and o["miss"] is not None:
-                    if d["miss"] > o["miss"] + settings.miss_tolerance:
-                        worse.append(Change("harder", sid, key, t["name"], f"{t['name']}: predicted miss for {profile} "
-                                            f"rose from {o['miss']:.0%} to {d['miss']:.0%}", fp))
-                    elif d["miss"] < o["miss"] - settings.miss_tolerance:
-                        better.append(Change("easier", sid, key, t["name"], f"{t['name']}: predicted miss for {profile} "
-                                             f"fell from {o['miss']:.0%} to {d['miss']:.0%}", fp))
-                if d["time_ms"] > o["time_ms"] + settings.time_tolerance_ms:
-                    worse.append(Change("harder", sid, key, t["name"], f"{t['name']}: predicted time for {profile} "
-                                        f"rose from {o['time_ms']:.0f} to {d['time_ms']:.0f} ms", fp))
-        for key, b in old.items():
-            if key not in new:
-                change = Change("gone-target", sid, key, b.get("name", ""),
-                                f"{b.get('name') or key} is in the baseline but not on the screen now "
-                                "(removed, or its id, label or class changed)", fingerprint(sid, key))
-                gone.append(change)
+    for sid, entry in _entries(report, screen_id):
+        w, b, g = compare_screen(sid, entry, remaining.pop(sid, {"targets": []}), settings)
+        worse += w
+        better += b
+        gone += g
+    for sid in remaining:
+        gone.append(Change("gone-screen", sid, "", "", f"screen {sid} is in the baseline but was not checked",
+                           fingerprint(sid, "")))
     if settings.missing == "fail":
         return worse + gone, better, []
+    return worse, better, gone
+
+
+def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, Any],
+                   settings: GateSettings) -> tuple[list[Change], list[Change], list[Change]]:
+    """One screen's regressions, improvements and vanished targets against its baseline entry."""
+    worse: list[Change] = []
+    better: list[Change] = []
+    gone: list[Change] = []
+    old = {t["key"]: t for t in old_screen["targets"]}
+    new = {t["key"]: t for t in new_screen["targets"]}
+    for key, t in new.items():
+        fp = fingerprint(sid, key)
+        b = old.get(key)
+        fresh = sorted(set(t["failing"]) - set(b["failing"] if b else []))
+        if fresh:
+            how = "new target" if b is None else "now"
+            worse.append(Change("new-failure", sid, key, t["name"], f"{t['name']} ({how}) fails {', '.join(fresh)}", fp))
+        if b is None:
+            continue
+        fixed = sorted(set(b["failing"]) - set(t["failing"]))
+        if fixed:
+            better.append(Change("fixed", sid, key, t["name"], f"{t['name']} no longer fails {', '.join(fixed)}", fp))
+        unit = t["unit"]
+        (ow, oh), (nw, nh) = b["size"], t["size"]
+        if nw < ow - settings.size_tolerance or nh < oh - settings.size_tolerance:
+            worse.append(Change("shrank", sid, key, t["name"],
+                                f"{t['name']} shrank from {ow:g} x {oh:g} to {nw:g} x {nh:g} {unit}", fp))
+        elif nw > ow + settings.size_tolerance or nh > oh + settings.size_tolerance:
+            better.append(Change("grew", sid, key, t["name"],
+                                 f"{t['name']} grew from {ow:g} x {oh:g} to {nw:g} x {nh:g} {unit}", fp))
+        for profile, d in t["difficulty"].items():
+            o = b["difficulty"].get(profile)
+            if o is None:
+                continue
+            if d["miss"] is not None and o["miss"] is not None:
+                if d["miss"] > o["miss"] + settings.miss_tolerance:
+                    worse.append(Change("harder", sid, key, t["name"], f"{t['name']}: predicted miss for {profile} "
+                                        f"rose from {o['miss']:.0%} to {d['miss']:.0%}", fp))
+                elif d["miss"] < o["miss"] - settings.miss_tolerance:
+                    better.append(Change("easier", sid, key, t["name"], f"{t['name']}: predicted miss for {profile} "
+                                         f"fell from {o['miss']:.0%} to {d['miss']:.0%}", fp))
+            if d["time_ms"] > o["time_ms"] + settings.time_tolerance_ms:
+                worse.append(Change("harder", sid, key, t["name"], f"{t['name']}: predicted time for {profile} "
+                                    f"rose from {o['time_ms']:.0f} to {d['time_ms']:.0f} ms", fp))
+    for key, b in old.items():
+        if key not in new:
+            gone.append(Change("gone-target", sid, key, b.get("name", ""),
+                               f"{b.get('name') or key} is in the baseline but not on the screen now "
+                               "(removed, or its id, label or class changed)", fingerprint(sid, key)))
     return worse, better, gone
 
 

@@ -7,11 +7,12 @@ CSV and Markdown writers share these rows; the column order is part of the contr
 from __future__ import annotations
 
 import csv
-import io
 import math
-from typing import Any
+from collections.abc import Iterator
+from typing import Any, TextIO
 
 from tapgauge.difficulty import hit_probability
+from tapgauge.report.records import Report
 
 COLUMNS = (
     "screen", "target", "label", "resource_id", "class", "rule_set", "rule", "severity", "status",
@@ -24,8 +25,12 @@ def _num(v: float | None, digits: int = 1) -> str:
     return "" if v is None else f"{v:.{digits}f}".rstrip("0").rstrip(".")
 
 
-def _rules(report: dict[str, Any]) -> dict[str, dict[str, Any]]:
-    return {r["id"]: r for rs in report["rulesets"] for r in rs["rules"]}
+def rule_index(report: Report) -> dict[str, dict[str, Any]]:
+    return {r["id"]: r for rs in report.rulesets for r in rs["rules"]}
+
+
+def first_profile(report: Report) -> str:
+    return report.profiles[0]["id"] if report.profiles else ""
 
 
 def _size_for_miss(limit: float, alpha: float, sigma_a: float) -> float:
@@ -75,40 +80,45 @@ def fix_hint(finding: dict[str, Any], target: dict[str, Any], rule: dict[str, An
     return ""
 
 
-def finding_rows(report: dict[str, Any]) -> list[dict[str, str]]:
-    rules = _rules(report)
-    profile = report["profiles"][0]["id"] if report.get("profiles") else ""
+def screen_rows(s: dict[str, Any], rules: dict[str, dict[str, Any]], profile: str) -> list[dict[str, str]]:
+    """One screen's findings as table rows (the column contract in COLUMNS)."""
+    screen = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
+    unit = s["device"]["unit"]
     rows: list[dict[str, str]] = []
-    for s in report["screens"]:
-        screen = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
-        unit = s["device"]["unit"]
-        for t in s["targets"]:
-            miss = next((d["miss_probability"] for d in t["difficulty"] if d["profile"] == profile), None)
-            for f in t["findings"]:
-                w = f["waiver"]
-                rows.append({
-                    "screen": screen, "target": f"#{t['ordinal']}", "label": t["label"],
-                    "resource_id": t["resource_id"], "class": t["class"],
-                    "rule_set": f["rule"].split("/", 1)[0], "rule": f["rule"], "severity": f["severity"],
-                    "status": t["status"], "measured": _num(f["measured"], 2), "required": _num(f["required"], 2),
-                    "unit": f["unit"], "width": _num(t["size"]["width"], 2), "height": _num(t["size"]["height"], 2),
-                    "size_unit": unit,
-                    "width_mm": _num(t["size_mm"]["width"], 2) if t["size_mm"] else "",
-                    "height_mm": _num(t["size_mm"]["height"], 2) if t["size_mm"] else "",
-                    "miss_probability": "" if miss is None or (isinstance(miss, float) and math.isnan(miss)) else f"{miss:.2f}",
-                    "profile": profile if miss is not None else "",
-                    "waiver": "" if not w else f"{w['reason']} ({w['author']}{', until ' + w['expires'] if w['expires'] else ''})",
-                    "fix": "" if w else fix_hint(f, t, rules.get(f["rule"]), unit),
-                })
+    for t in s["targets"]:
+        if not t["findings"]:
+            continue
+        miss = next((d["miss_probability"] for d in t["difficulty"] if d["profile"] == profile), None)
+        for f in t["findings"]:
+            w = f["waiver"]
+            rows.append({
+                "screen": screen, "target": f"#{t['ordinal']}", "label": t["label"],
+                "resource_id": t["resource_id"], "class": t["class"],
+                "rule_set": f["rule"].split("/", 1)[0], "rule": f["rule"], "severity": f["severity"],
+                "status": t["status"], "measured": _num(f["measured"], 2), "required": _num(f["required"], 2),
+                "unit": f["unit"], "width": _num(t["size"]["width"], 2), "height": _num(t["size"]["height"], 2),
+                "size_unit": unit,
+                "width_mm": _num(t["size_mm"]["width"], 2) if t["size_mm"] else "",
+                "height_mm": _num(t["size_mm"]["height"], 2) if t["size_mm"] else "",
+                "miss_probability": "" if miss is None or (isinstance(miss, float) and math.isnan(miss)) else f"{miss:.2f}",
+                "profile": profile if miss is not None else "",
+                "waiver": "" if not w else f"{w['reason']} ({w['author']}{', until ' + w['expires'] if w['expires'] else ''})",
+                "fix": "" if w else fix_hint(f, t, rules.get(f["rule"]), unit),
+            })
     return rows
 
 
-def write_csv(report: dict[str, Any], width: int | None = None) -> str:
-    buf = io.StringIO()
-    out = csv.DictWriter(buf, fieldnames=list(COLUMNS), lineterminator="\n")
-    out.writeheader()
-    out.writerows(finding_rows(report))
-    return buf.getvalue()
+def finding_rows(report: Report) -> Iterator[dict[str, str]]:
+    rules, profile = rule_index(report), first_profile(report)
+    for s in report.screens:
+        yield from screen_rows(s, rules, profile)
+
+
+def write_csv(report: Report, out: TextIO, width: int | None = None) -> None:
+    writer = csv.DictWriter(out, fieldnames=list(COLUMNS), lineterminator="\n")
+    writer.writeheader()
+    for row in finding_rows(report):
+        writer.writerow(row)
 
 
 def _md_cell(text: str) -> str:
@@ -119,9 +129,10 @@ MD_COLUMNS = ("screen", "target", "label", "rule", "severity", "status", "measur
               "width_mm", "height_mm", "miss_probability", "waiver", "fix")
 
 
-def write_markdown(report: dict[str, Any], width: int | None = None) -> str:
-    s = report["summary"]
-    lines = [
+def write_markdown(report: Report, out: TextIO, width: int | None = None) -> None:
+    """Totals first, so it is given a spooled report (its screens are read twice)."""
+    s = report.summary
+    out.write("\n".join([
         "# Touch target findings", "",
         f"{s['screens']} screens, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
         f"{s['unmeasurable']} unmeasurable, {s['exempt']} exempt, {s['unchecked']} not checked.", "",
@@ -129,10 +140,10 @@ def write_markdown(report: dict[str, Any], width: int | None = None) -> str:
         "law that applies and by a qualified person.", "",
         "| " + " | ".join(MD_COLUMNS) + " |",
         "|" + "|".join("---" for _ in MD_COLUMNS) + "|",
-    ]
+    ]) + "\n")
     for row in finding_rows(report):
-        lines.append("| " + " | ".join(_md_cell(row[c]) for c in MD_COLUMNS) + " |")
-    lines += ["", "## Sources", ""]
-    for rs in report["rulesets"]:
+        out.write("| " + " | ".join(_md_cell(row[c]) for c in MD_COLUMNS) + " |\n")
+    lines = ["", "## Sources", ""]
+    for rs in report.rulesets:
         lines.append(f"- **{rs['id']}**: {rs['title']}. {rs['source']}. <{rs['url']}>")
-    return "\n".join(lines) + "\n"
+    out.write("\n".join(lines) + "\n")

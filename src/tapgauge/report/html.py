@@ -15,9 +15,10 @@ import math
 from collections import Counter
 from html import escape
 from pathlib import Path
-from typing import Any
+from typing import Any, TextIO
 
-from tapgauge.report.findings import finding_rows
+from tapgauge.report.findings import first_profile, rule_index, screen_rows
+from tapgauge.report.records import Report
 
 OVERLAY_WIDTH = 400  # px: pictures are drawn small so a report of hundreds of screens stays light
 CROP_SIZE = 96  # px: the longer side of a target's crop
@@ -118,7 +119,7 @@ def _data_uri(img: Any, fmt: str = "JPEG", quality: int = 72) -> str:
     return f"data:{mime};base64,{base64.b64encode(buf.getvalue()).decode('ascii')}"
 
 
-def _pictures(screen: dict[str, Any], report: dict[str, Any]) -> tuple[str, dict[int, str]]:
+def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, str]]:
     """The scaled overlay as a data URI, and a crop per failing target (by ordinal)."""
     from PIL import Image
 
@@ -152,9 +153,9 @@ def _pictures(screen: dict[str, Any], report: dict[str, Any]) -> tuple[str, dict
     return _data_uri(small, "PNG"), crops
 
 
-def _chart(screen: dict[str, Any], report: dict[str, Any]) -> str:
+def _chart(screen: dict[str, Any], report: Report) -> str:
     """Inline SVG: predicted time against ID for this screen's targets, with each profile's line."""
-    profiles = report.get("profiles", [])
+    profiles = report.profiles
     points = [(p["id"], d["id_bits"], d["time_ms"]) for t in screen["targets"] for d in t["difficulty"]
               for p in profiles if p["id"] == d["profile"]]
     if not points:
@@ -216,13 +217,25 @@ def _badge(status: str) -> str:
     return f'<span class="badge s-{status}">{escape(STATUS_WORDS[status])}</span>'
 
 
-def write_html(report: dict[str, Any], width: int | None = None) -> str:
-    s = report["summary"]
-    rows = finding_rows(report)
-    by_screen: dict[str, list[dict[str, str]]] = {}
-    for row in rows:
-        by_screen.setdefault(row["screen"], []).append(row)
-    rulesets = [rs["id"] for rs in report["rulesets"]]
+def _count_findings(report: Report) -> tuple[int, Counter[str], Counter[str]]:
+    """Findings in all, open ones per rule and waived ones per rule (one pass over the screens)."""
+    total, open_, waived = 0, Counter[str](), Counter[str]()
+    for scr in report.screens:
+        for t in scr["targets"]:
+            for f in t["findings"]:
+                total += 1
+                if f["waiver"]:
+                    waived[f["rule"]] += 1
+                elif t["status"] in ("fail", "unmeasurable"):
+                    open_[f["rule"]] += 1
+    return total, open_, waived
+
+
+def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
+    """Totals and summaries first, so it reads a spooled report's screens several times."""
+    s = report.summary
+    n_findings, rule_counts, waived = _count_findings(report)
+    rulesets = [rs["id"] for rs in report.rulesets]
     statuses = ("fail", "unmeasurable", "exempt")
     h: list[str] = [
         "<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
@@ -233,7 +246,7 @@ def write_html(report: dict[str, Any], width: int | None = None) -> str:
         '<ul class="totals">'
         f"<li>{s['screens']} screens</li><li>{s['targets']} targets</li><li>{s['pass']} pass</li>"
         f"<li>{s['fail']} fail</li><li>{s['unmeasurable']} unmeasurable</li><li>{s['exempt']} exempt</li>"
-        f"<li>{s['unchecked']} not checked</li><li>{len(rows)} findings</li></ul>",
+        f"<li>{s['unchecked']} not checked</li><li>{n_findings} findings</li></ul>",
         '<p class="note">Measured by tapgauge from the screens listed below. These figures support, and do not '
         "replace, an accessibility audit under the law that applies and by a qualified person. Some WCAG "
         "exceptions (equivalent control, inline, platform-set size, essential) need a person's judgement; "
@@ -246,20 +259,19 @@ def write_html(report: dict[str, Any], width: int | None = None) -> str:
           + "".join(f'<th scope="col">{c}</th>' for c in ("Screen", "Targets", "Pass", "Fail", "Unmeasurable",
                                                            "Exempt", "Not checked", "Findings"))
           + "</tr></thead><tbody>"]
-    for k, scr in enumerate(report["screens"]):
+    out.write("\n".join(h) + "\n")
+    for k, scr in enumerate(report.screens):
         title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
         c = scr["summary"]
-        h.append(f'<tr><th scope="row"><a href="#s-{k}">{escape(title)}</a></th>'
-                 + "".join(f'<td class="num">{c[x]}</td>' for x in ("targets", "pass", "fail", "unmeasurable",
-                                                                   "exempt", "unchecked"))
-                 + f'<td class="num">{len(by_screen.get(title, []))}</td></tr>')
-    h.append("</tbody></table>")
-    rule_counts = Counter(row["rule"] for row in rows if row["status"] in ("fail", "unmeasurable") and not row["waiver"])
-    waived = Counter(row["rule"] for row in rows if row["waiver"])
+        out.write(f'<tr><th scope="row"><a href="#s-{k}">{escape(title)}</a></th>'
+                  + "".join(f'<td class="num">{c[x]}</td>' for x in ("targets", "pass", "fail", "unmeasurable",
+                                                                    "exempt", "unchecked"))
+                  + f'<td class="num">{sum(len(t["findings"]) for t in scr["targets"])}</td></tr>\n')
+    h = ["</tbody></table>"]
     h.append("<table><caption>By rule</caption><thead><tr>"
              + "".join(f'<th scope="col">{c}</th>' for c in ("Rule", "Severity", "Open findings", "Waived", "Summary"))
              + "</tr></thead><tbody>")
-    for rs in report["rulesets"]:
+    for rs in report.rulesets:
         for r in rs["rules"]:
             h.append(f'<tr><th scope="row"><a href="#src-{escape(rs["id"])}">{escape(r["id"])}</a></th>'
                      f'<td class="sev-{r["severity"]}">{r["severity"]}</td><td class="num">{rule_counts[r["id"]]}</td>'
@@ -274,38 +286,41 @@ def write_html(report: dict[str, Any], width: int | None = None) -> str:
     for st in statuses:
         h.append(f'<label><input type="checkbox" name="status" value="{st}" checked> {escape(STATUS_WORDS[st])}</label>')
     h.append('</fieldset><label for="f-screen">Screen</label> <select id="f-screen"><option value="">All screens</option>')
-    for scr in report["screens"]:
+    out.write("\n".join(h) + "\n")
+    for scr in report.screens:
         title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
-        h.append(f'<option value="{escape(title)}">{escape(title)}</option>')
-    h += ['</select> <p id="f-count" role="status" aria-live="polite"></p>', "</section>"]
+        out.write(f'<option value="{escape(title)}">{escape(title)}</option>\n')
+    h = ['</select> <p id="f-count" role="status" aria-live="polite"></p>', "</section>"]
     # One article per screen.
     h += ['<section id="screens" aria-labelledby="h-screens">', '<h2 id="h-screens">Screens</h2>']
-    for k, scr in enumerate(report["screens"]):
-        h.append(_screen_html(k, scr, report, by_screen))
-    h.append("</section>")
+    out.write("\n".join(h) + "\n")
+    rules, profile = rule_index(report), first_profile(report)
+    for k, scr in enumerate(report.screens):
+        out.write(_screen_html(k, scr, report, screen_rows(scr, rules, profile)) + "\n")
+    h = ["</section>"]
     # Sources.
     h += ['<section aria-labelledby="h-sources">', '<h2 id="h-sources">Rule sources</h2>', '<dl class="sources">']
-    for rs in report["rulesets"]:
+    for rs in report.rulesets:
         h.append(f'<dt id="src-{escape(rs["id"])}">{escape(rs["id"])}: {escape(rs["title"])}</dt>'
                  f'<dd>{escape(rs["source"])}. <a href="{escape(rs["url"])}">{escape(rs["url"])}</a></dd>')
         for r in rs["rules"]:
             if r["source"] != rs["source"] or r["url"] != rs["url"]:
                 h.append(f'<dd>{escape(r["id"])}: {escape(r["source"])}. <a href="{escape(r["url"])}">{escape(r["url"])}</a></dd>')
-    for p in report.get("profiles", []):
+    for p in report.profiles:
         h.append(f'<dt>profile {escape(p["id"])}: {escape(p["title"])}</dt><dd>Timing: {escape(p["timing_source"])}. '
                  f'Spread: {escape(p["spread_source"])}.</dd>')
     h += ["</dl>", "</section>"]
-    if report["errors"]:
+    if report.errors:
         h += ['<section aria-labelledby="h-errors">', '<h2 id="h-errors">Files that could not be read</h2>', "<ul>"]
-        for e in report["errors"]:
+        for e in report.errors:
             where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
             h.append(f"<li>{escape(where)}: {escape(e['message'])}</li>")
         h += ["</ul>", "</section>"]
     h += ["</main>", f"<script>{SCRIPT}</script>", "</body>", "</html>"]
-    return "\n".join(h) + "\n"
+    out.write("\n".join(h) + "\n")
 
 
-def _screen_html(k: int, scr: dict[str, Any], report: dict[str, Any], by_screen: dict[str, list[dict[str, str]]]) -> str:
+def _screen_html(k: int, scr: dict[str, Any], report: Report, rows: list[dict[str, str]]) -> str:
     title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
     d = scr["device"]
     failing = [t for t in scr["targets"] if t["status"] in ("fail", "unmeasurable")]
@@ -321,7 +336,6 @@ def _screen_html(k: int, scr: dict[str, Any], report: dict[str, Any], by_screen:
            f'<p class="device">{escape(device)}</p>', '<div class="pair">',
            f'<figure><img class="overlay" loading="lazy" decoding="async" src="{overlay}" alt="{escape(alt)}"><figcaption>Overlay: '
            f"targets numbered as in the table.</figcaption></figure>", "<div>"]
-    rows = by_screen.get(title, [])
     if not rows:
         out.append('<p class="empty">No findings on this screen.</p>')
     else:

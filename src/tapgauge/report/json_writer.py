@@ -1,8 +1,11 @@
 from __future__ import annotations
 
-import json
-from typing import Any
+from typing import TextIO
+
+from tapgauge.jsontext import write_streamed
+from tapgauge.report.records import Report
 
 
-def write_json(report: dict[str, Any], width: int | None = None) -> str:
-    return json.dumps(report, indent=2, ensure_ascii=False) + "\n"
+def write_json(report: Report, out: TextIO, width: int | None = None) -> None:
+    """The report document, each screen written as it arrives (see the JSON contract in DESIGN)."""
+    write_streamed(out, report.document, report.screens)

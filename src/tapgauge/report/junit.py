@@ -1,65 +1,82 @@
 """JUnit XML for CI test dashboards: a test suite per screen, a test case per target and rule set.
 
 A case fails when the target has findings of that rule set that are not waived;
-it is skipped when the target was not checked or every finding was waived.
+it is skipped when the target was not checked or every finding was waived. The root
+element carries the totals, so this writer reads a spooled report twice.
 """
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Any, TextIO
+from xml.sax.saxutils import quoteattr
 
 from lxml import etree
 
+from tapgauge.report.records import Report
 
-def write_junit(report: dict[str, Any], width: int | None = None) -> str:
-    root = etree.Element("testsuites", name="tapgauge")
+
+def _suite(s: dict[str, Any]) -> tuple[etree._Element, int, int, int]:
+    """A screen's test suite and its counts: tests, failures, skipped."""
+    title = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
+    suite = etree.Element("testsuite", name=title)
+    s_tests = s_fail = s_skip = 0
+    for t in s["targets"]:
+        for rs in s["rulesets"]:
+            s_tests += 1
+            case = etree.SubElement(suite, "testcase", name=f"#{t['ordinal']} {t['name']} [{rs}]",
+                                    classname=title.replace("/", "."))
+            mine = [f for f in t["findings"] if f["rule"].split("/", 1)[0] == rs]
+            open_ = [f for f in mine if not f["waiver"]]
+            if t["status"] == "unchecked":
+                s_skip += 1
+                etree.SubElement(case, "skipped", message=f"not checked: {t['reason']}")
+            elif mine and not open_:
+                s_skip += 1
+                etree.SubElement(case, "skipped", message=f"waived: {mine[0]['waiver']['reason']}")
+            elif open_:
+                s_fail += 1
+                worst = open_[0]
+                size = f"{t['size']['width']:g} x {t['size']['height']:g} {s['device']['unit']}"
+                if t["size_mm"]:
+                    size += f" ({t['size_mm']['width']:g} x {t['size_mm']['height']:g} mm)"
+                failure = etree.SubElement(
+                    case, "failure", type=worst["severity"],
+                    message=f"{worst['rule']}: found {worst['measured']:g}, needs {worst['required']:g} {worst['unit']}",
+                )
+                failure.text = "\n".join(
+                    [f"target {size}, status {t['status']}"]
+                    + [f"{f['severity']} {f['rule']}: found {f['measured']:g}, needs {f['required']:g} {f['unit']}: "
+                       f"{f['message']}" for f in open_]
+                )
+    suite.set("tests", str(s_tests))
+    suite.set("failures", str(s_fail))
+    suite.set("errors", "0")
+    suite.set("skipped", str(s_skip))
+    return suite, s_tests, s_fail, s_skip
+
+
+def _text(el: etree._Element) -> str:
+    return etree.tostring(el, pretty_print=True, encoding="unicode")
+
+
+def write_junit(report: Report, out: TextIO, width: int | None = None) -> None:
     total = failures = skipped = 0
-    for s in report["screens"]:
-        title = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
-        suite = etree.SubElement(root, "testsuite", name=title)
-        s_tests = s_fail = s_skip = 0
-        for t in s["targets"]:
-            for rs in s["rulesets"]:
-                s_tests += 1
-                case = etree.SubElement(suite, "testcase", name=f"#{t['ordinal']} {t['name']} [{rs}]",
-                                        classname=title.replace("/", "."))
-                mine = [f for f in t["findings"] if f["rule"].split("/", 1)[0] == rs]
-                open_ = [f for f in mine if not f["waiver"]]
-                if t["status"] == "unchecked":
-                    s_skip += 1
-                    etree.SubElement(case, "skipped", message=f"not checked: {t['reason']}")
-                elif mine and not open_:
-                    s_skip += 1
-                    etree.SubElement(case, "skipped", message=f"waived: {mine[0]['waiver']['reason']}")
-                elif open_:
-                    s_fail += 1
-                    worst = open_[0]
-                    size = f"{t['size']['width']:g} x {t['size']['height']:g} {s['device']['unit']}"
-                    if t["size_mm"]:
-                        size += f" ({t['size_mm']['width']:g} x {t['size_mm']['height']:g} mm)"
-                    failure = etree.SubElement(
-                        case, "failure", type=worst["severity"],
-                        message=f"{worst['rule']}: found {worst['measured']:g}, needs {worst['required']:g} {worst['unit']}",
-                    )
-                    failure.text = "\n".join(
-                        [f"target {size}, status {t['status']}"]
-                        + [f"{f['severity']} {f['rule']}: found {f['measured']:g}, needs {f['required']:g} {f['unit']}: "
-                           f"{f['message']}" for f in open_]
-                    )
-        suite.set("tests", str(s_tests))
-        suite.set("failures", str(s_fail))
-        suite.set("errors", "0")
-        suite.set("skipped", str(s_skip))
-        total, failures, skipped = total + s_tests, failures + s_fail, skipped + s_skip
-    if report["errors"]:
-        suite = etree.SubElement(root, "testsuite", name="unreadable inputs", tests=str(len(report["errors"])),
-                                 failures="0", errors=str(len(report["errors"])), skipped="0")
-        for e in report["errors"]:
+    for s in report.screens:  # first pass: the totals the root element carries
+        _, n, f, k = _suite(s)
+        total, failures, skipped = total + n, failures + f, skipped + k
+    errors = report.errors
+    attrs = {"name": "tapgauge", "tests": str(total + len(errors)), "failures": str(failures),
+             "errors": str(len(errors)), "skipped": str(skipped)}
+    out.write("<?xml version='1.0' encoding='UTF-8'?>\n<testsuites"
+              + "".join(f" {k}={quoteattr(v)}" for k, v in attrs.items()) + ">\n")
+    for s in report.screens:
+        out.write(_text(_suite(s)[0]))
+    if errors:
+        suite = etree.Element("testsuite", name="unreadable inputs", tests=str(len(errors)),
+                              failures="0", errors=str(len(errors)), skipped="0")
+        for e in errors:
             case = etree.SubElement(suite, "testcase", name=e["path"], classname="inputs")
             err = etree.SubElement(case, "error", message=e["message"])
             err.text = f"{e['path']}:{e['line']}: {e['message']}" if e["line"] else f"{e['path']}: {e['message']}"
-    root.set("tests", str(total + len(report["errors"])))
-    root.set("failures", str(failures))
-    root.set("errors", str(len(report["errors"])))
-    root.set("skipped", str(skipped))
-    return etree.tostring(root, pretty_print=True, xml_declaration=True, encoding="UTF-8").decode("utf-8")
+        out.write(_text(suite))
+    out.write("</testsuites>\n")

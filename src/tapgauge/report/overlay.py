@@ -19,6 +19,7 @@ from PIL import Image, ImageDraw, ImageFont
 
 from tapgauge.device import MM_PER_INCH
 from tapgauge.report.output import write_atomic
+from tapgauge.report.records import Report
 
 RGB = tuple[int, int, int]
 
@@ -86,12 +87,12 @@ def _circle(draw: ImageDraw.ImageDraw, cx: float, cy: float, rx: float, ry: floa
         draw.arc([cx - rx, cy - ry, cx + rx, cy + ry], k, k + 12, fill=colour, width=width)
 
 
-def _size_rules(report: dict[str, Any]) -> set[str]:
-    return {r["id"] for rs in report["rulesets"] for r in rs["rules"] if r["kind"] == "min-size"}
+def _size_rules(report: Report) -> set[str]:
+    return {r["id"] for rs in report.rulesets for r in rs["rules"] if r["kind"] == "min-size"}
 
 
-def _spacing_rules(report: dict[str, Any]) -> dict[str, float]:
-    return {r["id"]: r["params"]["size"] for rs in report["rulesets"] for r in rs["rules"]
+def _spacing_rules(report: Report) -> dict[str, float]:
+    return {r["id"]: r["params"]["size"] for rs in report.rulesets for r in rs["rules"]
             if r["params"].get("spacing_exception")}
 
 
@@ -101,7 +102,7 @@ def _to_coords(size: float, unit: str, device: dict[str, Any]) -> tuple[float, f
     return size * device["coords_per_unit"], size * device["coords_per_unit"]
 
 
-def draw_overlay(screen: dict[str, Any], report: dict[str, Any], image: Image.Image | None,
+def draw_overlay(screen: dict[str, Any], report: Report, image: Image.Image | None,
                  max_width: int | None = None) -> Image.Image:
     """The overlay of one screen record as a new picture (the screenshot is not changed).
 
@@ -189,22 +190,19 @@ def overlay_name(screen: dict[str, Any]) -> Path:
     return stem.with_name(stem.name + ".overlay.png")
 
 
-def write_overlays(report: dict[str, Any], folder: Path) -> list[Path]:
-    """One overlay per screen under `folder`, each written atomically. Returns the paths."""
-    written: list[Path] = []
-    for screen in report["screens"]:
-        image = None
-        if screen["image"]:
-            try:
-                image = Image.open(screen["image"])
-                image.load()
-            except (OSError, Image.DecompressionBombError):
-                image = None  # the reader already vetted it; a vanished file falls back to wireframe
-        picture = draw_overlay(screen, report, image)
-        path = folder / overlay_name(screen)
-        path.parent.mkdir(parents=True, exist_ok=True)
-        buf = io.BytesIO()
-        picture.save(buf, "PNG", optimize=False)
-        write_atomic(path, buf.getvalue())
-        written.append(path)
-    return written
+def write_overlay(screen: dict[str, Any], report: Report, folder: Path) -> Path:
+    """A screen's overlay under `folder`, written atomically; the screenshot is let go at once."""
+    image = None
+    if screen["image"]:
+        try:
+            image = Image.open(screen["image"])
+            image.load()
+        except (OSError, Image.DecompressionBombError):
+            image = None  # the reader already vetted it; a vanished file falls back to wireframe
+    picture = draw_overlay(screen, report, image)
+    path = folder / overlay_name(screen)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    buf = io.BytesIO()
+    picture.save(buf, "PNG", optimize=False)
+    write_atomic(path, buf.getvalue())
+    return path

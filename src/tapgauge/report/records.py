@@ -5,14 +5,21 @@ Deterministic: screens sorted by path, targets in document order, no clock.
 
 from __future__ import annotations
 
+import tempfile
 from collections import Counter
+from collections.abc import Callable, Iterable, Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+
+import orjson
 
 from tapgauge import __version__
 from tapgauge.identity import target_keys
 from tapgauge.profiles import Profile
 from tapgauge.model import STATUSES, InputError, RuleSet, ScreenResult, Severity, TargetResult
+from tapgauge.waivers import Waivers, outcomes, waiver_records
 
 REPORT_FORMAT = "tapgauge-report"
 REPORT_VERSION = 1
@@ -117,42 +124,142 @@ def error_record(err: InputError) -> dict[str, Any]:
     return {"path": display_path(err.path), "line": err.line, "message": err.message}
 
 
-def exit_code(screens: list[dict[str, Any]], errors: list[dict[str, Any]], fail_level: Severity) -> int:
-    """2 for any input error; else 1 when a failing target has a finding at or above the fail level."""
-    if errors:
-        return EXIT_ERROR
-    for s in screens:
-        for t in s["targets"]:
-            if t["status"] == "fail" and any(Severity.parse(f["severity"]) >= fail_level and not f["waiver"]
-                                             for f in t["findings"]):
-                return EXIT_FINDINGS
-    return EXIT_OK
+def _blocks_exit(t: dict[str, Any], fail_level: Severity) -> bool:
+    return t["status"] == "fail" and any(Severity.parse(f["severity"]) >= fail_level and not f["waiver"]
+                                         for f in t["findings"])
 
 
-def build_report(screens: list[ScreenResult], errors: list[InputError], rulesets: list[RuleSet],
-                 fail_level: Severity, profiles: list[Profile] | None = None,
-                 waivers: list[dict[str, Any]] | None = None) -> dict[str, Any]:
-    screen_recs = sorted((screen_record(s) for s in screens), key=lambda r: (r["path"], r["name"]))
-    error_recs = sorted((error_record(e) for e in errors), key=lambda r: (r["path"], r["line"] or 0))
-    all_targets = [t for s in screen_recs for t in s["targets"]]
-    severities = Counter(f["severity"] for t in all_targets if t["status"] == "fail" for f in t["findings"]
-                         if not f["waiver"])
-    summary = {
-        "screens": len(screen_recs),
-        "errors": len(error_recs),
-        **_status_counts(all_targets),
-        "findings": {s.label: severities.get(s.label, 0) for s in sorted(Severity, reverse=True)},
-        "exit_code": exit_code(screen_recs, error_recs, fail_level),
-    }
-    return {
-        "format": REPORT_FORMAT,
-        "version": REPORT_VERSION,
-        "tool": {"name": "tapgauge", "version": __version__},
-        "fail_level": fail_level.label,
-        "rulesets": [ruleset_record(rs) for rs in rulesets],
-        "profiles": [profile_record(p) for p in profiles or []],
-        "screens": screen_recs,
-        "waivers": waivers or [],
-        "errors": error_recs,
-        "summary": summary,
-    }
+@dataclass(frozen=True)
+class Checked:
+    """What the pipeline hands on per screen: its record, and how many findings each waiver matched."""
+
+    record: dict[str, Any]
+    waived: tuple[int, ...] = ()
+
+
+class Report:
+    """A report whose screens pass by once, in order, as they are checked.
+
+    The head (rule sets, profiles, fail level) is known at once; `summary`, `errors`
+    and `waivers` only when every screen has passed. Nothing but running totals is
+    kept, so memory does not grow with the number of screens. `spooled()` gives a
+    report whose screens can be read again (for formats that put totals first).
+    """
+
+    def __init__(self, items: Iterable[Checked | InputError], rulesets: list[RuleSet], fail_level: Severity,
+                 profiles: list[Profile] | None = None, waivers: Waivers | None = None,
+                 on_error: Callable[[dict[str, Any]], None] | None = None) -> None:
+        self.fail_level = fail_level.label
+        self.rulesets = [ruleset_record(rs) for rs in rulesets]
+        self.profiles = [profile_record(p) for p in profiles or []]
+        self._level = fail_level
+        self._items = items
+        self._waivers = waivers or Waivers()
+        self._on_error = on_error
+        self._observers: list[Callable[[dict[str, Any]], None]] = []
+        self._done = False
+        self._screens = 0
+        self._statuses: Counter[str] = Counter()
+        self._severities: Counter[str] = Counter()
+        self._failing = False
+        self._errors: list[dict[str, Any]] = []
+        self._matched = [0] * len(self._waivers.waivers)
+
+    def observe(self, fn: Callable[[dict[str, Any]], None]) -> None:
+        """Call `fn` with each screen's record as it passes (overlays are drawn this way)."""
+        self._observers.append(fn)
+
+    @property
+    def screens(self) -> Iterator[dict[str, Any]]:
+        if self._done:
+            raise RuntimeError("a live report's screens can be read only once; use spooled()")
+        return self._stream()
+
+    def _stream(self) -> Iterator[dict[str, Any]]:
+        for item in self._items:
+            if isinstance(item, InputError):
+                rec = error_record(item)
+                self._errors.append(rec)
+                if self._on_error:
+                    self._on_error(rec)
+                continue
+            rec = item.record
+            self._screens += 1
+            for k, n in enumerate(item.waived):
+                self._matched[k] += n
+            for t in rec["targets"]:
+                self._statuses[t["status"]] += 1
+                if t["status"] == "fail":
+                    for f in t["findings"]:
+                        if not f["waiver"]:
+                            self._severities[f["severity"]] += 1
+                    self._failing = self._failing or _blocks_exit(t, self._level)
+            for fn in self._observers:
+                fn(rec)
+            yield rec
+        self._done = True
+
+    def _final(self) -> None:
+        if not self._done:
+            raise RuntimeError("report totals read before every screen has passed")
+
+    @property
+    def errors(self) -> list[dict[str, Any]]:
+        self._final()
+        return sorted(self._errors, key=lambda r: (r["path"], r["line"] or 0))
+
+    @property
+    def waivers(self) -> list[dict[str, Any]]:
+        self._final()
+        return waiver_records(outcomes(self._waivers, self._matched))
+
+    @property
+    def exit_code(self) -> int:
+        self._final()
+        return EXIT_ERROR if self._errors else EXIT_FINDINGS if self._failing else EXIT_OK
+
+    @property
+    def summary(self) -> dict[str, Any]:
+        self._final()
+        return {
+            "screens": self._screens,
+            "errors": len(self._errors),
+            "targets": sum(self._statuses.values()),
+            **{s: self._statuses.get(s, 0) for s in STATUSES},
+            "findings": {s.label: self._severities.get(s.label, 0) for s in sorted(Severity, reverse=True)},
+            "exit_code": self.exit_code,
+        }
+
+    def head(self) -> dict[str, Any]:
+        return {"format": REPORT_FORMAT, "version": REPORT_VERSION, "tool": {"name": "tapgauge", "version": __version__},
+                "fail_level": self.fail_level, "rulesets": self.rulesets, "profiles": self.profiles}
+
+    def document(self, screens: Any, final: bool) -> dict[str, Any]:
+        """The report document (JSON contract) with `screens` in place of the screen list."""
+        return {**self.head(), "screens": screens, "waivers": self.waivers if final else [],
+                "errors": self.errors if final else [], "summary": self.summary if final else {}}
+
+    @contextmanager
+    def spooled(self) -> Iterator[Report]:
+        """This report with its screens kept in a temporary file, to be read as often as needed."""
+        with tempfile.TemporaryDirectory(prefix="tapgauge-") as tmp:
+            spool = Path(tmp) / "screens.jsonl"
+            with spool.open("wb") as fh:
+                for rec in self.screens:
+                    fh.write(orjson.dumps(rec) + b"\n")
+            yield _Spooled(self, spool)
+
+
+class _Spooled(Report):
+    def __init__(self, live: Report, spool: Path) -> None:  # takes the live report's totals
+        self.__dict__.update(live.__dict__)
+        self._spool = spool
+
+    @property
+    def screens(self) -> Iterator[dict[str, Any]]:
+        return self._read()
+
+    def _read(self) -> Iterator[dict[str, Any]]:
+        with self._spool.open("rb") as fh:
+            for line in fh:
+                yield orjson.loads(line)

@@ -9,11 +9,13 @@ the coordinate-free target identity, so moving a control does not reopen a resul
 
 from __future__ import annotations
 
-import json
-from typing import Any
+from collections.abc import Callable, Iterator
+from typing import Any, TextIO
 
 from tapgauge import __version__
 from tapgauge.identity import fingerprint
+from tapgauge.jsontext import write_streamed
+from tapgauge.report.records import Report
 
 LEVELS = {"error": "error", "warning": "warning", "info": "note"}
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
@@ -26,16 +28,8 @@ def _image_scale(screen: dict[str, Any]) -> float:
     return 1.0
 
 
-def sarif_document(report: dict[str, Any]) -> dict[str, Any]:
-    rules = [r for rs in report["rulesets"] for r in rs["rules"]]
-    index = {r["id"]: k for k, r in enumerate(rules)}
-    results: list[dict[str, Any]] = []
-    artifacts: dict[str, int] = {}
-
-    def artifact(uri: str) -> int:
-        return artifacts.setdefault(uri, len(artifacts))
-
-    for s in report["screens"]:
+def _results(report: Report, index: dict[str, int], artifact: Callable[[str], int]) -> Iterator[dict[str, Any]]:
+    for s in report.screens:
         sid = f"{s['path']}::{s['name']}" if s["name"] else s["path"]
         k = _image_scale(s)
         for t in s["targets"]:
@@ -70,8 +64,11 @@ def sarif_document(report: dict[str, Any]) -> dict[str, Any]:
                         "rectangles": [{"left": left, "top": top, "right": right, "bottom": bottom,
                                         "message": {"text": f"#{t['ordinal']} {t['name']}"}}],
                     }]
-                results.append(result)
-    driver = {
+                yield result
+
+
+def _driver(rules: list[dict[str, Any]]) -> dict[str, Any]:
+    return {
         "name": "tapgauge",
         "version": __version__,
         "rules": [
@@ -86,22 +83,36 @@ def sarif_document(report: dict[str, Any]) -> dict[str, Any]:
             for r in rules
         ],
     }
-    return {
-        "$schema": SARIF_SCHEMA,
-        "version": "2.1.0",
-        "runs": [{
-            "tool": {"driver": driver},
-            "artifacts": [{"location": {"uri": uri}} for uri, _ in sorted(artifacts.items(), key=lambda kv: kv[1])],
-            "results": results,
-            "invocations": [{"executionSuccessful": not report["errors"],
-                             "toolExecutionNotifications": [
-                                 {"level": "error", "message": {"text": e["message"]},
-                                  "locations": [{"physicalLocation": {"artifactLocation": {"uri": e["path"]},
-                                                                      **({"region": {"startLine": e["line"]}} if e["line"] else {})}}]}
-                                 for e in report["errors"]]}],
-        }],
-    }
 
 
-def write_sarif(report: dict[str, Any], width: int | None = None) -> str:
-    return json.dumps(sarif_document(report), indent=2, ensure_ascii=False) + "\n"
+def _invocation(errors: list[dict[str, Any]]) -> dict[str, Any]:
+    return {"executionSuccessful": not errors,
+            "toolExecutionNotifications": [
+                {"level": "error", "message": {"text": e["message"]},
+                 "locations": [{"physicalLocation": {"artifactLocation": {"uri": e["path"]},
+                                                     **({"region": {"startLine": e["line"]}} if e["line"] else {})}}]}
+                for e in errors]}
+
+
+def write_sarif(report: Report, out: TextIO, width: int | None = None) -> None:
+    """One SARIF run; results are written as screens pass, artifacts and the invocation after them."""
+    rules = [r for rs in report.rulesets for r in rs["rules"]]
+    index = {r["id"]: k for k, r in enumerate(rules)}
+    artifacts: dict[str, int] = {}
+
+    def artifact(uri: str) -> int:
+        return artifacts.setdefault(uri, len(artifacts))
+
+    def document(results: Any, final: bool) -> dict[str, Any]:
+        return {
+            "$schema": SARIF_SCHEMA,
+            "version": "2.1.0",
+            "runs": [{
+                "tool": {"driver": _driver(rules)},
+                "results": results,
+                "artifacts": [{"location": {"uri": uri}} for uri in artifacts] if final else [],
+                "invocations": [_invocation(report.errors if final else [])],
+            }],
+        }
+
+    write_streamed(out, document, _results(report, index, artifact))

@@ -8,11 +8,13 @@ from __future__ import annotations
 
 import io
 from collections import Counter
-from typing import Any
+from typing import Any, TextIO
 
 from rich.console import Console
 from rich.table import Table
 from rich.text import Text
+
+from tapgauge.report.records import Report
 
 _SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
 
@@ -95,12 +97,12 @@ def _difficulty_table(s: dict[str, Any], profiles: list[str]) -> Table | None:
     return table
 
 
-def write_table(report: dict[str, Any], width: int | None = None, color: bool = False,
-                difficulty: bool = False) -> str:
-    buf = io.StringIO()
-    console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color,
+def write_table(report: Report, out: TextIO, width: int | None = None, color: bool = False,
+                difficulty: bool = False) -> None:
+    console = Console(file=out, width=width or 80, force_terminal=color, no_color=not color,
                       highlight=False, soft_wrap=False)
-    for s in report["screens"]:
+    profiles = [p["id"] for p in report.profiles]
+    for s in report.screens:
         title = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
         console.print(Text(title, style="bold underline"))
         console.print(Text(_device_line(s), style="dim"))
@@ -110,7 +112,7 @@ def write_table(report: dict[str, Any], width: int | None = None, color: bool = 
         if table is not None:
             console.print(table)
         if difficulty:
-            hard = _difficulty_table(s, [p["id"] for p in report["profiles"]])
+            hard = _difficulty_table(s, profiles)
             if hard is not None:
                 console.print(hard)
         counts = s["summary"]
@@ -123,20 +125,18 @@ def write_table(report: dict[str, Any], width: int | None = None, color: bool = 
             line += f", {counts['unchecked']} unchecked ({why})"
         console.print(line)
         console.print()
-    if report["errors"] and not color:  # in a terminal they were just printed on stderr
-        for e in report["errors"]:
+    if report.errors and not color:  # in a terminal they were just printed on stderr
+        for e in report.errors:
             where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
             console.print(Text(f"error: {where}: {e['message']}", style="bold red"))
-    for w in report.get("waivers", []):
+    for w in report.waivers:
         if w["state"] != "active":
             why = "matches nothing" if w["state"] == "stale" else f"expired on {w['expires']}"
             console.print(Text(f"waiver {w['target']} / {w['rule']} on {w['screen']} {why}", style="yellow"))
-    console.print(Text(summary_line(report), style="bold"))
-    return buf.getvalue()
+    console.print(Text(summary_line(report.summary, report.fail_level), style="bold"))
 
 
-def summary_line(report: dict[str, Any]) -> str:
-    s = report["summary"]
+def summary_line(s: dict[str, Any], fail_level: str) -> str:
     f = s["findings"]
     verdict = {0: "passed", 1: "failed", 2: "input errors"}[s["exit_code"]]
     screens = f"{s['screens']} screen" + ("" if s["screens"] == 1 else "s")
@@ -144,7 +144,7 @@ def summary_line(report: dict[str, Any]) -> str:
         f"{screens}, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
         f"{s['unmeasurable']} unmeasurable, {s['exempt']} exempt, {s['unchecked']} unchecked; findings on failing targets: "
         f"{f['error']} error, {f['warning']} warning, {f['info']} info; {s['errors']} unreadable; "
-        f"{verdict} at fail level {report['fail_level']} (exit {s['exit_code']})"
+        f"{verdict} at fail level {fail_level} (exit {s['exit_code']})"
     )
 
 

@@ -1,0 +1,105 @@
+"""Reports written as screens pass: the same text as writing them whole, totals only at the end.
+
+The oracle for the JSON text is Python's standard-library json module (the reference
+encoder the report contract was first written with).
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import shutil
+from pathlib import Path
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from conftest import DEMO
+from tapgauge.cli import main
+from tapgauge.jsontext import dumps, write_streamed
+from tapgauge.model import InputError, Severity
+from tapgauge.report.records import Checked, Report
+
+# JSON values as our records hold them: strings (any Unicode), ints, and floats rounded
+# to at most 4 decimals (every float in a record is rounded), nested a few levels.
+_floats = st.floats(min_value=-1e12, max_value=1e12, allow_nan=False).map(lambda v: round(v, 4))
+_scalars = st.none() | st.booleans() | st.integers(-2**53, 2**53) | _floats | st.text(max_size=12)
+_values = st.recursive(_scalars, lambda inner: st.lists(inner, max_size=4)
+                       | st.dictionaries(st.text(max_size=6), inner, max_size=4), max_leaves=20)
+
+
+def _stdlib(obj: object) -> str:
+    return json.dumps(obj, indent=2, ensure_ascii=False)
+
+
+@settings(max_examples=200, deadline=None)
+@given(_values)
+def test_dumps_writes_what_the_standard_library_writes(value: object) -> None:
+    assert dumps(value) == _stdlib(value)  # oracle: stdlib json, indent=2, ensure_ascii=False
+
+
+def test_dumps_falls_back_for_what_orjson_refuses() -> None:
+    big = {"n": 2**70, 1: "int key"}
+    assert dumps(big) == _stdlib(big)
+
+
+@settings(max_examples=150, deadline=None)
+@given(head=st.dictionaries(st.text(max_size=5), _values, max_size=3), items=st.lists(_values, max_size=5),
+       tail=_values, nested=st.booleans(), mapping=st.booleans())
+def test_streamed_document_is_the_whole_document(head: dict, items: list, tail: object, nested: bool,
+                                                mapping: bool) -> None:
+    """Splicing the list in as it arrives gives the same text as dumping the document at once."""
+    pairs = [(f"k{n}", v) for n, v in enumerate(items)]
+    streamed = dict(pairs) if mapping else items
+
+    def document(marker: object, final: bool) -> dict:
+        body = {"list": marker, "tail": tail if final else None}
+        inner = {"runs": [{"x": 1, **body}]} if nested else body
+        return {**{f"h{k}": v for k, v in head.items()}, **inner}
+
+    out = io.StringIO()
+    write_streamed(out, document, pairs if mapping else items, mapping=mapping)
+    assert out.getvalue() == _stdlib(document(streamed, True)) + "\n"
+
+
+def _record(path: str, statuses: list[str]) -> dict:
+    return {"path": path, "name": None, "targets": [
+        {"status": s, "findings": [{"severity": "error", "waiver": None}] if s == "fail" else []} for s in statuses]}
+
+
+def test_report_counts_as_screens_pass_and_keeps_none() -> None:
+    items = iter([Checked(_record("a.xml", ["pass", "fail"])), InputError(Path("b.xml"), "broken", 3),
+                  Checked(_record("c.xml", ["pass", "unchecked"]))])
+    seen: list[str] = []
+    report = Report(items, [], Severity.ERROR, on_error=lambda e: seen.append(e["path"]))
+    with pytest.raises(RuntimeError):
+        _ = report.summary  # totals are not known before the screens have passed
+    assert [s["path"] for s in report.screens] == ["a.xml", "c.xml"]
+    assert seen == ["b.xml"]  # errors are announced as they happen
+    summary = report.summary
+    assert (summary["screens"], summary["targets"], summary["pass"], summary["fail"], summary["unchecked"]) == (2, 4, 2, 1, 1)
+    assert summary["findings"]["error"] == 1 and report.exit_code == 2  # an unreadable file outranks findings
+    with pytest.raises(RuntimeError):
+        list(report.screens)  # a live report is read once
+
+
+def test_spooled_report_reads_its_screens_again() -> None:
+    items = iter([Checked(_record(f"s{k}.xml", ["fail"])) for k in range(3)])
+    with Report(items, [], Severity.ERROR).spooled() as report:
+        first = [s["path"] for s in report.screens]
+        assert first == [s["path"] for s in report.screens] == ["s0.xml", "s1.xml", "s2.xml"]
+        assert report.summary["fail"] == 3 and report.exit_code == 1
+
+
+def test_baseline_refuses_a_screen_id_given_twice(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+                                                 capsys: pytest.CaptureFixture[str]) -> None:
+    """Two folders holding the same relative file would overwrite each other in the baseline."""
+    for name in ("one", "two"):
+        (tmp_path / name).mkdir()
+        shutil.copy(DEMO / "releases" / "v1" / "plot_detail.xml", tmp_path / name / "plot_detail.xml")
+        shutil.copy(DEMO / "releases" / "v1" / "device.txt", tmp_path / name / "device.txt")
+    monkeypatch.chdir(tmp_path)
+    assert main(["baseline", "one", "two", "-o", "b.json"]) == 2
+    assert "given twice" in capsys.readouterr().err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["one", "two"]  # nothing half-written left behind
