@@ -36,7 +36,9 @@ class Kind:
 
 
 def _fmt(v: float) -> str:
-    return f"{v:.1f}".rstrip("0").rstrip(".") if abs(v - round(v)) < 0.05 else f"{v:.1f}"
+    """One decimal, dropped when it is zero: 24 dp, 23.5 dp."""
+    text = f"{v:.1f}"
+    return text[:-2] if text.endswith(".0") else text
 
 
 def _who(m: MeasuredScreen, pos: int) -> str:
@@ -62,19 +64,22 @@ def check_min_size(m: MeasuredScreen, rule: Rule) -> KindResult:
     conflicts = spacing_conflicts(boxes, under, size) if spacing else np.full(len(side), -1)
     findings: list[tuple[int, Finding]] = []
     notes: list[tuple[int, str]] = []
-    w, h = sizes(boxes)
+    # Plain Python numbers from here on: formatting numpy scalars one by one is slow.
+    w, h = (a.tolist() for a in sizes(boxes))
+    sides, measured, conflict = side.tolist(), np.round(side, 3).tolist(), conflicts.tolist()
+    need = f"{_fmt(size)} {unit}"
+    passes_note = f"{rule.id}: under {need}, passes by spacing (its {need} circle clears all other targets)"
     for pos in np.flatnonzero(under).tolist():
-        if spacing and conflicts[pos] < 0:
-            notes.append((pos, f"{rule.id}: under {_fmt(size)} {unit}, passes by spacing "
-                               f"(its {_fmt(size)} {unit} circle clears all other targets)"))
+        if spacing and conflict[pos] < 0:
+            notes.append((pos, passes_note))
             continue
-        parts = [f"{_fmt(w[pos])} x {_fmt(h[pos])} {unit}, needs a {_fmt(size)} {unit} square"]
+        message = f"{_fmt(w[pos])} x {_fmt(h[pos])} {unit}, needs a {need} square"
         if m.covers[pos]:
             names = ", ".join(_who(m, o) for o in m.covers[pos][:3])
-            parts.append(f"{_fmt(side[pos])} {unit} left beside {names} drawn over it")
+            message += f"; {_fmt(sides[pos])} {unit} left beside {names} drawn over it"
         if spacing:
-            parts.append(f"its {_fmt(size)} {unit} circle intersects {_who(m, int(conflicts[pos]))}")
-        findings.append((pos, Finding(rule.id, rule.severity, round(float(side[pos]), 3), size, unit, "; ".join(parts))))
+            message += f"; its {need} circle intersects {_who(m, conflict[pos])}"
+        findings.append((pos, Finding(rule.id, rule.severity, measured[pos], size, unit, message)))
     return KindResult(tuple(findings), tuple(notes))
 
 
@@ -88,11 +93,17 @@ def check_min_gap(m: MeasuredScreen, rule: Rule) -> KindResult:
     if exempt_at is not None:
         failing &= m.free_squares(_unit(rule)) < float(exempt_at) - EPS
     findings: list[tuple[int, Finding]] = []
-    for pos in np.flatnonzero(failing).tolist():
-        d, other = float(nearest[pos]), int(who[pos])
+    gaps, others = nearest.tolist(), who.tolist()
+    positions = np.flatnonzero(failing)
+    # Among failing targets at zero gap, which overlap their neighbour (rather than touch it): all at once.
+    overlapping = np.zeros(len(boxes), dtype=bool)
+    if len(positions):
+        overlapping[positions] = intersection_areas(boxes[positions], boxes[who[positions]]) > 0
+    for pos in positions.tolist():
+        d, other = gaps[pos], others[pos]
         if d > EPS:
             where = f"{_fmt(d)} {unit} from {_who(m, other)}"
-        elif intersection_areas(boxes[[pos]], boxes[[other]])[0] > 0:
+        elif overlapping[pos]:
             where = f"overlaps {_who(m, other)}"
         else:
             where = f"touches {_who(m, other)}"
@@ -106,9 +117,10 @@ def check_max_miss(m: MeasuredScreen, rule: Rule) -> KindResult:
     boxes = m.boxes("mm")
     w, h = sizes(boxes)
     miss = 1.0 - hit_probability(w, h, profile.alpha, profile.sigma_a_mm)
+    misses, wl, hl = miss.tolist(), w.tolist(), h.tolist()
     findings = [
-        (pos, Finding(rule.id, rule.severity, round(float(miss[pos]) * 100, 1), round(limit * 100, 1), "%",
-                      f"predicted miss {miss[pos]:.0%} for {profile.id} on {_fmt(w[pos])} x {_fmt(h[pos])} mm; "
+        (pos, Finding(rule.id, rule.severity, round(misses[pos] * 100, 1), round(limit * 100, 1), "%",
+                      f"predicted miss {misses[pos]:.0%} for {profile.id} on {_fmt(wl[pos])} x {_fmt(hl[pos])} mm; "
                       f"limit {limit:.0%}"))
         for pos in np.flatnonzero(miss > limit + EPS).tolist()
     ]
@@ -152,14 +164,15 @@ KINDS: dict[str, Kind] = {
 }
 
 
-def _size(m: MeasuredScreen, k: int) -> tuple[tuple[float, float], tuple[float, float] | None]:
-    l, t, r, b = m.screen.targets[k].bounds
-    w, h = r - l, b - t
+def _sizes(m: MeasuredScreen) -> tuple[list[list[float]], list[list[float]] | None]:
+    """Every target's width and height in the platform unit and, with a ppi, in mm (2 decimals)."""
     dev = m.device
-    in_unit = (round(w / dev.coords_per_unit, 2), round(h / dev.coords_per_unit, 2))
+    bounds = np.array([t.bounds for t in m.screen.targets], dtype=float).reshape(-1, 4)
+    w, h = bounds[:, 2] - bounds[:, 0], bounds[:, 3] - bounds[:, 1]
+    in_unit = np.round(np.stack([w, h], axis=1) / dev.coords_per_unit, 2).tolist()
     if dev.xdpi is None or dev.ydpi is None:
         return in_unit, None
-    return in_unit, (round(w / dev.xdpi * MM_PER_INCH, 2), round(h / dev.ydpi * MM_PER_INCH, 2))
+    return in_unit, np.round(np.stack([w / dev.xdpi, h / dev.ydpi], axis=1) * MM_PER_INCH, 2).tolist()
 
 
 def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool) -> ScreenResult:
@@ -188,13 +201,15 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
     position = {k: pos for pos, k in enumerate(m.checked)}
     unchecked = dict(m.unchecked)
     results: list[TargetResult] = []
+    in_unit, in_mm = _sizes(m)
     for k, target in enumerate(m.screen.targets):
-        size_unit, size_mm = _size(m, k)
+        size_unit, size_mm = tuple(in_unit[k]), None if in_mm is None else tuple(in_mm[k])
         if k in unchecked:
             results.append(TargetResult(target, "unchecked", unchecked[k], size_unit, size_mm, ()))
             continue
         pos = position[k]
-        fs = tuple(sorted(findings.get(pos, []), key=lambda f: (-f.severity, f.rule_id)))
+        mine = findings.get(pos, ())
+        fs = tuple(sorted(mine, key=lambda f: (-f.severity, f.rule_id)) if len(mine) > 1 else mine)
         status, reason = "pass", ""
         if fs:
             status = "unmeasurable" if m.clipped_by[pos] else "fail"

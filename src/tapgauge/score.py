@@ -13,7 +13,7 @@ import numpy as np
 from tapgauge.difficulty import predict
 from tapgauge.geometry import as_boxes
 from tapgauge.measure import to_unit
-from tapgauge.model import Difficulty, ScreenResult
+from tapgauge.model import Difficulty, ScreenResult, TargetResult
 from tapgauge.profiles import Profile, start_points
 
 
@@ -50,11 +50,12 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
         for pred in per_profile
     ]
     targets = list(sr.targets)
+    ids = [p.id for p in profiles]
     for row, k in enumerate(scored):
-        targets[k] = replace(targets[k], difficulty=tuple(
-            Difficulty(profile=p.id, width=w[row], distance=d[row], id_bits=i[row], time_ms=t[row],
-                       hit=None if h[row] != h[row] else h[row])
-            for p, (w, d, i, t, h) in zip(profiles, columns)
+        t = targets[k]  # built directly: dataclasses.replace costs more than the rest of this loop
+        targets[k] = TargetResult(t.target, t.status, t.reason, t.size_unit, t.size_mm, t.findings, t.notes, tuple(
+            Difficulty(pid, w[row], d[row], i[row], ms[row], None if h[row] != h[row] else h[row])
+            for pid, (w, d, i, ms, h) in zip(ids, columns)
         ))
     return replace(sr, targets=tuple(targets), start=(start, round(float(start_unit[0]), 2), round(float(start_unit[1]), 2)),
                    reach_unit="mm" if unit == "mm" else device.unit)

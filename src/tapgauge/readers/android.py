@@ -19,7 +19,7 @@ _BOUNDS = re.compile(r"^\s*\[(-?\d+),(-?\d+)\]\[(-?\d+),(-?\d+)\]\s*$")
 _TRUE = "true"
 # Scrolling containers that move sideways; every other scrollable scrolls vertically.
 _HORIZONTAL_HINTS = ("HorizontalScrollView", "ViewPager", "TabLayout", "HorizontalGridView")
-TARGET_FLAGS = ("clickable", "long-clickable", "checkable")
+_FAR = 1_000_000  # pixels: no screen is this large; beyond it the numbers are corrupt
 
 
 def _int_attr(el: etree._Element, name: str, path: Path) -> int:
@@ -43,10 +43,10 @@ def _bounds(el: etree._Element, path: Path) -> Box:
     m = _BOUNDS.match(raw)
     if not m:
         raise InputError(path, f"bounds={raw!r} is not of the form \"[left,top][right,bottom]\"", el.sourceline)
-    l, t, r, b = (int(v) for v in m.groups())
+    l, t, r, b = map(int, m.groups())
     if r < l or b < t:
         raise InputError(path, f"bounds={raw!r} has right < left or bottom < top", el.sourceline)
-    if max(abs(l), abs(t), abs(r), abs(b)) > 1_000_000:
+    if not (-_FAR <= l <= _FAR and -_FAR <= t <= _FAR and -_FAR <= r <= _FAR and -_FAR <= b <= _FAR):
         raise InputError(path, f"bounds={raw!r} is outside any plausible screen", el.sourceline)
     return (l, t, r, b)
 
@@ -81,11 +81,12 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
 
     def walk(el: etree._Element, scrollers: tuple[tuple[Box, str], ...], shown: bool) -> None:
         nonlocal paint
+        if not len(el):
+            return
         kids = [k for k in el if isinstance(k.tag, str)]
-        # Children paint in drawing order when the dump gives it, else document order.
-        order = sorted(range(len(kids)), key=lambda p: _drawing_key(kids[p], p))
-        for p in order:
-            child = kids[p]
+        if len(kids) > 1:  # children paint in drawing order when the dump gives it, else document order
+            kids = [kids[p] for p in sorted(range(len(kids)), key=lambda p: _drawing_key(kids[p], p))]
+        for child in kids:
             if not _is_node(child):
                 walk(child, scrollers, shown)  # a container such as <window> or <display>
                 continue
@@ -93,7 +94,8 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
             extent[0], extent[1] = max(extent[0], box[2]), max(extent[1], box[3])
             paint += 1
             visible = shown and child.get("visible-to-user", _TRUE) == _TRUE
-            if any(child.get(flag) == _TRUE for flag in TARGET_FLAGS):
+            get = child.get  # a target is anything that takes a tap, a long press or a check
+            if get("clickable") == _TRUE or get("long-clickable") == _TRUE or get("checkable") == _TRUE:
                 targets.append((doc_index[child], {
                     "bounds": box,
                     "cls": child.get("class") or child.tag,

@@ -18,7 +18,7 @@ import orjson
 from tapgauge import __version__
 from tapgauge.identity import target_keys
 from tapgauge.profiles import Profile
-from tapgauge.model import STATUSES, InputError, RuleSet, ScreenResult, Severity, TargetResult
+from tapgauge.model import STATUSES, Finding, InputError, RuleSet, ScreenResult, Severity, TargetResult
 from tapgauge.waivers import Waivers, outcomes, waiver_records
 
 REPORT_FORMAT = "tapgauge-report"
@@ -56,6 +56,15 @@ def profile_record(p: Profile) -> dict[str, Any]:
             "spread_source": p.spread_source, "path": p.path}
 
 
+_LABEL = {s: s.label for s in Severity}  # the enum's property is slow in a per-finding loop
+
+
+def _finding_record(f: Finding) -> dict[str, Any]:
+    return {"rule": f.rule_id, "severity": _LABEL[f.severity], "measured": f.measured, "required": f.required,
+            "unit": f.unit, "message": f.message,
+            "waiver": None if f.waiver is None else {"reason": f.waiver[0], "author": f.waiver[1], "expires": f.waiver[2]}}
+
+
 def target_record(tr: TargetResult, key: str) -> dict[str, Any]:
     t = tr.target
     return {
@@ -71,12 +80,7 @@ def target_record(tr: TargetResult, key: str) -> dict[str, Any]:
         "size_mm": None if tr.size_mm is None else {"width": tr.size_mm[0], "height": tr.size_mm[1]},
         "status": tr.status,
         "reason": tr.reason,
-        "findings": [
-            {"rule": f.rule_id, "severity": f.severity.label, "measured": f.measured, "required": f.required,
-             "unit": f.unit, "message": f.message,
-             "waiver": None if f.waiver is None else {"reason": f.waiver[0], "author": f.waiver[1], "expires": f.waiver[2]}}
-            for f in tr.findings
-        ],
+        "findings": [_finding_record(f) for f in tr.findings],
         "notes": list(tr.notes),
         "difficulty": [
             {"profile": d.profile, "width": d.width, "distance": d.distance, "id_bits": d.id_bits,
