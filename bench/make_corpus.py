@@ -1,8 +1,11 @@
 """Generate synthetic Android window dumps for benchmarks (invented content only).
 
-Usage: python bench/make_corpus.py OUT_DIR --screens N --targets T [--seed S]
+Usage: python bench/make_corpus.py OUT_DIR --screens N --targets T [--filler F] [--seed S]
 Each screen is a grid of small clickable cells with some jitter, so spacing and
-overlap checks have real work to do, plus a device sidecar for the folder.
+overlap checks have real work to do, plus a device sidecar for the folder. By
+default every node is a target (the worst case for the ratio to the parse); with
+--filler F each cell also holds F non-clickable children (an icon and a label, say),
+as real window dumps do.
 """
 
 from __future__ import annotations
@@ -14,7 +17,7 @@ from pathlib import Path
 DEVICE = "Physical density: 440\nPhysical size: 1080x2340\ndensity 440, 409.4 x 411.9 dpi\n"
 
 
-def dump(targets: int, rng: random.Random) -> str:
+def dump(targets: int, rng: random.Random, filler: int = 0) -> str:
     cols = max(1, int(targets ** 0.5))
     rows = -(-targets // cols)
     cw, ch = 1080 / cols, 2340 * max(1, rows / cols) / rows
@@ -26,12 +29,21 @@ def dump(targets: int, rng: random.Random) -> str:
         y0 = int(r * ch + rng.uniform(0, ch * 0.2))
         w = max(2, int(cw * rng.uniform(0.5, 1.05)))
         h = max(2, int(ch * rng.uniform(0.5, 1.05)))
-        lines.append(
-            f'<node index="{k}" text="Item {k}" resource-id="demo:id/cell" class="android.widget.Button" '
-            f'package="demo" content-desc="" checkable="false" checked="false" clickable="true" enabled="true" '
-            f'focusable="true" focused="false" scrollable="false" long-clickable="false" password="false" '
-            f'selected="false" bounds="[{x0},{y0}][{x0 + w},{y0 + h}]" />'
-        )
+        cell = (f'<node index="{k}" text="Item {k}" resource-id="demo:id/cell" class="android.widget.Button" '
+                f'package="demo" content-desc="" checkable="false" checked="false" clickable="true" enabled="true" '
+                f'focusable="true" focused="false" scrollable="false" long-clickable="false" password="false" '
+                f'selected="false" bounds="[{x0},{y0}][{x0 + w},{y0 + h}]"')
+        if not filler:
+            lines.append(cell + " />")
+            continue
+        lines.append(cell + ">")
+        for f in range(filler):
+            lines.append(
+                f'<node index="{f}" text="" resource-id="demo:id/part{f}" class="android.widget.TextView" '
+                f'package="demo" content-desc="" checkable="false" checked="false" clickable="false" enabled="true" '
+                f'focusable="false" focused="false" scrollable="false" long-clickable="false" password="false" '
+                f'selected="false" bounds="[{x0 + 2},{y0 + 2}][{x0 + w - 2},{y0 + h - 2}]" />')
+        lines.append("</node>")
     lines += ["</node>", "</hierarchy>"]
     return "\n".join(lines) + "\n"
 
@@ -41,13 +53,18 @@ def main() -> None:
     ap.add_argument("out", type=Path)
     ap.add_argument("--screens", type=int, default=1)
     ap.add_argument("--targets", type=int, default=200)
+    ap.add_argument("--filler", type=int, default=0, help="non-clickable children per target")
     ap.add_argument("--seed", type=int, default=1)
     a = ap.parse_args()
     a.out.mkdir(parents=True, exist_ok=True)
     rng = random.Random(a.seed)
     (a.out / "device.txt").write_text(DEVICE)
     for s in range(a.screens):
-        (a.out / f"screen_{s:05d}.xml").write_text(dump(a.targets, rng))
+        sub = a.out / f"part_{s // 1000:03d}" if a.screens > 1000 else a.out  # folders of 1,000, as exports come
+        if not (sub / "device.txt").exists():
+            sub.mkdir(exist_ok=True)
+            (sub / "device.txt").write_text(DEVICE)
+        (sub / f"screen_{s:06d}.xml").write_text(dump(a.targets, rng, a.filler))
 
 
 if __name__ == "__main__":

@@ -1,67 +1,209 @@
-"""Benchmark: tapgauge against the parsing floor, side by side in one process.
+"""Benchmark: tapgauge against the parsing floor, side by side in one run.
 
-Usage: python bench/run_bench.py [--targets 200 1000 5000] [--screens 20] [--repeat 5]
-For each size it generates a corpus, then times (median of --repeat runs):
-  floor:    lxml parsing the same files and doing nothing else;
-  tapgauge: the whole pipeline (read, device, measure, check, JSON report records).
-It prints screens per second and the ratio to the floor. No timing is asserted anywhere.
+Usage:
+  python bench/run_bench.py targets [--sizes 100 200 1000 10000] [--screens 20] [--repeat 3] [--filler 0]
+  python bench/run_bench.py screens [--counts 100 1000 10000 100000] [--targets 50] [--jobs 2] [--work DIR]
+
+targets: one process, one core. For each size a corpus is generated, then the floor
+  (lxml parsing the same files and nothing else) and tapgauge (the whole pipeline and
+  the JSON report, written to a null stream) are timed alternately, best of
+  --repeat (this shared machine's timings are noisy; the minimum is the steadiest). The checks alone (measure + rules, on screens already read) show how the
+  geometry grows with targets per screen.
+screens: whole processes, as a pipeline runs them. For each count, the floor (lxml
+  parsing every file in --jobs processes) and `tapgauge check DIR -f json -o FILE
+  --jobs N` run one after the other on the same corpus; wall time, and peak memory
+  of the whole process tree (the parent plus its workers, sampled from /proc).
+
+Prints Markdown tables. No timing is asserted anywhere; speed is a ratio to the floor.
 """
 
 from __future__ import annotations
 
 import argparse
-import tempfile
-from pathlib import Path
-from subprocess import run
+import io
+import math
+import os
+import subprocess
 import sys
+import tempfile
+import threading
+import time
+from multiprocessing import Pool
+from pathlib import Path
 
 from lxml import etree
 
 from timing import median_seconds
 
-from tapgauge.pipeline import Settings, run_check
-from tapgauge.profiles import DEFAULT_PROFILES, select_profiles
-from tapgauge.score import Scoring
-from tapgauge.report.records import build_report
+from tapgauge.checks import check_screen
+from tapgauge.device import resolve_device
+from tapgauge.measure import measure
 from tapgauge.model import Severity
+from tapgauge.pipeline import Settings, iter_results, record_one
+from tapgauge.profiles import DEFAULT_PROFILES, select_profiles
+from tapgauge.readers import discover, read_screens
+from tapgauge.report.json_writer import write_json
+from tapgauge.report.records import Report
 from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
+from tapgauge.score import Scoring
 
 HERE = Path(__file__).resolve().parent
 
 
-def floor(files: list[Path]) -> None:
+def settings() -> Settings:
+    """What `tapgauge check` does by default: the default rule sets and profiles."""
+    return Settings(tuple(select_rulesets(list(DEFAULT_RULESETS))),
+                    scoring=Scoring(tuple(select_profiles(list(DEFAULT_PROFILES)))))
+
+
+def make_corpus(folder: Path, screens: int, targets: int, filler: int = 0) -> list[Path]:
+    subprocess.run([sys.executable, str(HERE / "make_corpus.py"), str(folder), "--screens", str(screens),
+                    "--targets", str(targets), "--filler", str(filler)], check=True)
+    return discover([folder])[0]
+
+
+def parse_all(files: list[Path]) -> None:
     for f in files:
         etree.fromstring(f.read_bytes())
 
 
-def pipeline(folder: Path, rulesets: list) -> None:
-    result = run_check([folder], settings(rulesets))
-    build_report(list(result.screens), list(result.errors), rulesets, Severity.ERROR)
+def tapgauge_report(folder: Path, st: Settings) -> None:
+    report = Report(iter_results([folder], st, 1, work=record_one), list(st.rulesets), Severity.ERROR,
+                    list(st.scoring.profiles))
+    write_json(report, io.StringIO())
 
 
-def settings(rulesets: list) -> Settings:  # type: ignore[type-arg]
-    """What `tapgauge check` does by default: the default rule sets and profiles."""
-    return Settings(tuple(rulesets), scoring=Scoring(tuple(select_profiles(list(DEFAULT_PROFILES)))))
+def checks_only(screens: list, st: Settings) -> None:  # type: ignore[type-arg]
+    for screen, device in screens:
+        check_screen(measure(screen, device), list(st.rulesets), False)
+
+
+def bench_targets(sizes: list[int], n_screens: int, repeat: int, filler: int) -> None:
+    st = settings()
+    print(f"Targets per screen ({n_screens} screens each, one core; filler nodes per target: {filler})\n")
+    print("| targets/screen | lxml floor ms/screen | tapgauge ms/screen | screens/s | ratio to floor "
+          "| checks ms/screen | checks per target / log2 n, us |")
+    print("|---:|---:|---:|---:|---:|---:|---:|")
+    for n in sizes:
+        with tempfile.TemporaryDirectory() as tmp:
+            folder = Path(tmp)
+            files = make_corpus(folder, n_screens, n, filler)
+            read = [s for f in files for s in read_screens(f, st.read)]
+            devices = [(s, resolve_device(s, st.flags, *s.hints, st.config.for_path(s.path))) for s in read]
+            floor, full, checks = [], [], []
+            tapgauge_report(folder, st)  # warm caches
+            for _ in range(repeat):  # alternate, so both see the same machine
+                floor.append(median_seconds(lambda: parse_all(files), 1, warmup=0))
+                full.append(median_seconds(lambda: tapgauge_report(folder, st), 1, warmup=0))
+                checks.append(median_seconds(lambda: checks_only(devices, st), 1, warmup=0))
+            f, t, c = (min(v) / n_screens for v in (floor, full, checks))  # the least-disturbed run
+            print(f"| {n} | {f * 1e3:.2f} | {t * 1e3:.2f} | {1 / t:.0f} | {t / f:.1f}x | {c * 1e3:.2f} "
+                  f"| {c / n / math.log2(n) * 1e6:.2f} |")
+
+
+def _floor_worker(files: list[str]) -> int:
+    for f in files:
+        etree.fromstring(Path(f).read_bytes())
+    return len(files)
+
+
+def floor_processes(files: list[Path], jobs: int) -> None:
+    chunks = [[str(f) for f in files[k::jobs]] for k in range(jobs)]
+    with Pool(jobs) as pool:
+        pool.map(_floor_worker, chunks)
+
+
+def _tree_rss_kb(root: int) -> int:
+    """Resident memory of a process and all its descendants (Linux /proc)."""
+    parents: dict[int, int] = {}
+    for entry in os.listdir("/proc"):
+        if entry.isdigit():
+            try:
+                with open(f"/proc/{entry}/stat") as fh:
+                    parents[int(entry)] = int(fh.read().rsplit(")", 1)[1].split()[1])
+            except (OSError, IndexError, ValueError):
+                continue
+    tree, grew = {root}, True
+    while grew:
+        more = {p for p, pp in parents.items() if pp in tree} - tree
+        grew = bool(more)
+        tree |= more
+    total = 0
+    for pid in tree:
+        try:
+            with open(f"/proc/{pid}/status") as fh:
+                total += next((int(line.split()[1]) for line in fh if line.startswith("VmRSS:")), 0)
+        except OSError:
+            continue
+    return total
+
+
+def run_measured(cmd: list[str]) -> tuple[float, int]:
+    """Wall seconds and peak tree memory (KB, sampled every 50 ms) of a command."""
+    t0 = time.perf_counter()
+    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL)
+    peak = [0]
+
+    def sample() -> None:
+        while proc.poll() is None:
+            peak[0] = max(peak[0], _tree_rss_kb(proc.pid))
+            time.sleep(0.05)
+
+    watcher = threading.Thread(target=sample, daemon=True)
+    watcher.start()
+    proc.wait()
+    elapsed = time.perf_counter() - t0
+    watcher.join()
+    if proc.returncode not in (0, 1):
+        raise SystemExit(f"{' '.join(cmd)} failed with exit {proc.returncode}")
+    return elapsed, peak[0]
+
+
+def bench_screens(counts: list[int], targets: int, jobs: int, work: Path | None) -> None:
+    print(f"Screens ({targets} targets each, {jobs} processes, whole processes, JSON report to a file)\n")
+    print("| screens | lxml floor s | tapgauge s | screens/s | ratio to floor | peak memory MB "
+          "| floor peak MB | report MB |")
+    print("|---:|---:|---:|---:|---:|---:|---:|---:|")
+    with tempfile.TemporaryDirectory(dir=work) as tmp:
+        for count in counts:
+            folder = Path(tmp) / f"c{count}"
+            files = make_corpus(folder, count, targets)
+            out = Path(tmp) / "report.json"
+            floor_cmd = [sys.executable, __file__, "floor", str(folder), "--jobs", str(jobs)]
+            tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", "json", "-o", str(out),
+                       "-j", str(jobs)]
+            f, f_mem = run_measured(floor_cmd)
+            t, t_mem = run_measured(tap_cmd)
+            size = out.stat().st_size / 1e6
+            out.unlink()
+            print(f"| {count:,} | {f:.2f} | {t:.2f} | {len(files) / t:.0f} | {t / f:.1f}x | {t_mem / 1024:.0f} "
+                  f"| {f_mem / 1024:.0f} | {size:,.0f} |", flush=True)
+            subprocess.run(["rm", "-rf", str(folder)], check=True)
 
 
 def main() -> None:
     ap = argparse.ArgumentParser()
-    ap.add_argument("--targets", type=int, nargs="+", default=[200, 1000, 5000])
-    ap.add_argument("--screens", type=int, default=20)
-    ap.add_argument("--repeat", type=int, default=5)
+    sub = ap.add_subparsers(dest="mode", required=True)
+    t = sub.add_parser("targets")
+    t.add_argument("--sizes", type=int, nargs="+", default=[100, 200, 1000, 10000])
+    t.add_argument("--screens", type=int, default=20)
+    t.add_argument("--repeat", type=int, default=5)
+    t.add_argument("--filler", type=int, default=0)
+    s = sub.add_parser("screens")
+    s.add_argument("--counts", type=int, nargs="+", default=[100, 1000, 10000, 100000])
+    s.add_argument("--targets", type=int, default=50)
+    s.add_argument("--jobs", type=int, default=2)
+    s.add_argument("--work", type=Path, default=None, help="folder for the corpora (needs ~2 GB per 100,000 screens)")
+    fl = sub.add_parser("floor")  # used by `screens`: the floor as a whole process
+    fl.add_argument("folder", type=Path)
+    fl.add_argument("--jobs", type=int, default=2)
     a = ap.parse_args()
-    rulesets = select_rulesets(list(DEFAULT_RULESETS))
-    print("| targets/screen | screens | lxml floor s | tapgauge s | screens/s | ratio to floor |")
-    print("|---:|---:|---:|---:|---:|---:|")
-    for n in a.targets:
-        with tempfile.TemporaryDirectory() as tmp:
-            folder = Path(tmp)
-            run([sys.executable, str(HERE / "make_corpus.py"), tmp, "--screens", str(a.screens), "--targets", str(n)], check=True)
-            files = sorted(folder.glob("*.xml"))
-            pipeline(folder, rulesets)  # warm caches
-            f = median_seconds(lambda: floor(files), a.repeat)
-            t = median_seconds(lambda: pipeline(folder, rulesets), a.repeat)
-            print(f"| {n} | {a.screens} | {f:.4f} | {t:.4f} | {a.screens / t:.1f} | {t / f:.1f}x |")
+    if a.mode == "targets":
+        bench_targets(a.sizes, a.screens, a.repeat, a.filler)
+    elif a.mode == "screens":
+        bench_screens(a.counts, a.targets, a.jobs, a.work)
+    else:
+        floor_processes(discover([a.folder])[0], a.jobs)
 
 
 if __name__ == "__main__":

@@ -15,6 +15,7 @@ from shapely.geometry import Point, box
 from shapely.ops import unary_union
 
 from tapgauge.geometry import (
+    SMALL,
     candidate_pairs,
     covering_pairs,
     largest_free_square,
@@ -28,8 +29,8 @@ size = st.integers(min_value=1, max_value=40)
 
 
 @st.composite
-def layouts(draw: st.DrawFn, max_boxes: int = 12) -> np.ndarray:
-    n = draw(st.integers(min_value=2, max_value=max_boxes))
+def layouts(draw: st.DrawFn, max_boxes: int = 12, min_boxes: int = 2) -> np.ndarray:
+    n = draw(st.integers(min_value=min_boxes, max_value=max_boxes))
     rows = []
     for _ in range(n):
         x, y, w, h = draw(coord), draw(coord), draw(size), draw(size)
@@ -48,6 +49,18 @@ def test_candidate_pairs_find_every_pair_within_reach(boxes: np.ndarray, reach: 
         for b in range(a + 1, len(boxes)):
             if polys[a].distance(polys[b]) <= reach - 1e-9:
                 assert (a, b) in found
+
+
+@settings(max_examples=25, deadline=None)
+@given(layouts(max_boxes=140, min_boxes=SMALL + 1), st.integers(min_value=0, max_value=30))
+def test_grid_broad_phase_matches_shapely_on_larger_screens(boxes: np.ndarray, reach: int) -> None:
+    """Above SMALL boxes the uniform grid takes over from testing every pair: same oracle."""
+    i, j = candidate_pairs(boxes, reach)
+    found = set(zip(i.tolist(), j.tolist()))
+    polys = [box(*b) for b in boxes]
+    near = {(a, b) for a in range(len(boxes)) for b in range(a + 1, len(boxes))
+            if polys[a].distance(polys[b]) <= reach - 1e-9}  # oracle: shapely distance
+    assert near <= found
 
 
 @settings(max_examples=200, deadline=None)

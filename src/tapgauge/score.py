@@ -46,7 +46,7 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
     # Round whole arrays once: per-element round() dominated this stage on large batches.
     columns = [
         (np.round(pred.width, 4).tolist(), np.round(pred.distance, 4).tolist(), np.round(pred.id_bits, 4).tolist(),
-         np.round(pred.time_ms, 2).tolist(), np.round(pred.hit, 4).tolist())
+         np.round(pred.time_ms, 2).tolist(), np.round(pred.hit, 4).tolist(), np.round(1 - np.round(pred.hit, 4), 4).tolist())
         for pred in per_profile
     ]
     targets = list(sr.targets)
@@ -54,8 +54,8 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
     for row, k in enumerate(scored):
         t = targets[k]  # built directly: dataclasses.replace costs more than the rest of this loop
         targets[k] = TargetResult(t.target, t.status, t.reason, t.size_unit, t.size_mm, t.findings, t.notes, tuple(
-            Difficulty(pid, w[row], d[row], i[row], ms[row], None if h[row] != h[row] else h[row])
-            for pid, (w, d, i, ms, h) in zip(ids, columns)
+            Difficulty(pid, w[row], d[row], i[row], ms[row], *((None, None) if h[row] != h[row] else (h[row], m[row])))
+            for pid, (w, d, i, ms, h, m) in zip(ids, columns)
         ))
     return replace(sr, targets=tuple(targets), start=(start, round(float(start_unit[0]), 2), round(float(start_unit[1]), 2)),
                    reach_unit="mm" if unit == "mm" else device.unit)

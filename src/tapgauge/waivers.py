@@ -70,7 +70,7 @@ def waive_screen(sr: ScreenResult, ws: Waivers) -> tuple[ScreenResult, tuple[int
                                f"{f.rule_id} counts again")
                 findings.append(f)
             else:
-                findings.append(replace(f, waiver=(w.reason, w.author, w.expires.isoformat() if w.expires else None)))
+                findings.append(f._replace(waiver=(w.reason, w.author, w.expires.isoformat() if w.expires else None)))
         status, reason = tr.status, tr.reason
         if tr.findings and all(f.waiver for f in findings):
             status = "exempt"

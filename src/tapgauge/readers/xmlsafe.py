@@ -15,6 +15,11 @@ from tapgauge.model import InputError
 from tapgauge.textfile import read_bytes
 
 _DOCTYPE = re.compile(rb"<!DOCTYPE|<!ENTITY", re.IGNORECASE)
+# One parser per process, reused (each process reads one file at a time).
+_PARSER = etree.XMLParser(
+    resolve_entities=False, no_network=True, load_dtd=False, dtd_validation=False, huge_tree=False,
+    remove_comments=True, remove_pis=True,
+)
 
 
 def parse_xml(path: Path, data: bytes | None = None) -> etree._Element:
@@ -27,12 +32,8 @@ def parse_xml(path: Path, data: bytes | None = None) -> etree._Element:
     if m:
         line = data.count(b"\n", 0, m.start()) + 1
         raise InputError(path, "a DOCTYPE or entity declaration is not allowed in a screen file", line)
-    parser = etree.XMLParser(
-        resolve_entities=False, no_network=True, load_dtd=False, dtd_validation=False, huge_tree=False,
-        remove_comments=True, remove_pis=True,
-    )
     try:
-        return etree.fromstring(data, parser=parser)
+        return etree.fromstring(data, parser=_PARSER)
     except etree.XMLSyntaxError as exc:
         line = exc.lineno if exc.lineno else None
         msg = (exc.msg or str(exc)).split(", line ")[0]

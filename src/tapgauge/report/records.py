@@ -85,7 +85,7 @@ def target_record(tr: TargetResult, key: str) -> dict[str, Any]:
         "difficulty": [
             {"profile": d.profile, "width": d.width, "distance": d.distance, "id_bits": d.id_bits,
              "time_ms": d.time_ms, "hit_probability": d.hit,
-             "miss_probability": None if d.hit is None else round(1 - d.hit, 4)}
+             "miss_probability": d.miss}
             for d in tr.difficulty
         ],
     }
@@ -128,8 +128,11 @@ def error_record(err: InputError) -> dict[str, Any]:
     return {"path": display_path(err.path), "line": err.line, "message": err.message}
 
 
+_BY_LABEL = {s.label: s for s in Severity}
+
+
 def _blocks_exit(t: dict[str, Any], fail_level: Severity) -> bool:
-    return t["status"] == "fail" and any(Severity.parse(f["severity"]) >= fail_level and not f["waiver"]
+    return t["status"] == "fail" and any(_BY_LABEL[f["severity"]] >= fail_level and not f["waiver"]
                                          for f in t["findings"])
 
 
