@@ -5,7 +5,8 @@ Each screen is a grid of small clickable cells with some jitter, so spacing and
 overlap checks have real work to do, plus a device sidecar for the folder. By
 default every node is a target (the worst case for the ratio to the parse); with
 --filler F each cell also holds F non-clickable children (an icon and a label, say),
-as real window dumps do.
+as real window dumps do. With --tall the cells keep one size and the screen grows
+instead, so the density of targets (and neighbours per target) stays the same.
 """
 
 from __future__ import annotations
@@ -17,10 +18,15 @@ from pathlib import Path
 DEVICE = "Physical density: 440\nPhysical size: 1080x2340\ndensity 440, 409.4 x 411.9 dpi\n"
 
 
-def dump(targets: int, rng: random.Random, filler: int = 0) -> str:
-    cols = max(1, int(targets ** 0.5))
-    rows = -(-targets // cols)
-    cw, ch = 1080 / cols, 2340 * max(1, rows / cols) / rows
+def dump(targets: int, rng: random.Random, filler: int = 0, tall: bool = False) -> str:
+    if tall:  # cells of one size whatever the count: the screen grows (a long scrolling capture)
+        cols = 10
+        rows = -(-targets // cols)
+        cw, ch = 108.0, 117.0
+    else:  # one phone screen: more targets means smaller, denser cells
+        cols = max(1, int(targets ** 0.5))
+        rows = -(-targets // cols)
+        cw, ch = 1080 / cols, 2340 * max(1, rows / cols) / rows
     lines = ["<?xml version='1.0' encoding='UTF-8' standalone='yes' ?>", '<hierarchy rotation="0">',
              f'<node index="0" class="android.widget.FrameLayout" clickable="false" bounds="[0,0][1080,{int(ch * rows) + 1}]">']
     for k in range(targets):
@@ -54,6 +60,7 @@ def main() -> None:
     ap.add_argument("--screens", type=int, default=1)
     ap.add_argument("--targets", type=int, default=200)
     ap.add_argument("--filler", type=int, default=0, help="non-clickable children per target")
+    ap.add_argument("--tall", action="store_true", help="keep cell size and density; let the screen grow")
     ap.add_argument("--seed", type=int, default=1)
     a = ap.parse_args()
     a.out.mkdir(parents=True, exist_ok=True)
@@ -64,7 +71,7 @@ def main() -> None:
         if not (sub / "device.txt").exists():
             sub.mkdir(exist_ok=True)
             (sub / "device.txt").write_text(DEVICE)
-        (sub / f"screen_{s:06d}.xml").write_text(dump(a.targets, rng, a.filler))
+        (sub / f"screen_{s:06d}.xml").write_text(dump(a.targets, rng, a.filler, a.tall))
 
 
 if __name__ == "__main__":

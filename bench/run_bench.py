@@ -7,7 +7,9 @@ Usage:
 targets: one process, one core. For each size a corpus is generated, then the floor
   (lxml parsing the same files and nothing else) and tapgauge (the whole pipeline and
   the JSON report, written to a null stream) are timed alternately, best of
-  --repeat (this shared machine's timings are noisy; the minimum is the steadiest). The checks alone (measure + rules, on screens already read) show how the
+  --repeat (this shared machine's timings are noisy; the minimum is the steadiest).
+  With --tall the density of targets stays the same as they grow, which isolates
+  how the checks scale (n log n) from how many neighbours each target has. The checks alone (measure + rules, on screens already read) show how the
   geometry grows with targets per screen.
 screens: whole processes, as a pipeline runs them. For each count, the floor (lxml
   parsing every file in --jobs processes) and `tapgauge check DIR -f json -o FILE
@@ -56,9 +58,9 @@ def settings() -> Settings:
                     scoring=Scoring(tuple(select_profiles(list(DEFAULT_PROFILES)))))
 
 
-def make_corpus(folder: Path, screens: int, targets: int, filler: int = 0) -> list[Path]:
+def make_corpus(folder: Path, screens: int, targets: int, filler: int = 0, tall: bool = False) -> list[Path]:
     subprocess.run([sys.executable, str(HERE / "make_corpus.py"), str(folder), "--screens", str(screens),
-                    "--targets", str(targets), "--filler", str(filler)], check=True)
+                    "--targets", str(targets), "--filler", str(filler), *(["--tall"] if tall else [])], check=True)
     return discover([folder])[0]
 
 
@@ -78,16 +80,17 @@ def checks_only(screens: list, st: Settings) -> None:  # type: ignore[type-arg]
         check_screen(measure(screen, device), list(st.rulesets), False)
 
 
-def bench_targets(sizes: list[int], n_screens: int, repeat: int, filler: int) -> None:
+def bench_targets(sizes: list[int], n_screens: int, repeat: int, filler: int, tall: bool) -> None:
     st = settings()
-    print(f"Targets per screen ({n_screens} screens each, one core; filler nodes per target: {filler})\n")
+    layout = "a growing screen, same density" if tall else "one 1080x2340 screen, denser as targets grow"
+    print(f"Targets per screen ({n_screens} screens each, one core; {layout}; filler nodes per target: {filler})\n")
     print("| targets/screen | lxml floor ms/screen | tapgauge ms/screen | screens/s | ratio to floor "
           "| checks ms/screen | checks per target / log2 n, us |")
     print("|---:|---:|---:|---:|---:|---:|---:|")
     for n in sizes:
         with tempfile.TemporaryDirectory() as tmp:
             folder = Path(tmp)
-            files = make_corpus(folder, n_screens, n, filler)
+            files = make_corpus(folder, n_screens, n, filler, tall)
             read = [s for f in files for s in read_screens(f, st.read)]
             devices = [(s, resolve_device(s, st.flags, *s.hints, st.config.for_path(s.path))) for s in read]
             floor, full, checks = [], [], []
@@ -189,6 +192,7 @@ def main() -> None:
     t.add_argument("--screens", type=int, default=20)
     t.add_argument("--repeat", type=int, default=5)
     t.add_argument("--filler", type=int, default=0)
+    t.add_argument("--tall", action="store_true", help="same density at every size (see make_corpus.py)")
     s = sub.add_parser("screens")
     s.add_argument("--counts", type=int, nargs="+", default=[100, 1000, 10000, 100000])
     s.add_argument("--targets", type=int, default=50)
@@ -199,7 +203,7 @@ def main() -> None:
     fl.add_argument("--jobs", type=int, default=2)
     a = ap.parse_args()
     if a.mode == "targets":
-        bench_targets(a.sizes, a.screens, a.repeat, a.filler)
+        bench_targets(a.sizes, a.screens, a.repeat, a.filler, a.tall)
     elif a.mode == "screens":
         bench_screens(a.counts, a.targets, a.jobs, a.work)
     else:

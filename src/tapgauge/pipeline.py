@@ -6,10 +6,12 @@ hand back each screen's finished record, so the parent only writes and counts.
 
 from __future__ import annotations
 
+import gc
 import os
 from collections import deque
 from collections.abc import Callable, Iterator
 from concurrent.futures import Future
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TypeVar
@@ -59,9 +61,28 @@ def check_file(path: Path, settings: Settings) -> list[ScreenResult]:
     return results
 
 
+@contextmanager
+def _collector_paused() -> Iterator[None]:
+    """Pause the cyclic garbage collector while one file is checked.
+
+    A large screen makes hundreds of thousands of small objects and no reference
+    cycles, and the collector kept rescanning them: pausing it per file checks a
+    10,000-target screen 30% faster and changes nothing on small ones (measured
+    with bench/run_bench.py). Anything cyclic is collected once it runs again.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
 def _guarded(path: Path, work: Callable[[], list[T]]) -> list[T | InputError]:
     try:
-        return list(work())
+        with _collector_paused():
+            return list(work())
     except InputError as exc:
         return [exc]
     except RecursionError:
