@@ -3,7 +3,8 @@
 Usage: python bench/bench_gate.py [--screens 1000] [--targets 50]
 Generates a corpus (bench/make_corpus.py), records a baseline, then times, as whole
 processes (median of 3): `tapgauge gate` over the corpus, `tapgauge baseline`, and the
-start-up of `tapgauge --version` against a bare `python -c pass`. No timing is asserted.
+start-up of `tapgauge --version` against a bare `python -c pass`; and the peak memory of
+the baseline and gate runs. No timing is asserted.
 """
 
 from __future__ import annotations
@@ -17,6 +18,8 @@ import time
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+from run_bench import run_measured  # noqa: E402 - the shared whole-process meter
 
 
 def wall(cmd: list[str], runs: int = 3) -> float:
@@ -41,13 +44,19 @@ def main() -> None:
         subprocess.run([*exe, "baseline", str(corpus), "-o", str(base), "--force"], check=True, stdout=subprocess.DEVNULL)
         t_base = wall([*exe, "baseline", str(corpus), "-o", str(base), "--force"])
         t_gate = wall([*exe, "gate", str(corpus), "-b", str(base)])
+        _, m_base = run_measured([*exe, "baseline", str(corpus), "-o", str(base), "--force"])
+        _, m_gate = run_measured([*exe, "gate", str(corpus), "-b", str(base)])
+        size = base.stat().st_size / 1e6
         t_start = wall([*exe, "--version"], runs=5)
         t_py = wall([sys.executable, "-c", "pass"], runs=5)
-    print("| step | screens | targets/screen | median s | per screen ms |")
-    print("|---|---:|---:|---:|---:|")
-    print(f"| tapgauge baseline | {a.screens} | {a.targets} | {t_base:.2f} | {t_base / a.screens * 1000:.1f} |")
-    print(f"| tapgauge gate | {a.screens} | {a.targets} | {t_gate:.2f} | {t_gate / a.screens * 1000:.1f} |")
-    print(f"| tapgauge --version (start-up) | | | {t_start:.3f} | ratio to bare python: {t_start / t_py:.1f}x |")
+    print(f"Baseline file: {size:.1f} MB. Peak memory is the whole process tree (parent and workers).\n")
+    print("| step | screens | targets/screen | median s | per screen ms | peak memory MB |")
+    print("|---|---:|---:|---:|---:|---:|")
+    print(f"| tapgauge baseline | {a.screens} | {a.targets} | {t_base:.2f} | {t_base / a.screens * 1000:.1f} "
+          f"| {m_base / 1024:.0f} |")
+    print(f"| tapgauge gate | {a.screens} | {a.targets} | {t_gate:.2f} | {t_gate / a.screens * 1000:.1f} "
+          f"| {m_gate / 1024:.0f} |")
+    print(f"| tapgauge --version (start-up) | | | {t_start:.3f} | ratio to bare python: {t_start / t_py:.1f}x | |")
 
 
 if __name__ == "__main__":

@@ -18,11 +18,12 @@ from PIL import Image
 
 from timing import median_seconds
 
-from tapgauge.pipeline import Settings, run_check
+from tapgauge.pipeline import Settings
 from tapgauge.profiles import DEFAULT_PROFILES, select_profiles
 from tapgauge.score import Scoring
 from tapgauge.readers import read_screens
 from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
+from run_bench import tapgauge_report
 
 DEMO = Path(__file__).resolve().parent.parent / "screens_demo"
 
@@ -48,10 +49,10 @@ def main() -> None:
         ("OpenCV decode (floor), annotated picture", lambda: cv2.imread(str(voc_png))),
         ("Pillow decode, annotated picture", lambda: pil_decode(voc_png)),
         ("read VOC + picture", lambda: read_screens(voc)),
-        ("check VOC screen end to end", lambda: run_check([voc], settings(rulesets))),
+        ("check VOC screen end to end (JSON report)", lambda: tapgauge_report(voc, settings(rulesets))),
         ("OpenCV decode (floor), marked picture", lambda: cv2.imread(str(marked))),
         ("read marked screenshot (find boxes)", lambda: read_screens(marked)),
-        ("check marked screen end to end", lambda: run_check([marked], settings(rulesets))),
+        ("check marked screen end to end (JSON report)", lambda: tapgauge_report(marked, settings(rulesets))),
     ]
     results = {name: median_seconds(fn, a.repeat) for name, fn in rows}
     floor = {"annotated": results[rows[0][0]], "marked": results[rows[4][0]]}

@@ -83,6 +83,27 @@ def test_duplicates_are_matched_by_count(project: Path, capsys: pytest.CaptureFi
     assert [r["target"] for r in rec["regressions"] if r["kind"] == "new-failure"] == ["label:Water|ImageButton#2"]
 
 
+@pytest.mark.parametrize("lookahead", [1, 256])
+def test_gate_reads_the_baseline_in_any_order(project: Path, capsys: pytest.CaptureFixture[str],
+                                              monkeypatch: pytest.MonkeyPatch, lookahead: int) -> None:
+    """The baseline is read side by side with the run; its order must not change the verdict."""
+    import tapgauge.gate as gate_module
+
+    baseline(project / "b.json", capsys)
+    code, expected = gate_json([str(V2), "-b", str(project / "b.json")], capsys)
+    doc = json.loads((project / "b.json").read_text())
+    doc["screens"] = {"retired.xml": {"targets": []}, **dict(reversed(list(doc["screens"].items())))}
+    (project / "r.json").write_text(json.dumps(doc))
+    monkeypatch.setattr(gate_module, "LOOKAHEAD", lookahead)  # 1: every screen waits for its partner
+    again, got = gate_json([str(V2), "-b", str(project / "r.json")], capsys)
+    assert (again, got["regressions"], got["improvements"]) == (code, expected["regressions"], expected["improvements"])
+    assert got["gone"] == sorted(expected["gone"] + [
+        {"kind": "gone-screen", "screen": "retired.xml", "target": "", "name": "",
+         "message": "screen retired.xml is in the baseline but was not checked",
+         "fingerprint": next(g["fingerprint"] for g in got["gone"] if g["screen"] == "retired.xml")}],
+        key=lambda c: (c["screen"], c["target"], c["kind"], c["message"]))
+
+
 @pytest.mark.parametrize(("content", "expect"), [
     (None, "baseline not found"),
     ("{not json", "not valid JSON"),

@@ -132,8 +132,9 @@ def test_unreadable_file_is_an_error_for_that_file(tmp_path: Path, monkeypatch: 
     assert "Permission denied" in rep["errors"][0]["message"]
 
 
+@pytest.mark.parametrize("fmt", ["json", "md", "junit", "table"])  # streamed, and spooled (totals first)
 def test_a_full_disk_leaves_nothing_half_written(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
-                                                 capsys: pytest.CaptureFixture[str]) -> None:
+                                                 capsys: pytest.CaptureFixture[str], fmt: str) -> None:
     out = tmp_path / "out"
     out.mkdir()
     (out / "report.json").write_text("previous report")
@@ -143,7 +144,7 @@ def test_a_full_disk_leaves_nothing_half_written(tmp_path: Path, monkeypatch: py
         raise OSError(errno.ENOSPC, "No space left on device")
 
     monkeypatch.setattr(_os, "fsync", no_space)
-    code = main(["check", str(DEMO / "android"), "-f", "json", "-o", str(out / "report.json")])
+    code = main(["check", str(DEMO / "android"), "-f", fmt, "-o", str(out / "report.json")])
     assert code == 2 and "No space left" in capsys.readouterr().err
     assert [p.name for p in out.iterdir()] == ["report.json"]  # no temporary file left behind
     assert (out / "report.json").read_text() == "previous report"  # the old report is intact

@@ -327,7 +327,7 @@ def gate_cmd(
     """Fail (exit 1) only on what got worse since the baseline; report what got better."""
     from dataclasses import replace as _replace
 
-    from tapgauge.gate import gate, gate_record, load_baseline
+    from tapgauge.gate import check_baseline, gate, gate_record
     from tapgauge.report.table import write_gate_table
 
     try:
@@ -335,7 +335,7 @@ def gate_cmd(
             raise ValueError(f"unknown format {fmt!r}; expected table or json")
         if missing not in (None, "report", "fail"):
             raise ValueError(f"--missing {missing!r}: expected report or fail")
-        base = load_baseline(baseline)
+        check_baseline(baseline)
     except (InputError, ValueError) as exc:
         _err(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
@@ -347,7 +347,7 @@ def gate_cmd(
     try:
         with _progress() as tick:
             report = run.report(paths, tick)
-            worse, better, gone = gate(report, _screen_namer(paths), base, _replace(run.config.gate, **overrides))
+            worse, better, gone = gate(report, _screen_namer(paths), baseline, _replace(run.config.gate, **overrides))
     except InputError as exc:
         _err(str(exc))
         raise typer.Exit(EXIT_ERROR) from None

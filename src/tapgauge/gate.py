@@ -9,11 +9,12 @@ count: a third identical failure where the baseline had two is new.
 
 from __future__ import annotations
 
-import json
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, TextIO
+from typing import IO, Any, TextIO
+
+import ijson
 
 from tapgauge import __version__
 from tapgauge.config import GateSettings
@@ -21,7 +22,6 @@ from tapgauge.identity import fingerprint
 from tapgauge.jsontext import write_streamed
 from tapgauge.model import InputError, Severity
 from tapgauge.report.records import Report
-from tapgauge.textfile import read_text
 
 BASELINE_FORMAT = "tapgauge-baseline"
 BASELINE_VERSION = 1
@@ -91,30 +91,65 @@ def screen_ref(s: dict[str, Any]) -> str:
     return f"{s['path']}::{s['name']}" if s["name"] else s["path"]
 
 
-def load_baseline(path: Path) -> dict[str, Any]:
-    """A baseline file, checked; anything else (missing, corrupt, other version) is an error."""
+_HEADER_KEYS = ("format", "version", "project")
+
+
+def read_header(path: Path) -> dict[str, Any]:
+    """A baseline's format, version and project, read without reading its screens (normally first)."""
+    found: dict[str, Any] = {}
+    try:
+        with path.open("rb") as fh:
+            for prefix, event, value in ijson.parse(fh, use_float=True):
+                if prefix in _HEADER_KEYS and event in ("string", "number", "integer", "double", "null"):
+                    found[prefix] = value
+                    if len(found) == len(_HEADER_KEYS):
+                        break
+                elif prefix == "" and event == "start_map":
+                    continue
+                elif prefix == "" and event not in ("map_key", "end_map"):
+                    break  # not an object at all
+    except ijson.JSONError as exc:
+        if not found:
+            raise InputError(path, f"baseline is not valid JSON ({_json_error(exc)}); re-record it") from None
+    except OSError as exc:
+        raise InputError(path, f"cannot read the baseline ({exc.strerror or exc})") from None
+    return found
+
+
+def _json_error(exc: Exception) -> str:
+    return str(exc).splitlines()[0][:120] or type(exc).__name__
+
+
+def check_baseline(path: Path) -> dict[str, Any]:
+    """A baseline's header, checked before a run: missing, corrupt or another version is an error."""
     if not path.exists():
         raise InputError(path, "baseline not found; record one with `tapgauge baseline SCREENS -o FILE`")
-    try:
-        data = json.loads(read_text(path, "baseline"))
-    except json.JSONDecodeError as exc:
-        raise InputError(path, f"baseline is not valid JSON ({exc.msg}); re-record it", exc.lineno) from None
-    if not isinstance(data, dict) or data.get("format") != BASELINE_FORMAT:
+    header = read_header(path)
+    if header.get("format") != BASELINE_FORMAT:
         raise InputError(path, f"not a tapgauge baseline (expected \"format\": \"{BASELINE_FORMAT}\")")
-    if data.get("version") != BASELINE_VERSION:
-        raise InputError(path, f"baseline version {data.get('version')!r}; this tapgauge reads version "
+    if header.get("version") != BASELINE_VERSION:
+        raise InputError(path, f"baseline version {header.get('version')!r}; this tapgauge reads version "
                                f"{BASELINE_VERSION}: re-record it")
-    screens = data.get("screens")
-    if not isinstance(screens, dict) or not all(
-        isinstance(v, dict) and isinstance(v.get("targets"), list) for v in screens.values()
-    ):
+    return header
+
+
+def _checked_entry(path: Path, sid: str, entry: Any) -> dict[str, Any]:
+    if not isinstance(entry, dict) or not isinstance(entry.get("targets"), list):
         raise InputError(path, "baseline is damaged: 'screens' must map screen ids to their targets; re-record it")
-    for sid, v in screens.items():
-        for t in v["targets"]:
-            if not isinstance(t, dict) or not {"key", "status", "failing", "size", "difficulty"} <= set(t):
-                raise InputError(path, f"baseline is damaged: a target on {sid} lacks key, status, failing, size "
-                                       "or difficulty; re-record it")
-    return data
+    for t in entry["targets"]:
+        if not isinstance(t, dict) or not {"key", "status", "failing", "size", "difficulty"} <= set(t):
+            raise InputError(path, f"baseline is damaged: a target on {sid} lacks key, status, failing, size "
+                                   "or difficulty; re-record it")
+    return entry
+
+
+def baseline_screens(path: Path, fh: IO[bytes]) -> Iterator[tuple[str, dict[str, Any]]]:
+    """(screen id, entry) from a baseline file, one at a time, each checked."""
+    try:
+        for sid, entry in ijson.kvitems(fh, "screens", use_float=True):
+            yield sid, _checked_entry(path, sid, entry)
+    except ijson.JSONError as exc:
+        raise InputError(path, f"baseline is not valid JSON ({_json_error(exc)}); re-record it") from None
 
 
 def check_overwrite(path: Path, project: str) -> None:
@@ -122,10 +157,10 @@ def check_overwrite(path: Path, project: str) -> None:
     if not path.exists():
         return
     try:
-        old = json.loads(read_text(path, "baseline"))
-    except (InputError, json.JSONDecodeError):
+        old = read_header(path)
+    except InputError:
         raise InputError(path, "exists and is not a tapgauge baseline; pass --force to replace it") from None
-    if not isinstance(old, dict) or old.get("format") != BASELINE_FORMAT:
+    if old.get("format") != BASELINE_FORMAT:
         raise InputError(path, "exists and is not a tapgauge baseline; pass --force to replace it")
     if old.get("project") != project:
         raise InputError(path, f"is the baseline of project {old.get('project')!r}, not {project!r}; "
@@ -142,26 +177,59 @@ class Change:
     fingerprint: str
 
 
-def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], baseline: dict[str, Any],
-         settings: GateSettings) -> tuple[list[Change], list[Change], list[Change]]:
-    """(regressions, improvements, gone) of a report against a baseline, screen by screen as they pass.
+LOOKAHEAD = 256  # baseline screens read ahead when looking for a screen that is not next
 
-    Screens and targets that disappeared are regressions when settings.missing is
-    "fail"; otherwise they are only reported. Each baseline screen is let go once
-    compared (the baseline's "screens" are consumed), so memory falls as the run goes on.
+
+def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], path: Path,
+         settings: GateSettings) -> tuple[list[Change], list[Change], list[Change]]:
+    """(regressions, improvements, gone) of a report against the baseline at `path`, screen by screen.
+
+    The run and the baseline are read side by side: a baseline is written in run
+    order, so each screen is normally the next one in the file and memory stays
+    small. Screens out of order are held until their partner turns up (a run over
+    other folders holds more); a run screen not found within LOOKAHEAD entries is
+    held until the end. Screens and targets that disappeared are regressions when
+    settings.missing is "fail"; otherwise they are only reported.
     """
-    remaining: dict[str, Any] = baseline["screens"]
     worse: list[Change] = []
     better: list[Change] = []
     gone: list[Change] = []
-    for sid, entry in _entries(report, screen_id):
-        w, b, g = compare_screen(sid, entry, remaining.pop(sid, {"targets": []}), settings)
-        worse += w
-        better += b
-        gone += g
-    for sid in remaining:
+    waiting_run: dict[str, dict[str, Any]] = {}  # run screens whose baseline entry has not turned up yet
+    waiting_base: dict[str, dict[str, Any]] = {}  # baseline screens read ahead, not yet matched
+
+    def compare(sid: str, new: dict[str, Any], old: dict[str, Any]) -> None:
+        w, b, g = compare_screen(sid, new, old, settings)
+        worse.extend(w)
+        better.extend(b)
+        gone.extend(g)
+
+    with path.open("rb") as fh:
+        stored = baseline_screens(path, fh)
+        for sid, entry in _entries(report, screen_id):
+            if sid in waiting_base:
+                compare(sid, entry, waiting_base.pop(sid))
+                continue
+            for _, (key, old) in zip(range(LOOKAHEAD), stored):
+                if key == sid:
+                    compare(sid, entry, old)
+                    break
+                if key in waiting_run:
+                    compare(key, waiting_run.pop(key), old)
+                else:
+                    waiting_base[key] = old
+            else:
+                waiting_run[sid] = entry
+        unmatched = list(waiting_base)
+        for key, old in stored:  # the rest of the baseline
+            if key in waiting_run:
+                compare(key, waiting_run.pop(key), old)
+            else:
+                unmatched.append(key)
+    for sid in unmatched:
         gone.append(Change("gone-screen", sid, "", "", f"screen {sid} is in the baseline but was not checked",
                            fingerprint(sid, "")))
+    for sid, entry in waiting_run.items():  # new screens: every failure is new
+        compare(sid, entry, {"targets": []})
     if settings.missing == "fail":
         return worse + gone, better, []
     return worse, better, gone
