@@ -2,45 +2,37 @@
 
 Each writer takes a Report and a text stream and writes as the screens pass. The
 formats that put totals first (Markdown, HTML, JUnit) are handed a spooled report,
-whose screens are kept in a temporary file and can be read more than once.
+whose screens are kept in a temporary file and can be read more than once. A writer's
+module is imported only when its format is asked for, to keep start-up short.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
-
-from tapgauge.report.findings import write_csv, write_markdown
-from tapgauge.report.json_writer import write_json
-from tapgauge.report.junit import write_junit
-from tapgauge.report.sarif import write_sarif
-from tapgauge.report.table import write_table
+from importlib import import_module
 
 Writer = Callable[..., None]
 
-
-def write_html(report, out, width: int | None = None) -> None:  # type: ignore[no-untyped-def]
-    from tapgauge.report.html import write_html as html  # Pillow drawing only when asked
-
-    html(report, out, width)
-
-
-WRITERS: dict[str, Writer] = {
-    "table": write_table,
-    "json": write_json,
-    "sarif": write_sarif,
-    "junit": write_junit,
-    "csv": write_csv,
-    "md": write_markdown,
-    "html": write_html,
+# format -> (module, function)
+WRITERS: dict[str, tuple[str, str]] = {
+    "table": ("tapgauge.report.table", "write_table"),
+    "json": ("tapgauge.report.json_writer", "write_json"),
+    "sarif": ("tapgauge.report.sarif", "write_sarif"),
+    "junit": ("tapgauge.report.junit", "write_junit"),
+    "csv": ("tapgauge.report.findings", "write_csv"),
+    "md": ("tapgauge.report.findings", "write_markdown"),
+    "html": ("tapgauge.report.html", "write_html"),
 }
 TOTALS_FIRST = frozenset({"junit", "md", "html"})
 
 
 def writer_for(name: str) -> Writer:
     try:
-        return WRITERS[name]
+        module, function = WRITERS[name]
     except KeyError:
         raise ValueError(f"unknown format {name!r}; expected one of: {', '.join(WRITERS)}") from None
+    writer: Writer = getattr(import_module(module), function)
+    return writer
 
 
 __all__ = ["TOTALS_FIRST", "WRITERS", "writer_for"]

@@ -8,7 +8,6 @@ element carries the totals, so this writer reads a spooled report twice.
 from __future__ import annotations
 
 from typing import Any, TextIO
-from xml.sax.saxutils import quoteattr
 
 from lxml import etree
 
@@ -55,6 +54,15 @@ def _suite(s: dict[str, Any]) -> tuple[etree._Element, int, int, int]:
     return suite, s_tests, s_fail, s_skip
 
 
+_ATTR_ESCAPES = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;",
+                               "\n": "&#10;", "\r": "&#13;", "\t": "&#9;"})
+
+
+def _attr(value: str) -> str:
+    """An XML attribute value in double quotes (xml.sax.saxutils would pull in urllib at start-up)."""
+    return '"' + value.translate(_ATTR_ESCAPES) + '"'
+
+
 def _text(el: etree._Element) -> str:
     return etree.tostring(el, pretty_print=True, encoding="unicode")
 
@@ -68,7 +76,7 @@ def write_junit(report: Report, out: TextIO, width: int | None = None) -> None:
     attrs = {"name": "tapgauge", "tests": str(total + len(errors)), "failures": str(failures),
              "errors": str(len(errors)), "skipped": str(skipped)}
     out.write("<?xml version='1.0' encoding='UTF-8'?>\n<testsuites"
-              + "".join(f" {k}={quoteattr(v)}" for k, v in attrs.items()) + ">\n")
+              + "".join(f" {k}={_attr(v)}" for k, v in attrs.items()) + ">\n")
     for s in report.screens:
         out.write(_text(_suite(s)[0]))
     if errors:
