@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 from conftest import DEMO
 from tapgauge.cli import main
 from tapgauge.jsontext import dumps, write_streamed
-from tapgauge.model import InputError, Severity
+from tapgauge.model import STATUSES, InputError, Severity
 from tapgauge.report.records import Checked, Report
 
 # JSON values as our records hold them: strings (any Unicode), ints, and floats rounded
@@ -65,7 +65,8 @@ def test_streamed_document_is_the_whole_document(head: dict, items: list, tail: 
 
 def _record(path: str, statuses: list[str]) -> dict:
     return {"path": path, "name": None, "targets": [
-        {"status": s, "findings": [{"severity": "error", "waiver": None}] if s == "fail" else []} for s in statuses]}
+        {"status": s, "findings": [{"severity": "error", "waiver": None}] if s == "fail" else []} for s in statuses],
+        "summary": {"targets": len(statuses), **{s: statuses.count(s) for s in STATUSES}}}
 
 
 def test_report_counts_as_screens_pass_and_keeps_none() -> None:

@@ -25,6 +25,17 @@ def start_in_coords(sr: ScreenResult, start: str, xy: tuple[float, float] | None
     return xy[0] * k, xy[1] * k
 
 
+def _hit_and_miss(hit: np.ndarray) -> tuple[list[float | None], list[float | None]]:
+    """Hit and miss probabilities rounded to 4 decimals; None where unknown (no physical size)."""
+    h = np.round(hit, 4)
+    if np.isnan(h).all():
+        return [None] * len(h), [None] * len(h)
+    known = ~np.isnan(h)
+    hits, misses = h.tolist(), np.round(1 - h, 4).tolist()
+    return ([v if k else None for v, k in zip(hits, known.tolist())],
+            [v if k else None for v, k in zip(misses, known.tolist())])
+
+
 def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tuple[float, float] | None,
                  width_model: str = "approach") -> ScreenResult:
     if not profiles:
@@ -46,7 +57,7 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
     # Round whole arrays once: per-element round() dominated this stage on large batches.
     columns = [
         (np.round(pred.width, 4).tolist(), np.round(pred.distance, 4).tolist(), np.round(pred.id_bits, 4).tolist(),
-         np.round(pred.time_ms, 2).tolist(), np.round(pred.hit, 4).tolist(), np.round(1 - np.round(pred.hit, 4), 4).tolist())
+         np.round(pred.time_ms, 2).tolist(), *_hit_and_miss(pred.hit))
         for pred in per_profile
     ]
     targets = list(sr.targets)
@@ -54,7 +65,7 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
     for row, k in enumerate(scored):
         t = targets[k]  # built directly: dataclasses.replace costs more than the rest of this loop
         targets[k] = TargetResult(t.target, t.status, t.reason, t.size_unit, t.size_mm, t.findings, t.notes, tuple(
-            Difficulty(pid, w[row], d[row], i[row], ms[row], *((None, None) if h[row] != h[row] else (h[row], m[row])))
+            Difficulty(pid, w[row], d[row], i[row], ms[row], h[row], m[row])
             for pid, (w, d, i, ms, h, m) in zip(ids, columns)
         ))
     return replace(sr, targets=tuple(targets), start=(start, round(float(start_unit[0]), 2), round(float(start_unit[1]), 2)),

@@ -74,7 +74,7 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
         raise InputError(path, f"rotation={rotation_raw!r}; expected 0, 1, 2 or 3", root.sourceline)
     rotation = int(rotation_raw)
 
-    targets: list[tuple[int, dict[str, Any]]] = []
+    targets: list[tuple[int, tuple[Any, ...]]] = []
     doc_index = {el: k for k, el in enumerate(root.iter())}
     extent = [0, 0]
     paint = 0
@@ -96,17 +96,19 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
             visible = shown and child.get("visible-to-user", _TRUE) == _TRUE
             get = child.get  # a target is anything that takes a tap, a long press or a check
             if get("clickable") == _TRUE or get("long-clickable") == _TRUE or get("checkable") == _TRUE:
-                targets.append((doc_index[child], {
-                    "bounds": box,
-                    "cls": child.get("class") or child.tag,
-                    "label": (child.get("text") or child.get("content-desc") or "").strip(),
-                    "resource_id": child.get("resource-id") or "",
-                    "enabled": child.get("enabled", _TRUE) == _TRUE,
-                    "visible": visible,
-                    "paint_rank": paint,
-                    "scroll_ancestors": scrollers,
-                    "line": child.sourceline,
-                }))
+                # Target's fields after the ordinal, in order: bounds, cls, label, resource_id,
+                # enabled, visible, paint_rank, scroll_ancestors, line.
+                targets.append((doc_index[child], (
+                    box,
+                    get("class") or child.tag,
+                    (get("text") or get("content-desc") or "").strip(),
+                    get("resource-id") or "",
+                    get("enabled", _TRUE) == _TRUE,
+                    visible,
+                    paint,
+                    scrollers,
+                    child.sourceline,
+                )))
             inner = scrollers + ((box, _scroll_axis(child)),) if child.get("scrollable") == _TRUE else scrollers
             walk(child, inner, visible)
 
@@ -115,7 +117,7 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
         raise InputError(path, "no view nodes found; expected <node bounds=...> elements under <hierarchy>", root.sourceline)
     # Document order gives stable ordinals whatever the paint order was.
     targets.sort(key=lambda pair: pair[0])
-    numbered = tuple(Target(ordinal=k, **fields) for k, (_, fields) in enumerate(targets))
+    numbered = tuple(Target(k, *fields) for k, (_, fields) in enumerate(targets))
     width = _int_attr(root, "width", path) or extent[0]
     height = _int_attr(root, "height", path) or extent[1]
     return Screen(

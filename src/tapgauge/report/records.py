@@ -194,8 +194,8 @@ class Report:
             self._screens += 1
             for k, n in enumerate(item.waived):
                 self._matched[k] += n
+            self._statuses.update({s: rec["summary"][s] for s in STATUSES})
             for t in rec["targets"]:
-                self._statuses[t["status"]] += 1
                 if t["status"] == "fail":
                     for f in t["findings"]:
                         if not f["waiver"]:
