@@ -220,3 +220,23 @@ def test_regression_csv_with_a_bare_carriage_return(tmp_path: Path) -> None:
     p.write_bytes(b"\r0")
     with pytest.raises(InputError):
         read_screens(p)
+
+
+def test_ctrl_c_is_exit_130_and_leaves_no_file(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+                                               capsys: pytest.CaptureFixture[str]) -> None:
+    """An interrupted run must not look like findings (exit 1), print a traceback or leave a file."""
+    import tapgauge.pipeline as pipeline
+
+    calls = []
+
+    def stop_on_second(path: Path, settings: object) -> list:
+        calls.append(path)
+        if len(calls) == 2:
+            raise KeyboardInterrupt
+        return []
+
+    monkeypatch.setattr(pipeline, "record_one", stop_on_second)
+    monkeypatch.setattr("tapgauge.batch.record_one", stop_on_second)
+    code = main(["check", str(DEMO / "android"), "-j", "1", "-f", "json", "-o", str(tmp_path / "r.json")])
+    assert code == 130 and "interrupted" in capsys.readouterr().err
+    assert list(tmp_path.iterdir()) == []

@@ -6,36 +6,39 @@ Exit codes: 0 nothing at or above the fail level; 1 findings at or above it;
 
 from __future__ import annotations
 
-import datetime as dt
 import json
-import os
 import sys
-from collections.abc import Callable, Iterator
-from contextlib import contextmanager
-from dataclasses import dataclass
 from pathlib import Path
-from typing import Annotated, Optional, TextIO
+from typing import Annotated, Optional
 
 import typer
 from rich.console import Console
 from rich.table import Table
 
 from tapgauge import __version__
-from tapgauge.config import Config, load_config
-from tapgauge.device import parse_density, parse_ppi, parse_scale
-from tapgauge.model import DeviceHints, InputError, Severity
-from tapgauge.jsontext import dumps
-from tapgauge.pipeline import Settings, default_jobs, iter_results, record_one
-from tapgauge.profiles import DEFAULT_PROFILES, apply_params, parse_start, select_profiles
-from tapgauge.difficulty import WIDTH_MODELS
-from tapgauge.score import Scoring
-from tapgauge.waivers import Waivers
-from tapgauge.readers import ReadOptions
-from tapgauge.readers.classes import default_class_map, load_class_map
-from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker
+from tapgauge.batch import (
+    Discard,
+    common_device,
+    emit_record,
+    interruptible,
+    joined,
+    make_scoring,
+    overlay_observer,
+    prepare,
+    progress,
+    read_options,
+    say,
+    screen_namer,
+    write_report,
+)
+from tapgauge.config import load_config
+from tapgauge.model import InputError
+from tapgauge.pipeline import Settings
+from tapgauge.profiles import DEFAULT_PROFILES
+from tapgauge.readers.marked import DEFAULT_MARKER
 from tapgauge.report import TOTALS_FIRST, WRITERS, writer_for
 from tapgauge.report.output import atomic_text, write_atomic
-from tapgauge.report.records import EXIT_ERROR, Report
+from tapgauge.report.records import EXIT_ERROR
 from tapgauge.rulesets import DEFAULT_RULESETS, builtin_rulesets, select_rulesets
 
 app = typer.Typer(
@@ -65,10 +68,6 @@ StartOpt = Annotated[str, typer.Option("--from", help="Where reaches start: cent
 WidthModelOpt = Annotated[str, typer.Option(help="Target width for Fitts's law: approach (default), smaller or horizontal.")]
 TodayOpt = Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD); default: today.")]
 JobsOpt = Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")]
-
-
-def _err(message: str) -> None:
-    Console(stderr=True, highlight=False, soft_wrap=True).print(f"tapgauge: {message}", markup=False)
 
 
 def _version(value: bool) -> None:
@@ -123,144 +122,26 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
     try:
         writer = writer_for(fmt)
     except ValueError as exc:
-        _err(str(exc))
+        say(str(exc))
         return EXIT_ERROR
-    run = _prepare(rules, density, scale, ppi, classes, marker, fail_level, profiles, params, start, width_model,
+    run = prepare(rules, density, scale, ppi, classes, marker, fail_level, profiles, params, start, width_model,
                    today, jobs)
     if isinstance(run, int):
         return run
     overlay_failed: list[str] = []
-    with _progress() as tick:
+    with interruptible(), progress() as tick:
         report = run.report(paths, tick)
         if overlay is not None:
-            report.observe(_overlay_writer(report, overlay, overlay_failed))
+            report.observe(overlay_observer(report, overlay, overlay_failed))
         if fmt == "table" and output is None:
-            code = _write(report, output, lambda r, out: writer(
+            code = write_report(report, output, lambda r, out: writer(
                 r, out, width=width or Console().width, color=sys.stdout.isatty(), difficulty=difficulty))
         else:
-            code = _write(report, output, lambda r, out: writer(r, out, width=width), fmt in TOTALS_FIRST)
+            code = write_report(report, output, lambda r, out: writer(r, out, width=width), fmt in TOTALS_FIRST)
     if overlay_failed:
-        _err(f"{overlay}: cannot write overlay pictures: {overlay_failed[0]}")
+        say(f"{overlay}: cannot write overlay pictures: {overlay_failed[0]}")
         return EXIT_ERROR
     return code or report.exit_code
-
-
-def _overlay_writer(report: Report, folder: Path, failed: list[str]) -> Callable[[dict], None]:
-    """Draw each screen's overlay as it passes; after the first failure, say it once and stop drawing."""
-    from tapgauge.report.overlay import write_overlay  # Pillow drawing only when asked
-
-    def draw(screen: dict) -> None:
-        if failed:
-            return
-        try:
-            write_overlay(screen, report, folder)
-        except OSError as exc:
-            failed.append(str(exc.strerror or exc))
-
-    return draw
-
-
-def _write(report: Report, output: Path | None, write: Callable[[Report, TextIO], None],
-           totals_first: bool = False) -> int:
-    """Write the report as it streams, to stdout or atomically to a file; 2 if the file cannot be written."""
-    def run(out: TextIO) -> None:
-        if totals_first:
-            with report.spooled() as spool:
-                write(spool, out)
-        else:
-            write(report, out)
-
-    if output is None:
-        run(sys.stdout)
-        return 0
-    try:
-        with atomic_text(output) as fh:
-            run(fh)
-    except OSError as exc:
-        _err(f"{output}: cannot write report: {exc.strerror or exc}")
-        return EXIT_ERROR
-    return 0
-
-
-@dataclass(frozen=True)
-class _Run:
-    """A checked-and-ready run: settings from options and config; `report()` starts it."""
-
-    settings: Settings
-    config: Config
-    level: Severity
-    jobs: int
-
-    def report(self, paths: list[Path], tick: Callable[[int, int], None] | None) -> Report:
-        items = iter_results(paths, self.settings, self.jobs, tick, work=record_one)
-        return Report(items, list(self.settings.rulesets), self.level, list(self.settings.scoring.profiles),
-                      self.settings.waivers, on_error=_print_error)
-
-
-def _print_error(e: dict) -> None:
-    """Input errors always go to stderr as they happen, whatever the format; reports carry them too."""
-    where = f"{e['path']}:{e['line']}" if e["line"] else e["path"]
-    _err(f"{where}: {e['message']}")
-
-
-def _prepare(rules: str | None, density: str | None, scale: str | None, ppi: str | None,
-             classes: Path | None, marker: str | None, fail_level: str | None, profiles: str | None,
-             params: list[str], start: str, width_model: str, today: str | None,
-             jobs: int | None = None) -> _Run | int:
-    """Options and config made into a run; an exit code (after saying why) when they are bad."""
-    try:
-        if jobs is not None and jobs < 1:
-            raise ValueError(f"--jobs {jobs}: expected 1 or more worker processes")
-        config = load_config(Path.cwd())
-        level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
-        chosen = select_rulesets(rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS))
-        read = _read_options(config, classes, marker)
-        scoring = make_scoring(profiles or _joined(config.profiles), params, start, width_model)
-        waivers = Waivers(config.waivers, config.base, parse_day(today))
-        settings = Settings(tuple(chosen), _common_device(density, scale, ppi), config.devices,
-                            announce_skips=rules is not None, read=read, scoring=scoring, waivers=waivers)
-    except (InputError, ValueError) as exc:
-        _err(str(exc))
-        return EXIT_ERROR
-    return _Run(settings, config, level, jobs or default_jobs())
-
-
-@contextmanager
-def _progress() -> Iterator[Callable[[int, int], None] | None]:
-    """A progress bar on stderr when a person is watching; silent in CI and when piped."""
-    if not sys.stderr.isatty() or os.environ.get("CI"):
-        yield None
-        return
-    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
-
-    with Progress("checking", BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
-                  console=Console(stderr=True), transient=True) as bar:
-        task = bar.add_task("screens", total=None)
-
-        def tick(done: int, total: int) -> None:
-            bar.update(task, completed=done, total=total)
-
-        yield tick
-
-
-def _screen_namer(roots: list[Path]) -> Callable[[dict], str]:
-    """Stable screen ids for baselines: each screen's path relative to the folder it was found in."""
-    resolved = [(r.resolve(), r.is_dir()) for r in roots]
-
-    def screen_id(s: dict) -> str:
-        p = Path(s["path"]).resolve()
-        sid = p.name
-        for root, is_dir in resolved:
-            if is_dir and (root == p or root in p.parents):
-                sid = p.relative_to(root).as_posix()
-                break
-        return f"{sid}::{s['name']}" if s["name"] else sid
-
-    return screen_id
-
-
-class _Discard(Exception):
-    """Raised inside an atomic write to leave no file behind."""
 
 
 @app.command("baseline")
@@ -280,7 +161,7 @@ def baseline_cmd(
     """Record each target's identity, size, status and predicted difficulty, for the release gate."""
     from tapgauge.gate import check_overwrite, write_baseline
 
-    run = _prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
+    run = prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
     if isinstance(run, int):
         raise typer.Exit(run)
     config = run.config
@@ -288,19 +169,19 @@ def baseline_cmd(
     try:
         if not force:
             check_overwrite(output, project)
-        with _progress() as tick, atomic_text(output) as fh:
+        with interruptible(), progress() as tick, atomic_text(output) as fh:
             report = run.report(paths, tick)
-            screens, targets = write_baseline(fh, report, _screen_namer(paths), project)
+            screens, targets = write_baseline(fh, report, screen_namer(paths), project)
             if report.errors:
-                raise _Discard
-    except _Discard:
-        _err("not writing a baseline while screens could not be read (see above)")
+                raise Discard
+    except Discard:
+        say("not writing a baseline while screens could not be read (see above)")
         raise typer.Exit(EXIT_ERROR) from None
     except InputError as exc:
-        _err(str(exc))
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
     except OSError as exc:
-        _err(f"{output}: cannot write baseline: {exc.strerror or exc}")
+        say(f"{output}: cannot write baseline: {exc.strerror or exc}")
         raise typer.Exit(EXIT_ERROR) from None
     typer.echo(f"wrote {output}: {screens} screens, {targets} targets, project {project!r}")
 
@@ -337,62 +218,22 @@ def gate_cmd(
             raise ValueError(f"--missing {missing!r}: expected report or fail")
         check_baseline(baseline)
     except (InputError, ValueError) as exc:
-        _err(str(exc))
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    run = _prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
+    run = prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
     if isinstance(run, int):
         raise typer.Exit(run)
     overrides = {k: v for k, v in {"size_tolerance": size_tolerance, "miss_tolerance": miss_tolerance,
                                    "time_tolerance_ms": time_tolerance, "missing": missing}.items() if v is not None}
     try:
-        with _progress() as tick:
+        with interruptible(), progress() as tick:
             report = run.report(paths, tick)
-            worse, better, gone = gate(report, _screen_namer(paths), baseline, _replace(run.config.gate, **overrides))
+            worse, better, gone = gate(report, screen_namer(paths), baseline, _replace(run.config.gate, **overrides))
     except InputError as exc:
-        _err(str(exc))
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
     record = gate_record(worse, better, gone, baseline.as_posix(), len(report.errors))
-    raise typer.Exit(_emit_record(record, fmt, output, write_gate_table) or record["summary"]["exit_code"])
-
-
-def _common_device(density: str | None, scale: str | None, ppi: str | None) -> DeviceHints:
-    return DeviceHints(
-        density_dpi=parse_density(density) if density else None,
-        scale=parse_scale(scale) if scale else None,
-        xdpi=parse_ppi(ppi)[0] if ppi else None,
-        ydpi=parse_ppi(ppi)[1] if ppi else None,
-        source="command line",
-    )
-
-
-def _read_options(config: Config, classes: Path | None = None, marker: str | None = None) -> ReadOptions:
-    """Reader options from flags, else the config, else the built-in defaults."""
-    return ReadOptions(
-        classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
-        marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
-    )
-
-
-def _emit_record(record: dict, fmt: str, output: Path | None, table: Callable[..., str]) -> int:
-    """A command's record as JSON or through its table writer, to stdout or a file."""
-    if fmt == "json":
-        text = dumps(record) + "\n"
-    else:
-        text = table(record, width=Console().width if output is None else 80,
-                     color=output is None and sys.stdout.isatty())
-    return _emit(text, output)
-
-
-def _emit(text: str, output: Path | None) -> int:
-    if output is None:
-        sys.stdout.write(text)
-        return 0
-    try:
-        write_atomic(output, text)
-    except OSError as exc:
-        _err(f"{output}: cannot write report: {exc.strerror or exc}")
-        return EXIT_ERROR
-    return 0
+    raise typer.Exit(emit_record(record, fmt, output, write_gate_table) or record["summary"]["exit_code"])
 
 
 @app.command("flow")
@@ -415,13 +256,13 @@ def flow_cmd(
         if fmt not in ("table", "json"):
             raise ValueError(f"unknown format {fmt!r}; expected table or json")
         config = load_config(Path.cwd())
-        scoring = make_scoring(profiles or _joined(config.profiles), param or [], "centre", width_model)
-        record = run_flow(parse_flow(flow), list(scoring.profiles), _common_device(density, scale, ppi),
-                          config.devices, _read_options(config), width_model)
+        scoring = make_scoring(profiles or joined(config.profiles), param or [], "centre", width_model)
+        record = run_flow(parse_flow(flow), list(scoring.profiles), common_device(density, scale, ppi),
+                          config.devices, read_options(config), width_model)
     except (InputError, ValueError) as exc:
-        _err(str(exc))
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    raise typer.Exit(_emit_record(record, fmt, output, write_flow_table))
+    raise typer.Exit(emit_record(record, fmt, output, write_flow_table))
 
 
 @app.command("compare")
@@ -447,15 +288,15 @@ def compare_cmd(
             raise ValueError(f"unknown format {fmt!r}; expected table or json")
         config = load_config(Path.cwd())
         settings = Settings(
-            tuple(select_rulesets(list(config.rules or DEFAULT_RULESETS))), _common_device(density, scale, ppi),
-            config.devices, read=_read_options(config),
-            scoring=make_scoring(profiles or _joined(config.profiles), param or [], start, width_model),
+            tuple(select_rulesets(list(config.rules or DEFAULT_RULESETS))), common_device(density, scale, ppi),
+            config.devices, read=read_options(config),
+            scoring=make_scoring(profiles or joined(config.profiles), param or [], start, width_model),
         )
         record = compare(a, b, settings)
     except (InputError, ValueError) as exc:
-        _err(str(exc))
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    raise typer.Exit(_emit_record(record, fmt, output, write_compare_table))
+    raise typer.Exit(emit_record(record, fmt, output, write_compare_table))
 
 
 @app.command("calibrate")
@@ -478,7 +319,7 @@ def calibrate_cmd(
         toml = profile_toml(fit, name, trials.as_posix())
         parse_profile(toml, "the fitted profile")  # what we write must load
     except (InputError, ValueError) as exc:
-        _err(str(exc))
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
     record = fit_record(fit, trials)
     if fmt == "json":
@@ -501,7 +342,7 @@ def calibrate_cmd(
                                               f"{trials.name}: MT = {fit.intercept_ms:.1f} + {fit.slope_ms_per_bit:.1f} ID, r = {fit.r:.3f}"))
             typer.echo(f"wrote {chart}", err=fmt == "json")
     except OSError as exc:
-        _err(f"cannot write: {exc}")
+        say(f"cannot write: {exc}")
         raise typer.Exit(EXIT_ERROR) from None
 
 
@@ -513,7 +354,7 @@ def config_cmd() -> None:
     try:
         config = load_config(Path.cwd())
     except InputError as exc:
-        _err(str(exc))
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
     defaults = {"rules": DEFAULT_RULESETS, "fail_level": "error", "profiles": DEFAULT_PROFILES, "marker": DEFAULT_MARKER}
     table = Table(show_edge=False, pad_edge=False, box=None, padding=(0, 2, 0, 0))
@@ -537,10 +378,10 @@ def capture_cmd(
     try:
         written = capture(name, out, serial=serial, force=force)
     except CaptureError as exc:
-        _err(str(exc))
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
     except OSError as exc:
-        _err(f"cannot write the bundle: {exc}")
+        say(f"cannot write the bundle: {exc}")
         raise typer.Exit(EXIT_ERROR) from None
     for p in written:
         typer.echo(f"wrote {p}")
@@ -568,28 +409,6 @@ def list_rules() -> None:
             table.add_row(r.id, r.kind, threshold + extra, r.severity.label)
         console.print(table)
         console.print()
-
-
-def parse_day(text: str | None) -> dt.date:
-    if text is None:
-        return dt.date.today()
-    try:
-        return dt.date.fromisoformat(text)
-    except ValueError:
-        raise ValueError(f"--today {text!r}: expected a date such as 2027-01-31") from None
-
-
-def _joined(items: tuple[str, ...] | None) -> str | None:
-    return ",".join(items) if items else None
-
-
-def make_scoring(profiles: str | None, params: list[str], start: str, width_model: str) -> Scoring:
-    """Profiles, overrides, start point and width model from options; ValueError/InputError if bad."""
-    chosen = apply_params(select_profiles(profiles.split(",") if profiles else list(DEFAULT_PROFILES)), params)
-    name, xy = parse_start(start)
-    if width_model not in WIDTH_MODELS:
-        raise ValueError(f"width model {width_model!r}: expected one of {', '.join(WIDTH_MODELS)}")
-    return Scoring(tuple(chosen), name, xy, width_model)
 
 
 def main(argv: list[str] | None = None) -> int:
