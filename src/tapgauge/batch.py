@@ -188,6 +188,11 @@ def read_options(config: Config, classes: Path | None = None, marker: str | None
     )
 
 
+def table_or_json(fmt: str) -> None:
+    if fmt not in ("table", "json"):
+        raise ValueError(f"unknown format {fmt!r}; expected table or json")
+
+
 def emit_record(record: dict, fmt: str, output: Path | None, table: Callable[..., str]) -> int:
     """A command's record as JSON or through its table writer, to stdout or a file."""
     if fmt == "json":

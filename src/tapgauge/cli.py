@@ -29,6 +29,7 @@ from tapgauge.batch import (
     read_options,
     say,
     screen_namer,
+    table_or_json,
     write_report,
 )
 from tapgauge.config import load_config
@@ -68,6 +69,9 @@ StartOpt = Annotated[str, typer.Option("--from", help="Where reaches start: cent
 WidthModelOpt = Annotated[str, typer.Option(help="Target width for Fitts's law: approach (default), smaller or horizontal.")]
 TodayOpt = Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD); default: today.")]
 JobsOpt = Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")]
+# gate, flow and compare write one record, as a table or as JSON.
+RecordFormatOpt = Annotated[str, typer.Option("--format", "-f", help="table or json.")]
+RecordOutputOpt = Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")]
 
 
 def _version(value: bool) -> None:
@@ -190,8 +194,8 @@ def baseline_cmd(
 def gate_cmd(
     paths: Annotated[list[Path], typer.Argument(help="Screen files or folders, as recorded in the baseline.")],
     baseline: Annotated[Path, typer.Option("--baseline", "-b", help="Baseline file written by `tapgauge baseline`.")],
-    fmt: Annotated[str, typer.Option("--format", "-f", help="table or json.")] = "table",
-    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")] = None,
+    fmt: RecordFormatOpt = "table",
+    output: RecordOutputOpt = None,
     size_tolerance: Annotated[Optional[float], typer.Option(help="dp/pt a target may shrink unnoticed (default 1).")] = None,
     miss_tolerance: Annotated[Optional[float], typer.Option(help="Rise in predicted miss probability allowed (default 0.02).")] = None,
     time_tolerance: Annotated[Optional[float], typer.Option(help="Rise in predicted time allowed, ms (default 25).")] = None,
@@ -212,8 +216,7 @@ def gate_cmd(
     from tapgauge.report.table import write_gate_table
 
     try:
-        if fmt not in ("table", "json"):
-            raise ValueError(f"unknown format {fmt!r}; expected table or json")
+        table_or_json(fmt)
         if missing not in (None, "report", "fail"):
             raise ValueError(f"--missing {missing!r}: expected report or fail")
         check_baseline(baseline)
@@ -245,16 +248,15 @@ def flow_cmd(
     scale: ScaleOpt = None,
     ppi: PpiOpt = None,
     width_model: WidthModelOpt = "approach",
-    fmt: Annotated[str, typer.Option("--format", "-f", help="table or json.")] = "table",
-    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")] = None,
+    fmt: RecordFormatOpt = "table",
+    output: RecordOutputOpt = None,
 ) -> None:
     """Predict the pointing time and misses of a task: the targets it taps, in order."""
     from tapgauge.flows import parse_flow, run_flow
     from tapgauge.report.table import write_flow_table
 
     try:
-        if fmt not in ("table", "json"):
-            raise ValueError(f"unknown format {fmt!r}; expected table or json")
+        table_or_json(fmt)
         config = load_config(Path.cwd())
         scoring = make_scoring(profiles or joined(config.profiles), param or [], "centre", width_model)
         record = run_flow(parse_flow(flow), list(scoring.profiles), common_device(density, scale, ppi),
@@ -276,16 +278,15 @@ def compare_cmd(
     density: DensityOpt = None,
     scale: ScaleOpt = None,
     ppi: PpiOpt = None,
-    fmt: Annotated[str, typer.Option("--format", "-f", help="table or json.")] = "table",
-    output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")] = None,
+    fmt: RecordFormatOpt = "table",
+    output: RecordOutputOpt = None,
 ) -> None:
     """Rank two design alternatives per profile by predicted misses and time, and show which targets decide it."""
     from tapgauge.compare import compare
     from tapgauge.report.table import write_compare_table
 
     try:
-        if fmt not in ("table", "json"):
-            raise ValueError(f"unknown format {fmt!r}; expected table or json")
+        table_or_json(fmt)
         config = load_config(Path.cwd())
         settings = Settings(
             tuple(select_rulesets(list(config.rules or DEFAULT_RULESETS))), common_device(density, scale, ppi),
