@@ -6,6 +6,7 @@ from __future__ import annotations
 import errno
 import hashlib
 import json
+import os
 from pathlib import Path
 
 import pytest
@@ -240,3 +241,25 @@ def test_ctrl_c_is_exit_130_and_leaves_no_file(tmp_path: Path, monkeypatch: pyte
     code = main(["check", str(DEMO / "android"), "-j", "1", "-f", "json", "-o", str(tmp_path / "r.json")])
     assert code == 130 and "interrupted" in capsys.readouterr().err
     assert list(tmp_path.iterdir()) == []
+
+
+def _dies_on_crash_files(path: Path, settings: object) -> list:
+    """Stands in for a native library crashing on one input: the worker process dies outright."""
+    if "crash" in path.name:
+        os._exit(11)
+    return [path.name]
+
+
+def test_a_worker_that_dies_costs_only_its_own_file(tmp_path: Path) -> None:
+    from tapgauge.pipeline import iter_results
+
+    names = [f"s{k:02d}{'_crash' if k in (3, 17) else ''}.xml" for k in range(24)]
+    for name in names:
+        (tmp_path / name).write_text("<hierarchy/>")
+    out = list(iter_results([tmp_path], SETTINGS, jobs=2, work=_dies_on_crash_files))
+    assert len(out) == len(names)  # one result per file, in path order
+    for name, item in zip(sorted(names), out):
+        if "crash" in name:
+            assert isinstance(item, InputError) and item.path.endswith(name) and "stopped abruptly" in item.message
+        else:
+            assert item == name

@@ -115,30 +115,75 @@ def default_jobs() -> int:
 
 
 def _ordered(work: Callable[[Path, Settings], list[T]], files: list[Path], settings: Settings,
-             jobs: int) -> Iterator[list[T]]:
+             jobs: int) -> Iterator[list[T | InputError]]:
     """`work` over files in worker processes, results in file order, few files in flight.
 
     At most a few chunks per worker are pending at once, so a slow reader of the
     results (writing a large report) holds back the workers instead of piling up
-    finished results in memory.
+    finished results in memory. A worker that dies (a crash inside a picture or XML
+    library, or the kernel's out-of-memory killer) costs only its own file: that
+    chunk is redone one file per process, and the rest go to a fresh pool.
     """
     from concurrent.futures import ProcessPoolExecutor
+    from concurrent.futures.process import BrokenProcessPool
 
     chunk = max(1, min(16, len(files) // (jobs * 16) or 1))
-    batches = [files[i:i + chunk] for i in range(0, len(files), chunk)]
+    batches = iter([files[i:i + chunk] for i in range(0, len(files), chunk)])
     window = jobs * 3
-    with ProcessPoolExecutor(max_workers=jobs) as pool:
-        pending: deque[Future[list[list[T]]]] = deque()
-        for batch in batches:
-            pending.append(pool.submit(_work_batch, work, batch, settings))
-            if len(pending) >= window:
-                yield from pending.popleft().result()
+    pool = ProcessPoolExecutor(max_workers=jobs)
+    pending: deque[tuple[list[Path], Future[list[list[T]]] | None]] = deque()
+
+    def submit(batch: list[Path]) -> Future[list[list[T]]] | None:
+        try:
+            return pool.submit(_work_batch, work, batch, settings)
+        except BrokenProcessPool:
+            return None  # a worker has died; the batch is sent again once the pool is renewed
+
+    def top_up() -> None:
+        while len(pending) < window and (batch := next(batches, None)) is not None:
+            pending.append((batch, submit(batch)))
+
+    try:
+        top_up()
         while pending:
-            yield from pending.popleft().result()
+            batch, future = pending.popleft()
+            try:
+                if future is None:
+                    raise BrokenProcessPool
+                results: list[list[T | InputError]] = list(future.result())
+            except BrokenProcessPool:
+                results = _one_by_one(work, batch, settings)
+                again = [b for b, _ in pending]  # the broken pool took these down too
+                pending.clear()
+                pool.shutdown(wait=False, cancel_futures=True)
+                pool = ProcessPoolExecutor(max_workers=jobs)
+                pending.extend((b, submit(b)) for b in again)
+            yield from results
+            top_up()
+        pool.shutdown(wait=True)
+    finally:  # interrupted (Ctrl-C, a failed write): do not wait for work nobody will read
+        pool.shutdown(wait=False, cancel_futures=True)
 
 
 def _work_batch(work: Callable[[Path, Settings], list[T]], batch: list[Path], settings: Settings) -> list[list[T]]:
     return [work(path, settings) for path in batch]
+
+
+def _one_by_one(work: Callable[[Path, Settings], list[T]], batch: list[Path],
+                settings: Settings) -> list[list[T | InputError]]:
+    """A chunk whose worker died, redone one file per fresh process, so only the culprit is lost."""
+    from concurrent.futures import ProcessPoolExecutor
+    from concurrent.futures.process import BrokenProcessPool
+
+    out: list[list[T | InputError]] = []
+    for path in batch:
+        with ProcessPoolExecutor(max_workers=1) as solo:
+            try:
+                out.append(list(solo.submit(work, path, settings).result()))
+            except BrokenProcessPool:
+                out.append([InputError(path, "the process checking this file stopped abruptly (a crash in a "
+                                             "picture or XML library, or out of memory); the other files were checked")])
+    return out
 
 
 def iter_results(paths: list[Path], settings: Settings, jobs: int = 1,
