@@ -14,7 +14,8 @@ targets: one process, one core. For each size a corpus is generated, then the fl
 screens: whole processes, as a pipeline runs them. For each count, the floor (lxml
   parsing every file in --jobs processes) and `tapgauge check DIR -f json -o FILE
   --jobs N` run one after the other on the same corpus; wall time, and peak memory
-  of the whole process tree (the parent plus its workers, sampled from /proc).
+  of the whole process tree (the parent plus its workers: proportional set size,
+  so pages a forked worker shares with its parent count once; sampled from /proc).
 
 Prints Markdown tables. No timing is asserted anywhere; speed is a ratio to the floor.
 """
@@ -116,8 +117,12 @@ def floor_processes(files: list[Path], jobs: int) -> None:
         pool.map(_floor_worker, chunks)
 
 
-def _tree_rss_kb(root: int) -> int:
-    """Resident memory of a process and all its descendants (Linux /proc)."""
+def _tree_pss_kb(root: int) -> int:
+    """Memory of a process and all its descendants (Linux /proc), as proportional set size.
+
+    Workers are forked and share pages with their parent; PSS counts each shared page
+    once across them, where summing RSS would count it in every process.
+    """
     parents: dict[int, int] = {}
     for entry in os.listdir("/proc"):
         if entry.isdigit():
@@ -134,22 +139,22 @@ def _tree_rss_kb(root: int) -> int:
     total = 0
     for pid in tree:
         try:
-            with open(f"/proc/{pid}/status") as fh:
-                total += next((int(line.split()[1]) for line in fh if line.startswith("VmRSS:")), 0)
+            with open(f"/proc/{pid}/smaps_rollup") as fh:
+                total += next((int(line.split()[1]) for line in fh if line.startswith("Pss:")), 0)
         except OSError:
             continue
     return total
 
 
 def run_measured(cmd: list[str]) -> tuple[float, int]:
-    """Wall seconds and peak tree memory (KB, sampled every 50 ms) of a command."""
+    """Wall seconds and peak memory of the process tree (KB of PSS, sampled every 50 ms) of a command."""
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL)
     peak = [0]
 
     def sample() -> None:
         while proc.poll() is None:
-            peak[0] = max(peak[0], _tree_rss_kb(proc.pid))
+            peak[0] = max(peak[0], _tree_pss_kb(proc.pid))
             time.sleep(0.05)
 
     watcher = threading.Thread(target=sample, daemon=True)
