@@ -70,8 +70,8 @@ def _record(path: str, statuses: list[str]) -> dict:
 
 
 def test_report_counts_as_screens_pass_and_keeps_none() -> None:
-    items = iter([Checked(_record("a.xml", ["pass", "fail"])), InputError(Path("b.xml"), "broken", 3),
-                  Checked(_record("c.xml", ["pass", "unchecked"]))])
+    items = iter([Checked.of(_record("a.xml", ["pass", "fail"])), InputError(Path("b.xml"), "broken", 3),
+                  Checked.of(_record("c.xml", ["pass", "unchecked"]))])
     seen: list[str] = []
     report = Report(items, [], Severity.ERROR, on_error=lambda e: seen.append(e["path"]))
     with pytest.raises(RuntimeError):
@@ -86,7 +86,7 @@ def test_report_counts_as_screens_pass_and_keeps_none() -> None:
 
 
 def test_spooled_report_reads_its_screens_again() -> None:
-    items = iter([Checked(_record(f"s{k}.xml", ["fail"])) for k in range(3)])
+    items = iter([Checked.of(_record(f"s{k}.xml", ["fail"])) for k in range(3)])
     with Report(items, [], Severity.ERROR).spooled() as report:
         first = [s["path"] for s in report.screens]
         assert first == [s["path"] for s in report.screens] == ["s0.xml", "s1.xml", "s2.xml"]

@@ -25,6 +25,10 @@ def dumps(obj: Any) -> str:
         return json.dumps(obj, indent=2, ensure_ascii=False)
 
 
+class Raw(str):
+    """Text that is already indented JSON: written as it is, not dumped again."""
+
+
 _MARK = "\x00tapgauge: streamed list\x00"
 
 
@@ -48,7 +52,8 @@ def write_streamed(out: TextIO, document: Callable[[Any, bool], dict[str, Any]],
     n = 0
     opening, closing = "{}" if mapping else "[]"
     for item in items:
-        text = dumps(item[1]) if mapping else dumps(item)
+        value = item[1] if mapping else item
+        text = value if isinstance(value, Raw) else dumps(value)
         if mapping:
             text = dumps(str(item[0])) + ": " + text
         out.write((opening if n == 0 else ",") + pad + text.replace("\n", pad))

@@ -104,7 +104,7 @@ def record_one(path: Path, settings: Settings) -> list[Checked | InputError]:
         done = []
         for sr in check_file(path, settings):
             waived, counts = waive_screen(sr, settings.waivers)
-            done.append(Checked(screen_record(waived), counts))
+            done.append(Checked.of(screen_record(waived), counts))
         return done
 
     return _guarded(path, work)

@@ -8,4 +8,4 @@ from tapgauge.report.records import Report
 
 def write_json(report: Report, out: TextIO, width: int | None = None) -> None:
     """The report document, each screen written as it arrives (see the JSON contract in DESIGN)."""
-    write_streamed(out, report.document, report.screens)
+    write_streamed(out, report.document, report.screen_texts)

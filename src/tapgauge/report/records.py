@@ -15,6 +15,8 @@ from typing import Any
 
 import orjson
 
+from tapgauge.jsontext import Raw, dumps
+
 from tapgauge import __version__
 from tapgauge.identity import target_keys
 from tapgauge.profiles import Profile
@@ -131,17 +133,57 @@ def error_record(err: InputError) -> dict[str, Any]:
 _BY_LABEL = {s.label: s for s in Severity}
 
 
-def _blocks_exit(t: dict[str, Any], fail_level: Severity) -> bool:
-    return t["status"] == "fail" and any(_BY_LABEL[f["severity"]] >= fail_level and not f["waiver"]
-                                         for f in t["findings"])
-
-
 @dataclass(frozen=True)
-class Checked:
-    """What the pipeline hands on per screen: its record, and how many findings each waiver matched."""
+class Totals:
+    """What the report counts of one screen, so it need not read the record again."""
 
-    record: dict[str, Any]
-    waived: tuple[int, ...] = ()
+    statuses: tuple[tuple[str, int], ...]  # (status, targets), every status
+    open_findings: tuple[tuple[str, int], ...]  # (severity, unwaived findings on failing targets)
+    worst_open: int  # highest severity (Severity value) among those; 0 when none
+
+
+def screen_totals(rec: dict[str, Any]) -> Totals:
+    counts: Counter[str] = Counter()
+    worst = 0
+    for t in rec["targets"]:
+        if t["status"] == "fail":
+            for f in t["findings"]:
+                if not f["waiver"]:
+                    counts[f["severity"]] += 1
+                    worst = max(worst, _BY_LABEL[f["severity"]])
+    return Totals(tuple((s, rec["summary"][s]) for s in STATUSES), tuple(sorted(counts.items())), worst)
+
+
+class Checked:
+    """What the pipeline hands on per screen: its record as indented JSON text, its totals,
+    and how many findings each waiver matched.
+
+    A worker sends the text, not the dict: text crosses between processes far more
+    cheaply than nested dicts, and the JSON writer writes it as it is. Writers that
+    need the dict decode it (once) when they ask.
+    """
+
+    __slots__ = ("text", "totals", "waived", "_record")
+
+    def __init__(self, text: str, totals: Totals, waived: tuple[int, ...] = (),
+                 record: dict[str, Any] | None = None) -> None:
+        self.text = text
+        self.totals = totals
+        self.waived = waived
+        self._record = record
+
+    @classmethod
+    def of(cls, record: dict[str, Any], waived: tuple[int, ...] = ()) -> Checked:
+        return cls(dumps(record), screen_totals(record), waived, record)
+
+    @property
+    def record(self) -> dict[str, Any]:
+        if self._record is None:
+            self._record = orjson.loads(self.text)
+        return self._record
+
+    def __reduce__(self) -> tuple[type, tuple[str, Totals, tuple[int, ...]]]:
+        return (Checked, (self.text, self.totals, self.waived))  # the dict stays behind
 
 
 class Report:
@@ -164,6 +206,7 @@ class Report:
         self._waivers = waivers or Waivers()
         self._on_error = on_error
         self._observers: list[Callable[[dict[str, Any]], None]] = []
+        self._started = False
         self._done = False
         self._screens = 0
         self._statuses: Counter[str] = Counter()
@@ -178,11 +221,18 @@ class Report:
 
     @property
     def screens(self) -> Iterator[dict[str, Any]]:
-        if self._done:
-            raise RuntimeError("a live report's screens can be read only once; use spooled()")
-        return self._stream()
+        """Each screen's record, as a dict."""
+        return (c.record for c in self._checked())
 
-    def _stream(self) -> Iterator[dict[str, Any]]:
+    @property
+    def screen_texts(self) -> Iterator[Raw]:
+        """Each screen's record as indented JSON text, for writers that can use it as it is."""
+        return (Raw(c.text) for c in self._checked())
+
+    def _checked(self) -> Iterator[Checked]:
+        if self._started:
+            raise RuntimeError("a live report's screens can be read only once; use spooled()")
+        self._started = True
         for item in self._items:
             if isinstance(item, InputError):
                 rec = error_record(item)
@@ -190,20 +240,16 @@ class Report:
                 if self._on_error:
                     self._on_error(rec)
                 continue
-            rec = item.record
             self._screens += 1
             for k, n in enumerate(item.waived):
                 self._matched[k] += n
-            self._statuses.update({s: rec["summary"][s] for s in STATUSES})
-            for t in rec["targets"]:
-                if t["status"] == "fail":
-                    for f in t["findings"]:
-                        if not f["waiver"]:
-                            self._severities[f["severity"]] += 1
-                    self._failing = self._failing or _blocks_exit(t, self._level)
+            totals = item.totals
+            self._statuses.update(dict(totals.statuses))
+            self._severities.update(dict(totals.open_findings))
+            self._failing = self._failing or totals.worst_open >= self._level
             for fn in self._observers:
-                fn(rec)
-            yield rec
+                fn(item.record)
+            yield item
         self._done = True
 
     def _final(self) -> None:
@@ -250,10 +296,11 @@ class Report:
     def spooled(self) -> Iterator[Report]:
         """This report with its screens kept in a temporary file, to be read as often as needed."""
         with tempfile.TemporaryDirectory(prefix="tapgauge-") as tmp:
-            spool = Path(tmp) / "screens.jsonl"
+            spool = Path(tmp) / "screens.json-texts"
             with spool.open("wb") as fh:
-                for rec in self.screens:
-                    fh.write(orjson.dumps(rec) + b"\n")
+                for c in self._checked():
+                    data = c.text.encode("utf-8")
+                    fh.write(len(data).to_bytes(8, "little") + data)
             yield _Spooled(self, spool)
 
 
@@ -264,9 +311,13 @@ class _Spooled(Report):
 
     @property
     def screens(self) -> Iterator[dict[str, Any]]:
-        return self._read()
+        return (orjson.loads(text) for text in self._read())
 
-    def _read(self) -> Iterator[dict[str, Any]]:
+    @property
+    def screen_texts(self) -> Iterator[Raw]:
+        return (Raw(text.decode("utf-8")) for text in self._read())
+
+    def _read(self) -> Iterator[bytes]:
         with self._spool.open("rb") as fh:
-            for line in fh:
-                yield orjson.loads(line)
+            while size := fh.read(8):
+                yield fh.read(int.from_bytes(size, "little"))
