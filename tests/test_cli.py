@@ -193,3 +193,19 @@ def test_installed_command_runs_from_another_folder(tmp_path: Path) -> None:
         assert proc.returncode == 1, proc.stderr
         golden = json.loads(GOLDEN.read_text())
         assert json.loads(proc.stdout)["summary"] == golden["summary"]
+
+
+def test_table_in_colour_keeps_its_words_and_width(capsys: pytest.CaptureFixture[str],
+                                                   monkeypatch: pytest.MonkeyPatch) -> None:
+    """Colour is a help, never the only signal: without the escapes the same words remain, within 80 columns."""
+    import re
+    import sys
+
+    from rich.cells import cell_len
+
+    monkeypatch.setattr(sys.stdout, "isatty", lambda: True)
+    main(["check", str(DEMO / "android"), "--width", "80"])
+    out = capsys.readouterr().out
+    plain = re.sub(r"\x1b\[[0-9;]*m", "", out)
+    assert "\x1b[1;31mERROR\x1b[0m" in out and "ERROR wcag22-aa/target-size" in plain
+    assert max(cell_len(line) for line in plain.splitlines()) <= 80
