@@ -72,7 +72,7 @@ def write_report(report: Report, output: Path | None, write: Callable[[Report, T
     """Write the report as it streams, to stdout or atomically to a file; 2 if the file cannot be written."""
     def run(out: TextIO) -> None:
         if totals_first:
-            with report.spooled() as spool:
+            with report.spooled(None if output is None else output.parent) as spool:
                 write(spool, out)
         else:
             write(report, out)

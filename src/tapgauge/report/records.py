@@ -293,9 +293,13 @@ class Report:
                 "errors": self.errors if final else [], "summary": self.summary if final else {}}
 
     @contextmanager
-    def spooled(self) -> Iterator[Report]:
-        """This report with its screens kept in a temporary file, to be read as often as needed."""
-        with tempfile.TemporaryDirectory(prefix="tapgauge-") as tmp:
+    def spooled(self, folder: Path | None = None) -> Iterator[Report]:
+        """This report with its screens kept in a temporary file, to be read as often as needed.
+
+        The file goes in `folder` (beside the report being written, on the disk the user
+        chose for it) or else in the system's temporary folder; it is removed afterwards.
+        """
+        with tempfile.TemporaryDirectory(prefix=".tapgauge-", dir=folder) as tmp:
             spool = Path(tmp) / "screens.json-texts"
             with spool.open("wb") as fh:
                 for c in self._checked():
