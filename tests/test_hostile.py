@@ -263,3 +263,42 @@ def test_a_worker_that_dies_costs_only_its_own_file(tmp_path: Path) -> None:
             assert isinstance(item, InputError) and item.path.endswith(name) and "stopped abruptly" in item.message
         else:
             assert item == name
+
+
+_BASELINE: list[bytes] = []
+
+
+def _baseline_bytes(tmp: Path) -> bytes:
+    """A real baseline of the demo's first release, recorded once."""
+    if not _BASELINE:
+        out = tmp / "recorded.json"
+        assert main(["baseline", str(DEMO / "releases" / "v1"), "-o", str(out), "--force"]) == 0
+        _BASELINE.append(out.read_bytes())
+    return _BASELINE[0]
+
+
+@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(mutations, st.integers(0, 10**6))
+def test_fuzzed_baselines_never_crash_the_gate(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                               cuts: list[tuple[int, bytes]], keep: int) -> None:
+    """The gate reads baselines as a stream: damaged or truncated ones are input errors, never a crash."""
+    data = _mutate(_baseline_bytes(tmp_path), cuts)
+    path = tmp_path / "b.json"
+    path.write_bytes(data[: max(1, keep % (len(data) + 1))])
+    code = main(["gate", str(DEMO / "releases" / "v1"), "-b", str(path), "-f", "json"])
+    err = capsys.readouterr().err
+    assert code in (0, 1, 2)
+    if code == 2:
+        assert "baseline" in err or str(path) in err
+    assert "Traceback" not in err and "internal error" not in err
+
+
+def test_regression_baseline_difficulty_without_time(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Found by the baseline fuzzer: a damaged difficulty entry raised KeyError inside the gate."""
+    doc = json.loads(_baseline_bytes(tmp_path))
+    sid = next(iter(doc["screens"]))
+    target = doc["screens"][sid]["targets"][0]
+    target["difficulty"] = {name: {"tim_ms": 1.0, "miss": None} for name in target["difficulty"]}
+    (tmp_path / "b.json").write_text(json.dumps(doc))
+    assert main(["gate", str(DEMO / "releases" / "v1"), "-b", str(tmp_path / "b.json")]) == 2
+    assert "baseline is damaged" in capsys.readouterr().err

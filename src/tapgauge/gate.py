@@ -133,13 +133,36 @@ def check_baseline(path: Path) -> dict[str, Any]:
     return header
 
 
+def _is_number(v: Any) -> bool:
+    return isinstance(v, (int, float)) and not isinstance(v, bool)
+
+
+def _target_problem(t: Any) -> str:
+    """What is wrong with one baseline target entry, or "" (every field the gate reads is checked)."""
+    if not isinstance(t, dict) or not {"key", "status", "failing", "size", "difficulty"} <= set(t):
+        return "lacks key, status, failing, size or difficulty"
+    if not isinstance(t["key"], str) or not isinstance(t["status"], str) or not isinstance(t.get("name", ""), str):
+        return "has a key, status or name that is not text"
+    if not isinstance(t["failing"], list) or not all(isinstance(r, str) for r in t["failing"]):
+        return "has 'failing' that is not a list of rule ids"
+    size = t["size"]
+    if not isinstance(size, list) or len(size) != 2 or not all(_is_number(v) for v in size):
+        return "has 'size' that is not [width, height]"
+    diff = t["difficulty"]
+    if not isinstance(diff, dict) or not all(
+            isinstance(d, dict) and _is_number(d.get("time_ms")) and (d.get("miss") is None or _is_number(d["miss"]))
+            for d in diff.values()):
+        return "has 'difficulty' that is not profile -> {time_ms, miss}"
+    return ""
+
+
 def _checked_entry(path: Path, sid: str, entry: Any) -> dict[str, Any]:
     if not isinstance(entry, dict) or not isinstance(entry.get("targets"), list):
         raise InputError(path, "baseline is damaged: 'screens' must map screen ids to their targets; re-record it")
     for t in entry["targets"]:
-        if not isinstance(t, dict) or not {"key", "status", "failing", "size", "difficulty"} <= set(t):
-            raise InputError(path, f"baseline is damaged: a target on {sid} lacks key, status, failing, size "
-                                   "or difficulty; re-record it")
+        problem = _target_problem(t)
+        if problem:
+            raise InputError(path, f"baseline is damaged: a target on {sid} {problem}; re-record it")
     return entry
 
 
