@@ -302,3 +302,194 @@ def test_regression_baseline_difficulty_without_time(tmp_path: Path, capsys: pyt
     (tmp_path / "b.json").write_text(json.dumps(doc))
     assert main(["gate", str(DEMO / "releases" / "v1"), "-b", str(tmp_path / "b.json")]) == 2
     assert "baseline is damaged" in capsys.readouterr().err
+
+
+# The project's own text inputs, fuzzed the same way: rule sets, profiles, configs, flows, trial logs.
+RULESET = (Path(__file__).resolve().parent.parent / "src" / "tapgauge" / "rules" / "rulesets" / "wcag22-aa.toml").read_bytes()
+PROFILE = (Path(__file__).resolve().parent.parent / "src" / "tapgauge" / "rules" / "profiles" / "typical-adult.toml").read_bytes()
+FLOW = (DEMO / "book_a_plot.flow").read_text().replace("screen android/", f"screen {DEMO}/android/").encode()
+TRIALS = (Path(__file__).resolve().parent / "data" / "fitts1954_summary.csv").read_bytes()
+CONFIG = b"""project = "fernwick-allotments"
+rules = ["wcag22-aa", "android-guideline"]
+fail_level = "warning"
+[device]
+density = 440
+[[waivers]]
+screen = "*.xml"
+target = "label:Share plot"
+rule = "android-guideline/*"
+reason = "Equivalent control in the menu"
+author = "Review board"
+expires = 2027-03-31
+[gate]
+size_tolerance = 1.5
+"""
+
+
+def _no_crash(args: list[str], capsys: pytest.CaptureFixture[str], allowed: tuple[int, ...]) -> None:
+    code = main(args)  # an exception escaping main fails the test: that is the crash we look for
+    err = capsys.readouterr().err
+    assert code in allowed and "internal error" not in err
+
+
+@FUZZ
+@given(mutations)
+def test_fuzzed_rule_and_profile_files_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                   cuts: list[tuple[int, bytes]]) -> None:
+    (tmp_path / "r.toml").write_bytes(_mutate(RULESET, cuts))
+    (tmp_path / "p.toml").write_bytes(_mutate(PROFILE, cuts))
+    screen = str(DEMO / "android" / "plot_detail.xml")
+    _no_crash(["check", screen, "--rules", str(tmp_path / "r.toml"), "-f", "json"], capsys, (0, 1, 2))
+    _no_crash(["check", screen, "--profiles", str(tmp_path / "p.toml"), "-f", "json"], capsys, (0, 1, 2))
+
+
+@FUZZ
+@given(mutations)
+def test_fuzzed_configs_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch,
+                                    cuts: list[tuple[int, bytes]]) -> None:
+    (tmp_path / "tapgauge.toml").write_bytes(_mutate(CONFIG, cuts))
+    monkeypatch.chdir(tmp_path)
+    _no_crash(["config"], capsys, (0, 2))
+    _no_crash(["check", str(DEMO / "android" / "plot_detail.xml"), "-f", "json"], capsys, (0, 1, 2))
+
+
+@FUZZ
+@given(mutations)
+def test_fuzzed_flows_and_trial_logs_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                 cuts: list[tuple[int, bytes]]) -> None:
+    (tmp_path / "f.flow").write_bytes(_mutate(FLOW, cuts))
+    (tmp_path / "t.csv").write_bytes(_mutate(TRIALS, cuts))
+    _no_crash(["flow", str(tmp_path / "f.flow"), "-f", "json"], capsys, (0, 2))
+    _no_crash(["calibrate", str(tmp_path / "t.csv"), "-f", "json"], capsys, (0, 2))
+
+
+# Well-formed TOML with the right keys and values of any type: type confusion, not syntax.
+_scalar = (st.text(max_size=12) | st.integers(-10**6, 10**6) | st.booleans()
+           | st.floats(allow_nan=False, allow_infinity=False, width=32))
+_value = st.recursive(_scalar, lambda inner: st.lists(inner, max_size=3)
+                      | st.dictionaries(st.sampled_from(["match", "density", "x", "id"]), inner, max_size=2), max_leaves=6)
+
+
+def _toml(v: object) -> str:
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, (int, float)):
+        return repr(v)
+    if isinstance(v, str):
+        return json.dumps(v)
+    if isinstance(v, list):
+        return "[" + ", ".join(_toml(x) for x in v) + "]"
+    assert isinstance(v, dict)
+    return "{" + ", ".join(f"{json.dumps(k)} = {_toml(x)}" for k, x in v.items()) + "}"
+
+
+_CONFIG_KEYS = {
+    "": ["project", "rules", "fail_level", "profiles", "marker", "classes"],
+    "device": ["density", "scale", "ppi", "xdpi", "ydpi"],
+    "gate": ["size_tolerance", "miss_tolerance", "time_tolerance_ms", "missing"],
+    "waivers": ["screen", "target", "rule", "reason", "author", "expires"],
+    "devices": ["match", "density", "scale", "ppi"],
+}
+
+
+@st.composite
+def typed_configs(draw: st.DrawFn) -> str:
+    lines = [f"{k} = {_toml(draw(_value))}" for k in draw(st.lists(st.sampled_from(_CONFIG_KEYS['']), unique=True))]
+    for table in ("device", "gate"):
+        if draw(st.booleans()):
+            lines.append(f"[{table}]")
+            lines += [f"{k} = {_toml(draw(_value))}" for k in draw(st.lists(st.sampled_from(_CONFIG_KEYS[table]), unique=True))]
+    for array in ("waivers", "devices"):
+        for _ in range(draw(st.integers(0, 2))):
+            lines.append(f"[[{array}]]")
+            keys = draw(st.lists(st.sampled_from(_CONFIG_KEYS[array]), unique=True))
+            lines += [f"{k} = {_toml(draw(_value | st.sampled_from(['id:book', 'label:x', '*.xml', 'wcag22-aa/*'])))}"
+                      for k in keys]
+    return "\n".join(lines) + "\n"
+
+
+@FUZZ
+@given(typed_configs())
+def test_configs_with_values_of_the_wrong_type_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                            monkeypatch: pytest.MonkeyPatch, text: str) -> None:
+    (tmp_path / "tapgauge.toml").write_text(text)
+    monkeypatch.chdir(tmp_path)
+    _no_crash(["config"], capsys, (0, 2))
+    _no_crash(["check", str(DEMO / "android" / "plot_detail.xml"), "-f", "json"], capsys, (0, 1, 2))
+
+
+_RULE_KEYS = ["id", "kind", "summary", "severity", "unit", "size", "gap", "spacing_exception", "exempt_at_size",
+              "profile", "max_miss", "source", "url"]
+_GOOD_RULE_VALUES = st.sampled_from(["min-size", "min-gap", "max-miss", "dp", "pt", "mm", "error", "warning",
+                                     "typical-adult", "r1", 24, 0.1, -3, 0, True, 1e9])
+
+
+@st.composite
+def typed_rule_sets(draw: st.DrawFn) -> str:
+    head = {"id": "fuzz", "title": "t", "source": "s", "url": "https://example.invalid", "platforms": ["android"]}
+    for k in draw(st.lists(st.sampled_from(list(head)), unique=True)):
+        head[k] = draw(_value)
+    lines = ["[ruleset]"] + [f"{k} = {_toml(v)}" for k, v in head.items()]
+    for _ in range(draw(st.integers(0, 3))):
+        lines.append("[[rules]]")
+        keys = draw(st.lists(st.sampled_from(_RULE_KEYS), unique=True))
+        lines += [f"{k} = {_toml(draw(_GOOD_RULE_VALUES | _value))}" for k in keys]
+    return "\n".join(lines) + "\n"
+
+
+@FUZZ
+@given(typed_rule_sets())
+def test_rule_sets_with_values_of_the_wrong_type_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                              text: str) -> None:
+    (tmp_path / "r.toml").write_text(text)
+    _no_crash(["check", str(DEMO / "android" / "plot_detail.xml"), "--rules", str(tmp_path / "r.toml"), "-f", "json"],
+              capsys, (0, 1, 2))
+
+
+def test_regression_rule_kind_that_is_a_list(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Found by the typed rule-set fuzzer: a non-text rule kind raised TypeError (unhashable list)."""
+    (tmp_path / "r.toml").write_text('[ruleset]\nid = "x"\ntitle = "t"\nsource = "s"\nurl = "u"\nplatforms = ["android"]\n'
+                                     '[[rules]]\nkind = ["min-size"]\n')
+    assert main(["check", str(DEMO / "android" / "plot_detail.xml"), "--rules", str(tmp_path / "r.toml")]) == 2
+    assert "rule kind" in capsys.readouterr().err
+
+
+@st.composite
+def typed_profiles(draw: st.DrawFn) -> str:
+    tables = {"profile": {"id": "fuzz", "title": "t"},
+              "timing": {"intercept_ms": 27.7, "slope_ms_per_bit": 111.5, "source": "s"},
+              "spread": {"alpha": 0.0, "sigma_a_mm": 1.53, "source": "s"}}
+    lines = []
+    for name, keys in tables.items():
+        for k in draw(st.lists(st.sampled_from(list(keys)), unique=True)):
+            keys[k] = draw(_value | st.sampled_from([0, -1, 1e308, 0.5, "", "fuzz"]))
+        lines.append(f"[{name}]")
+        lines += [f"{k} = {_toml(v)}" for k, v in keys.items() if draw(st.integers(0, 9))]  # sometimes a key is left out
+    return "\n".join(lines) + "\n"
+
+
+@FUZZ
+@given(typed_profiles())
+def test_profiles_with_values_of_the_wrong_type_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                             text: str) -> None:
+    (tmp_path / "p.toml").write_text(text)
+    _no_crash(["check", str(DEMO / "android" / "plot_detail.xml"), "--profiles", str(tmp_path / "p.toml"), "-f", "json"],
+              capsys, (0, 1, 2))
+    _no_crash(["flow", str(tmp_path / "missing.flow"), "--profiles", str(tmp_path / "p.toml")], capsys, (2,))
+
+
+@pytest.mark.parametrize("args", [
+    ["--param", "typical-adult.sigma_a_mm=inf"],
+    ["--param", "*.slope_ms_per_bit=1e308"],
+])
+def test_regression_profile_numbers_that_overflow(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                  args: list[str]) -> None:
+    """Found by the typed profile fuzzer: sigma_a_mm = 1e308 overflowed the spread arithmetic (internal error)."""
+    text = (Path(__file__).resolve().parent.parent / "src" / "tapgauge" / "rules" / "profiles" / "typical-adult.toml"
+            ).read_text().replace("sigma_a_mm = 1.53", "sigma_a_mm = 1e308")
+    (tmp_path / "p.toml").write_text(text)
+    screen = str(DEMO / "android" / "plot_detail.xml")
+    assert main(["check", screen, "--profiles", str(tmp_path / "p.toml")]) == 2
+    assert "outside" in capsys.readouterr().err
+    assert main(["check", screen, *args]) == 2
+    assert "outside" in capsys.readouterr().err

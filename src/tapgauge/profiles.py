@@ -18,6 +18,18 @@ from tapgauge.choose import choose
 from tapgauge.model import InputError
 
 NUMBERS = ("intercept_ms", "slope_ms_per_bit", "alpha", "sigma_a_mm")
+# Plausibility limits, not published figures: far beyond any study, they keep a typing
+# slip (1e308 mm) from overflowing the arithmetic. Common practice for input checks.
+LIMITS = {"intercept_ms": (-10_000.0, 10_000.0), "slope_ms_per_bit": (0.0, 10_000.0),
+          "alpha": (0.0, 1.0), "sigma_a_mm": (0.0, 100.0)}
+
+
+def implausible(key: str, value: float) -> str:
+    """Why a profile number is out of range, or "" when it is fine."""
+    low, high = LIMITS[key]
+    if not low <= value <= high:
+        return f"'{key}' = {value:g} is outside {low:g} to {high:g}"
+    return ""
 _ID = re.compile(r"^[a-z0-9][a-z0-9.-]*$")
 
 
@@ -62,6 +74,9 @@ def parse_profile(text: str, origin: str) -> Profile:
             raise InputError(origin, f"'{key}' must be a number")
     if values["slope_ms_per_bit"] <= 0 or values["sigma_a_mm"] < 0 or values["alpha"] < 0:
         raise InputError(origin, "slope_ms_per_bit must be > 0; alpha and sigma_a_mm must be >= 0")
+    for key in NUMBERS:
+        if why := implausible(key, values[key]):
+            raise InputError(origin, why)
     if values["sigma_a_mm"] == 0 and values["alpha"] == 0:
         raise InputError(origin, "alpha and sigma_a_mm cannot both be 0: every touch would land exactly")
     pid = str(data["profile"]["id"])
@@ -112,6 +127,8 @@ def apply_params(profiles: list[Profile], params: list[str]) -> list[Profile]:
             raise ValueError(f"--param {raw!r}: {text!r} is not a number") from None
         if value < 0 or value != value or (key == "slope_ms_per_bit" and value == 0):
             raise ValueError(f"--param {raw!r}: must be a non-negative number (slope above 0)")
+        if why := implausible(key, value):
+            raise ValueError(f"--param {raw!r}: {why}")
         hit = [k for k, p in enumerate(out) if who in ("*", p.id)]
         if not hit:
             raise ValueError(f"--param {raw!r}: no chosen profile is called {who!r}")

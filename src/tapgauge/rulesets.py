@@ -83,8 +83,10 @@ def parse_ruleset(text: str, origin: str) -> RuleSet:
 
 
 def _parse_rule(raw: dict[str, Any], set_id: str, head: dict[str, Any], fail: Any, at: int, seen: set[str]) -> Rule:
+    if not isinstance(raw, dict):
+        raise fail("each [[rules]] entry must be a table of keys", "kind", at)
     kind_name = raw.get("kind")
-    if kind_name not in KINDS:
+    if not isinstance(kind_name, str) or kind_name not in KINDS:
         raise fail(f"rule kind {kind_name!r} is not one of: {', '.join(KINDS)}", "kind", at)
     kind = KINDS[kind_name]
     params: list[tuple[str, float | bool | str]] = []
