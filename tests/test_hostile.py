@@ -493,3 +493,19 @@ def test_regression_profile_numbers_that_overflow(tmp_path: Path, capsys: pytest
     assert "outside" in capsys.readouterr().err
     assert main(["check", screen, *args]) == 2
     assert "outside" in capsys.readouterr().err
+
+
+SIDECAR = (DEMO / "android" / "device.txt").read_bytes()
+CLASSES = b'target = ["button", "icon", "checkbox"]\nignore = ["text", "image"]\n'
+
+
+@FUZZ
+@given(mutations)
+def test_fuzzed_device_sidecars_and_class_lists_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                            cuts: list[tuple[int, bytes]]) -> None:
+    (tmp_path / "s.xml").write_bytes(ANDROID)
+    (tmp_path / "s.device.txt").write_bytes(_mutate(SIDECAR, cuts))
+    (tmp_path / "classes.toml").write_bytes(_mutate(CLASSES, cuts))
+    _no_crash(["check", str(tmp_path / "s.xml"), "-f", "json"], capsys, (0, 1, 2))
+    _no_crash(["check", str(DEMO / "annotated"), "--classes", str(tmp_path / "classes.toml"), "-f", "json"],
+              capsys, (0, 1, 2))
