@@ -27,10 +27,13 @@ BASELINE_FORMAT = "tapgauge-baseline"
 BASELINE_VERSION = 1
 
 
+_SEVERITY = {s.label: s for s in Severity}  # records carry labels; parsing each one is slow
+
+
 def _failing(t: dict[str, Any], fail_level: Severity) -> list[str]:
     if t["status"] not in ("fail", "unmeasurable"):
         return []
-    return sorted({f["rule"] for f in t["findings"] if not f["waiver"] and Severity.parse(f["severity"]) >= fail_level})
+    return sorted({f["rule"] for f in t["findings"] if not f["waiver"] and _SEVERITY[f["severity"]] >= fail_level})
 
 
 def baseline_entry(s: dict[str, Any], sid: str, level: Severity) -> dict[str, Any]:

@@ -1,6 +1,7 @@
 """Findings as plain records: the one JSON-ready form every writer consumes.
 
-Deterministic: screens sorted by path, targets in document order, no clock.
+Deterministic: screens in path order (the pipeline hands them over sorted, so they can
+be written as they arrive), targets in document order, no clock.
 """
 
 from __future__ import annotations
