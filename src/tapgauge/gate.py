@@ -20,20 +20,17 @@ from tapgauge import __version__
 from tapgauge.config import GateSettings
 from tapgauge.identity import fingerprint
 from tapgauge.jsontext import write_streamed
-from tapgauge.model import InputError, Severity
+from tapgauge.model import SEVERITY_BY_LABEL, InputError, Severity
 from tapgauge.report.records import Report
 
 BASELINE_FORMAT = "tapgauge-baseline"
 BASELINE_VERSION = 1
 
 
-_SEVERITY = {s.label: s for s in Severity}  # records carry labels; parsing each one is slow
-
-
 def _failing(t: dict[str, Any], fail_level: Severity) -> list[str]:
     if t["status"] not in ("fail", "unmeasurable"):
         return []
-    return sorted({f["rule"] for f in t["findings"] if not f["waiver"] and _SEVERITY[f["severity"]] >= fail_level})
+    return sorted({f["rule"] for f in t["findings"] if not f["waiver"] and SEVERITY_BY_LABEL[f["severity"]] >= fail_level})
 
 
 def baseline_entry(s: dict[str, Any], sid: str, level: Severity) -> dict[str, Any]:

@@ -50,6 +50,9 @@ class Severity(IntEnum):
             raise ValueError(f"unknown severity {text!r} (expected one of: {names})") from None
 
 
+SEVERITY_BY_LABEL = {s.label: s for s in Severity}  # records carry labels; parsing each one is slow
+
+
 @dataclass(frozen=True)
 class Target:
     """One node a user can tap, as the source describes it. Readers know no rules."""

@@ -21,7 +21,7 @@ from tapgauge.jsontext import Raw, dumps
 from tapgauge import __version__
 from tapgauge.identity import target_keys
 from tapgauge.profiles import Profile
-from tapgauge.model import STATUSES, Finding, InputError, RuleSet, ScreenResult, Severity, TargetResult
+from tapgauge.model import SEVERITY_BY_LABEL, STATUSES, Finding, InputError, RuleSet, ScreenResult, Severity, TargetResult
 from tapgauge.waivers import Waivers, outcomes, waiver_records
 
 REPORT_FORMAT = "tapgauge-report"
@@ -131,9 +131,6 @@ def error_record(err: InputError) -> dict[str, Any]:
     return {"path": display_path(err.path), "line": err.line, "message": err.message}
 
 
-_BY_LABEL = {s.label: s for s in Severity}
-
-
 @dataclass(frozen=True)
 class Totals:
     """What the report counts of one screen, so it need not read the record again."""
@@ -151,7 +148,7 @@ def screen_totals(rec: dict[str, Any]) -> Totals:
             for f in t["findings"]:
                 if not f["waiver"]:
                     counts[f["severity"]] += 1
-                    worst = max(worst, _BY_LABEL[f["severity"]])
+                    worst = max(worst, SEVERITY_BY_LABEL[f["severity"]])
     return Totals(tuple((s, rec["summary"][s]) for s in STATUSES), tuple(sorted(counts.items())), worst)
 
 
