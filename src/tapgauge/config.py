@@ -10,7 +10,6 @@ from __future__ import annotations
 import datetime as dt
 import fnmatch
 import re
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -19,7 +18,7 @@ from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
 from tapgauge.readers.classes import ClassMap, class_map_from
 from tapgauge.readers.marked import parse_marker
-from tapgauge.textfile import read_text
+from tapgauge.textfile import load_toml, read_text
 
 CONFIG_NAME = "tapgauge.toml"
 TOP_KEYS = ("project", "rules", "fail_level", "profiles", "marker", "device", "devices", "classes", "waivers", "gate")
@@ -102,11 +101,11 @@ def find_config(start: Path) -> tuple[Path, dict[str, Any], str] | None:
         own = folder / CONFIG_NAME
         if own.is_file():
             text = _read(own)
-            return own, _loads(own, text), text
+            return own, load_toml(text, own), text
         py = folder / "pyproject.toml"
         if py.is_file():
             text = _read(py)
-            table = _loads(py, text).get("tool", {}).get("tapgauge")
+            table = load_toml(text, py).get("tool", {}).get("tapgauge")
             if isinstance(table, dict):
                 return py, table, text
     return None
@@ -114,14 +113,6 @@ def find_config(start: Path) -> tuple[Path, dict[str, Any], str] | None:
 
 def _read(path: Path) -> str:
     return read_text(path, "config")
-
-
-def _loads(path: Path, text: str) -> dict[str, Any]:
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        m = re.search(r"line (\d+)", str(exc))
-        raise InputError(path, f"not valid TOML: {exc}", int(m.group(1)) if m else None) from None
 
 
 class _Reader:

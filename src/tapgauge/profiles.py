@@ -15,6 +15,7 @@ from importlib import resources
 from typing import Any
 
 from tapgauge.choose import choose
+from tapgauge.textfile import load_toml
 from tapgauge.model import InputError
 
 NUMBERS = ("intercept_ms", "slope_ms_per_bit", "alpha", "sigma_a_mm")
@@ -47,11 +48,7 @@ class Profile:
 
 
 def parse_profile(text: str, origin: str) -> Profile:
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        m = re.search(r"line (\d+)", str(exc))
-        raise InputError(origin, f"not valid TOML: {exc}", int(m.group(1)) if m else None) from None
+    data = load_toml(text, origin)
     shape = {"profile": {"id", "title"}, "timing": {"intercept_ms", "slope_ms_per_bit", "source"},
              "spread": {"alpha", "sigma_a_mm", "source"}}
     for table, keys in shape.items():

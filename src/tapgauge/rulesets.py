@@ -8,13 +8,13 @@ names the file, the line and the key.
 from __future__ import annotations
 
 import re
-import tomllib
 from functools import cache
 from importlib import resources
 from typing import Any
 
 from tapgauge.checks import KINDS
 from tapgauge.choose import choose
+from tapgauge.textfile import load_toml
 from tapgauge.model import InputError, Rule, RuleSet, Severity
 
 DEFAULT_RULESETS = ("wcag22-aa", "android-guideline", "apple-guideline")
@@ -37,11 +37,7 @@ def _rule_offsets(text: str) -> list[int]:
 
 def parse_ruleset(text: str, origin: str) -> RuleSet:
     """Parse and validate one rule-set document; `origin` names it in errors."""
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        m = re.search(r"line (\d+)", str(exc))
-        raise InputError(origin, f"not valid TOML: {exc}", int(m.group(1)) if m else None) from None
+    data = load_toml(text, origin)
 
     def fail(msg: str, key: str | None = None, after: int = 0) -> InputError:
         return InputError(origin, msg, _line_of(text, key, after) if key else None)

@@ -6,7 +6,10 @@ file is refused before it is read and a read failure is an InputError naming the
 
 from __future__ import annotations
 
+import re
+import tomllib
 from pathlib import Path
+from typing import Any
 
 from tapgauge.model import InputError
 
@@ -33,3 +36,12 @@ def read_text(path: Path, what: str = "file", encoding: str = "utf-8", errors: s
     except UnicodeDecodeError as exc:
         line = data.count(b"\n", 0, exc.start) + 1
         raise InputError(path, f"{what} is not UTF-8 text (byte {exc.start})", line) from None
+
+
+def load_toml(text: str, origin: Path | str) -> dict[str, Any]:
+    """A TOML document, or an InputError naming `origin` and the line TOML complained about."""
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        m = re.search(r"line (\d+)", str(exc))
+        raise InputError(origin, f"not valid TOML: {exc}", int(m.group(1)) if m else None) from None

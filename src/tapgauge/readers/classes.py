@@ -9,7 +9,7 @@ from importlib import resources
 from pathlib import Path
 
 from tapgauge.model import InputError
-from tapgauge.textfile import read_text
+from tapgauge.textfile import load_toml, read_text
 
 
 def normalise(name: str) -> str:
@@ -58,8 +58,5 @@ def default_class_map() -> ClassMap:
 
 
 def load_class_map(path: Path) -> ClassMap:
-    try:
-        table = tomllib.loads(read_text(path, "classes file"))
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(path, f"not valid TOML: {exc}") from None
+    table = load_toml(read_text(path, "classes file"), path)
     return class_map_from(table, str(path))
