@@ -122,7 +122,7 @@ def prepare(rules: str | None, density: str | None, scale: str | None, ppi: str 
         level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
         chosen = select_rulesets(rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS))
         read = read_options(config, classes, marker)
-        scoring = make_scoring(profiles or joined(config.profiles), params, start, width_model)
+        scoring = make_scoring(config, profiles, params, start, width_model)
         waivers = Waivers(config.waivers, config.base, parse_day(today))
         settings = Settings(tuple(chosen), common_device(density, scale, ppi), config.devices,
                             announce_skips=rules is not None, read=read, scoring=scoring, waivers=waivers)
@@ -224,13 +224,11 @@ def parse_day(text: str | None) -> dt.date:
         raise ValueError(f"--today {text!r}: expected a date such as 2027-01-31") from None
 
 
-def joined(items: tuple[str, ...] | None) -> str | None:
-    return ",".join(items) if items else None
-
-
-def make_scoring(profiles: str | None, params: list[str], start: str, width_model: str) -> Scoring:
-    """Profiles, overrides, start point and width model from options; ValueError/InputError if bad."""
-    chosen = apply_params(select_profiles(profiles.split(",") if profiles else list(DEFAULT_PROFILES)), params)
+def make_scoring(config: Config, profiles: str | None, params: list[str], start: str, width_model: str) -> Scoring:
+    """Profiles (the option, else the config, else the defaults), overrides, start point and width
+    model; ValueError/InputError if bad."""
+    ids = profiles.split(",") if profiles else list(config.profiles or DEFAULT_PROFILES)
+    chosen = apply_params(select_profiles(ids), params)
     name, xy = parse_start(start)
     if width_model not in WIDTH_MODELS:
         raise ValueError(f"width model {width_model!r}: expected one of {', '.join(WIDTH_MODELS)}")

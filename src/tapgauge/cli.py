@@ -21,7 +21,6 @@ from tapgauge.batch import (
     common_device,
     emit_record,
     interruptible,
-    joined,
     make_scoring,
     overlay_observer,
     prepare,
@@ -258,7 +257,7 @@ def flow_cmd(
     try:
         table_or_json(fmt)
         config = load_config(Path.cwd())
-        scoring = make_scoring(profiles or joined(config.profiles), param or [], "centre", width_model)
+        scoring = make_scoring(config, profiles, param or [], "centre", width_model)
         record = run_flow(parse_flow(flow), list(scoring.profiles), common_device(density, scale, ppi),
                           config.devices, read_options(config), width_model)
     except (InputError, ValueError) as exc:
@@ -291,7 +290,7 @@ def compare_cmd(
         settings = Settings(
             tuple(select_rulesets(list(config.rules or DEFAULT_RULESETS))), common_device(density, scale, ppi),
             config.devices, read=read_options(config),
-            scoring=make_scoring(profiles or joined(config.profiles), param or [], start, width_model),
+            scoring=make_scoring(config, profiles, param or [], start, width_model),
         )
         record = compare(a, b, settings)
     except (InputError, ValueError) as exc:
