@@ -153,26 +153,34 @@ def screen_totals(rec: dict[str, Any]) -> Totals:
 
 
 class Checked:
-    """What the pipeline hands on per screen: its record as indented JSON text, its totals,
-    and how many findings each waiver matched.
+    """What the pipeline hands on per screen: its record, its totals, and how many findings
+    each waiver matched.
 
-    A worker sends the text, not the dict: text crosses between processes far more
-    cheaply than nested dicts, and the JSON writer writes it as it is. Writers that
-    need the dict decode it (once) when they ask.
+    Between processes it travels as indented JSON text, not as nested dicts: text crosses
+    far more cheaply, and the JSON writer writes it as it is. Each form is made from the
+    other only when asked for, so a run that never needs one never pays for it.
     """
 
-    __slots__ = ("text", "totals", "waived", "_record")
+    __slots__ = ("_text", "totals", "waived", "_record")
 
-    def __init__(self, text: str, totals: Totals, waived: tuple[int, ...] = (),
+    def __init__(self, text: str | None, totals: Totals, waived: tuple[int, ...] = (),
                  record: dict[str, Any] | None = None) -> None:
-        self.text = text
+        if text is None and record is None:
+            raise ValueError("a checked screen needs its record or its text")
+        self._text = text
         self.totals = totals
         self.waived = waived
         self._record = record
 
     @classmethod
     def of(cls, record: dict[str, Any], waived: tuple[int, ...] = ()) -> Checked:
-        return cls(dumps(record), screen_totals(record), waived, record)
+        return cls(None, screen_totals(record), waived, record)
+
+    @property
+    def text(self) -> str:
+        if self._text is None:
+            self._text = dumps(self._record)
+        return self._text
 
     @property
     def record(self) -> dict[str, Any]:

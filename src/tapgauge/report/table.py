@@ -99,7 +99,7 @@ def _screen_rows(s: dict[str, Any], width: int, color: bool) -> list[str]:
             if style == "dim":  # a message: wrapped under its finding, indented
                 lines_r += [(line, style) for line in _wrap(text, rw, "  ")]
             else:  # the finding line: its severity word coloured, the rest plain
-                word, _, rest = text.partition(" ")
+                word = text.partition(" ")[0]
                 wrapped = _wrap(text, rw)
                 first = wrapped[0]
                 head = _paint(word, style, color) + first[len(word):] if first.startswith(word) else first
