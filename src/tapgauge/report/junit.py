@@ -14,27 +14,38 @@ from lxml import etree
 from tapgauge.report.records import Report
 
 
-def _suite(s: dict[str, Any]) -> tuple[etree._Element, int, int, int]:
-    """A screen's test suite and its counts: tests, failures, skipped."""
+def _outcome(t: dict[str, Any], rs: str) -> tuple[str, Any]:
+    """One test case's result: ("skipped", why), ("failure", its open findings) or ("passed", None)."""
+    mine = [f for f in t["findings"] if f["rule"].split("/", 1)[0] == rs]
+    open_ = [f for f in mine if not f["waiver"]]
+    if t["status"] == "unchecked":
+        return "skipped", f"not checked: {t['reason']}"
+    if mine and not open_:
+        return "skipped", f"waived: {mine[0]['waiver']['reason']}"
+    if open_:
+        return "failure", open_
+    return "passed", None
+
+
+def _counts(s: dict[str, Any]) -> tuple[int, int, int]:
+    """A screen's tests, failures and skipped, without building its XML."""
+    kinds = [_outcome(t, rs)[0] for t in s["targets"] for rs in s["rulesets"]]
+    return len(kinds), kinds.count("failure"), kinds.count("skipped")
+
+
+def _suite(s: dict[str, Any]) -> etree._Element:
+    """A screen's test suite: a case per target and rule set."""
     title = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
     suite = etree.Element("testsuite", name=title)
-    s_tests = s_fail = s_skip = 0
     for t in s["targets"]:
         for rs in s["rulesets"]:
-            s_tests += 1
             case = etree.SubElement(suite, "testcase", name=f"#{t['ordinal']} {t['name']} [{rs}]",
                                     classname=title.replace("/", "."))
-            mine = [f for f in t["findings"] if f["rule"].split("/", 1)[0] == rs]
-            open_ = [f for f in mine if not f["waiver"]]
-            if t["status"] == "unchecked":
-                s_skip += 1
-                etree.SubElement(case, "skipped", message=f"not checked: {t['reason']}")
-            elif mine and not open_:
-                s_skip += 1
-                etree.SubElement(case, "skipped", message=f"waived: {mine[0]['waiver']['reason']}")
-            elif open_:
-                s_fail += 1
-                worst = open_[0]
+            kind, detail = _outcome(t, rs)
+            if kind == "skipped":
+                etree.SubElement(case, "skipped", message=detail)
+            elif kind == "failure":
+                worst = detail[0]
                 size = f"{t['size']['width']:g} x {t['size']['height']:g} {s['device']['unit']}"
                 if t["size_mm"]:
                     size += f" ({t['size_mm']['width']:g} x {t['size_mm']['height']:g} mm)"
@@ -45,13 +56,14 @@ def _suite(s: dict[str, Any]) -> tuple[etree._Element, int, int, int]:
                 failure.text = "\n".join(
                     [f"target {size}, status {t['status']}"]
                     + [f"{f['severity']} {f['rule']}: found {f['measured']:g}, needs {f['required']:g} {f['unit']}: "
-                       f"{f['message']}" for f in open_]
+                       f"{f['message']}" for f in detail]
                 )
-    suite.set("tests", str(s_tests))
-    suite.set("failures", str(s_fail))
+    tests, failures, skipped = _counts(s)
+    suite.set("tests", str(tests))
+    suite.set("failures", str(failures))
     suite.set("errors", "0")
-    suite.set("skipped", str(s_skip))
-    return suite, s_tests, s_fail, s_skip
+    suite.set("skipped", str(skipped))
+    return suite
 
 
 _ATTR_ESCAPES = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;",
@@ -70,7 +82,7 @@ def _text(el: etree._Element) -> str:
 def write_junit(report: Report, out: TextIO, width: int | None = None) -> None:
     total = failures = skipped = 0
     for s in report.screens:  # first pass: the totals the root element carries
-        _, n, f, k = _suite(s)
+        n, f, k = _counts(s)
         total, failures, skipped = total + n, failures + f, skipped + k
     errors = report.errors
     attrs = {"name": "tapgauge", "tests": str(total + len(errors)), "failures": str(failures),
@@ -78,7 +90,7 @@ def write_junit(report: Report, out: TextIO, width: int | None = None) -> None:
     out.write("<?xml version='1.0' encoding='UTF-8'?>\n<testsuites"
               + "".join(f" {k}={_attr(v)}" for k, v in attrs.items()) + ">\n")
     for s in report.screens:
-        out.write(_text(_suite(s)[0]))
+        out.write(_text(_suite(s)))
     if errors:
         suite = etree.Element("testsuite", name="unreadable inputs", tests=str(len(errors)),
                               failures="0", errors=str(len(errors)), skipped="0")
