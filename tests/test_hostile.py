@@ -509,3 +509,18 @@ def test_fuzzed_device_sidecars_and_class_lists_never_crash(tmp_path: Path, caps
     _no_crash(["check", str(tmp_path / "s.xml"), "-f", "json"], capsys, (0, 1, 2))
     _no_crash(["check", str(DEMO / "annotated"), "--classes", str(tmp_path / "classes.toml"), "-f", "json"],
               capsys, (0, 1, 2))
+
+
+def test_a_reader_that_stops_early_gets_exit_141_and_no_traceback() -> None:
+    """`tapgauge check ... | head`: the report streams to stdout, so a closed pipe must end it quietly."""
+    import subprocess
+    import sys
+
+    proc = subprocess.Popen([sys.executable, "-m", "tapgauge", "check", str(DEMO), "-f", "json", "-j", "1"],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    assert proc.stdout is not None and proc.stderr is not None
+    proc.stdout.read(100)
+    proc.stdout.close()
+    err = proc.stderr.read().decode()
+    assert proc.wait(timeout=120) == 141  # the shell's code for SIGPIPE, never 1 ("findings")
+    assert "Traceback" not in err

@@ -40,6 +40,7 @@ def say(message: str) -> None:
 
 
 INTERRUPTED = 130  # the shell's code for a run stopped by Ctrl-C
+PIPE_CLOSED = 141  # the shell's code for a writer whose reader went away (SIGPIPE)
 
 
 @contextmanager
@@ -78,7 +79,12 @@ def write_report(report: Report, output: Path | None, write: Callable[[Report, T
             write(report, out)
 
     if output is None:
-        run(sys.stdout)
+        try:
+            run(sys.stdout)
+            sys.stdout.flush()
+        except BrokenPipeError:  # `tapgauge check ... | head`: the reader left; stop quietly
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())  # no second error at exit
+            return PIPE_CLOSED
         return 0
     try:
         with atomic_text(output) as fh:
