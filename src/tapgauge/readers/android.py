@@ -8,9 +8,10 @@ and multi-window dumps nest several roots under extra container elements.
 from __future__ import annotations
 
 import re
+from itertools import pairwise
 from pathlib import Path
-from typing import Any
 
+import numpy as np
 from lxml import etree
 
 from tapgauge.model import Box, DeviceHints, InputError, Screen, Target
@@ -51,21 +52,47 @@ def _bounds(el: etree._Element, path: Path) -> Box:
     return (l, t, r, b)
 
 
-def _is_node(el: etree._Element) -> bool:
-    return isinstance(el.tag, str) and (el.tag == "node" or el.get("bounds") is not None)
-
-
 def _scroll_axis(el: etree._Element) -> str:
     cls = el.get("class") or el.tag
     return "x" if any(h in cls for h in _HORIZONTAL_HINTS) else "y"
 
 
-def _drawing_key(el: etree._Element, position: int) -> tuple[int, int]:
-    raw = el.get("drawing-order")
+def _drawing_key(raw: str | None, position: int) -> tuple[int, int]:
     try:
         return (int(raw), position) if raw is not None else (position, position)
     except ValueError:
         return (position, position)
+
+
+def _paint_order(kids: list[etree._Element]) -> list[etree._Element] | None:
+    """Siblings in drawing order when the dump gives one that differs from document order, else None."""
+    orders = [k.get("drawing-order") for k in kids]
+    if not any(orders):
+        return None
+    try:  # the usual case: every sibling numbered, already ascending
+        numbers = [int(o) for o in orders]  # type: ignore[arg-type]
+        if all(a <= b for a, b in pairwise(numbers)):
+            return None
+    except (TypeError, ValueError):
+        pass
+    ranked = sorted(range(len(kids)), key=lambda p: _drawing_key(orders[p], p))
+    return None if ranked == list(range(len(kids))) else [kids[p] for p in ranked]
+
+
+# Every bounds value of a well-formed dump, joined by commas, in one C-level match; a file
+# that fails it (spaces, a huge number, a typo) is read one node at a time to name the culprit.
+_ALL_BOUNDS = re.compile(r"(?:\[-?\d{1,7},-?\d{1,7}\]\[-?\d{1,7},-?\d{1,7}\],)*")
+_SEPARATORS = str.maketrans("[],", "   ")
+
+
+def _boxes(raws: list[str], nodes: list[etree._Element], path: Path) -> list[list[int]]:
+    """Every view node's box, [l, t, r, b] in pixels, validated as `_bounds` does, in bulk."""
+    joined = ",".join(raws) + ","
+    if _ALL_BOUNDS.fullmatch(joined):
+        arr = np.fromstring(joined.translate(_SEPARATORS), dtype=np.int64, sep=" ").reshape(-1, 4)
+        if not ((arr[:, 2] < arr[:, 0]) | (arr[:, 3] < arr[:, 1]) | (np.abs(arr) > _FAR).any(axis=1)).any():
+            return arr.tolist()  # type: ignore[no-any-return]
+    return [list(_bounds(el, path)) for el in nodes]  # raises for the first bad node, in paint order
 
 
 def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None) -> Screen:
@@ -74,53 +101,59 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
         raise InputError(path, f"rotation={rotation_raw!r}; expected 0, 1, 2 or 3", root.sourceline)
     rotation = int(rotation_raw)
 
-    targets: list[tuple[int, tuple[Any, ...]]] = []
-    doc_index = {el: k for k, el in enumerate(root.iter())}
-    extent = [0, 0]
-    paint = 0
+    # One pass in paint order. Per node it only looks at attributes; every box is
+    # parsed and checked in bulk afterwards (`_boxes`), which is most of the saving.
+    nodes: list[etree._Element] = []  # view nodes in paint order; a node's paint rank is its place + 1
+    raws: list[str] = []  # their bounds, unparsed
+    found: list[tuple[etree._Element, int, bool, tuple[tuple[Box, str], ...]]] = []
+    reordered = False
 
     def walk(el: etree._Element, scrollers: tuple[tuple[Box, str], ...], shown: bool) -> None:
-        nonlocal paint
-        if not len(el):
-            return
-        kids = [k for k in el if isinstance(k.tag, str)]
+        nonlocal reordered
+        kids = list(el)  # the parser drops comments and PIs; a stray one has no bounds and no children
         if len(kids) > 1:  # children paint in drawing order when the dump gives it, else document order
-            kids = [kids[p] for p in sorted(range(len(kids)), key=lambda p: _drawing_key(kids[p], p))]
+            painted = _paint_order(kids)
+            if painted is not None:
+                kids, reordered = painted, True
         for child in kids:
-            if not _is_node(child):
-                walk(child, scrollers, shown)  # a container such as <window> or <display>
+            get = child.get
+            raw = get("bounds")
+            if raw is None:
+                if child.tag == "node":
+                    raise InputError(path, "<node> has no bounds attribute; expected bounds=\"[l,t][r,b]\"",
+                                     child.sourceline)
+                if len(child):
+                    walk(child, scrollers, shown)  # a container such as <window> or <display>
                 continue
-            box = _bounds(child, path)
-            extent[0], extent[1] = max(extent[0], box[2]), max(extent[1], box[3])
-            paint += 1
-            visible = shown and child.get("visible-to-user", _TRUE) == _TRUE
-            get = child.get  # a target is anything that takes a tap, a long press or a check
+            nodes.append(child)
+            raws.append(raw)
+            visible = shown and get("visible-to-user", _TRUE) == _TRUE
+            # a target is anything that takes a tap, a long press or a check
             if get("clickable") == _TRUE or get("long-clickable") == _TRUE or get("checkable") == _TRUE:
-                # Target's fields after the ordinal, in order: bounds, cls, label, resource_id,
-                # enabled, visible, paint_rank, scroll_ancestors, line.
-                targets.append((doc_index[child], (
-                    box,
-                    get("class") or child.tag,
-                    (get("text") or get("content-desc") or "").strip(),
-                    get("resource-id") or "",
-                    get("enabled", _TRUE) == _TRUE,
-                    visible,
-                    paint,
-                    scrollers,
-                    child.sourceline,
-                )))
-            inner = scrollers + ((box, _scroll_axis(child)),) if child.get("scrollable") == _TRUE else scrollers
-            walk(child, inner, visible)
+                found.append((child, len(raws), visible, scrollers))
+            if len(child):
+                if get("scrollable") == _TRUE:
+                    walk(child, (*scrollers, (_bounds(child, path), _scroll_axis(child))), visible)
+                else:
+                    walk(child, scrollers, visible)
 
     walk(root, (), True)
-    if paint == 0:
+    if not nodes:
         raise InputError(path, "no view nodes found; expected <node bounds=...> elements under <hierarchy>", root.sourceline)
-    # Document order gives stable ordinals whatever the paint order was.
-    targets.sort(key=lambda pair: pair[0])
-    numbered = tuple(Target(k, *fields) for k, (_, fields) in enumerate(targets))
-    width = _int_attr(root, "width", path) or extent[0]
-    height = _int_attr(root, "height", path) or extent[1]
+    boxes = _boxes(raws, nodes, path)
+    if reordered:  # document order gives stable ordinals whatever the paint order was
+        doc_index = {el: k for k, el in enumerate(root.iter())}
+        found.sort(key=lambda item: doc_index[item[0]])
+    targets = []
+    for k, (el, rank, visible, scrollers) in enumerate(found):
+        get = el.get
+        targets.append(Target(
+            k, tuple(boxes[rank - 1]), get("class") or el.tag, (get("text") or get("content-desc") or "").strip(),
+            get("resource-id") or "", get("enabled", _TRUE) == _TRUE, visible, rank, scrollers, el.sourceline,
+        ))
+    width = _int_attr(root, "width", path) or max(0, max(b[2] for b in boxes))
+    height = _int_attr(root, "height", path) or max(0, max(b[3] for b in boxes))
     return Screen(
         path=path, platform="android", width=width, height=height, rotation=rotation,
-        targets=numbered, hints=hints, image=image,
+        targets=tuple(targets), hints=hints, image=image,
     )
