@@ -75,7 +75,7 @@ def waive_screen(sr: ScreenResult, ws: Waivers) -> tuple[ScreenResult, tuple[int
         if tr.findings and all(f.waiver for f in findings):
             status = "exempt"
             reason = "; ".join(dict.fromkeys(f.waiver[0] for f in findings if f.waiver))
-        targets.append(replace(tr, findings=tuple(findings), status=status, reason=reason))
+        targets.append(tr._replace(findings=tuple(findings), status=status, reason=reason))
     return replace(sr, targets=tuple(targets), notices=tuple(dict.fromkeys(notices))), tuple(counts)
 
 
