@@ -7,6 +7,8 @@ default every node is a target (the worst case for the ratio to the parse); with
 --filler F each cell also holds F non-clickable children (an icon and a label, say),
 as real window dumps do. With --tall the cells keep one size and the screen grows
 instead, so the density of targets (and neighbours per target) stays the same.
+With --modern every node also carries the attributes newer dumpers add (visible-to-user,
+drawing-order, hint; from memory of such dumps), so the reader's paint-order path runs.
 """
 
 from __future__ import annotations
@@ -18,7 +20,7 @@ from pathlib import Path
 DEVICE = "Physical density: 440\nPhysical size: 1080x2340\ndensity 440, 409.4 x 411.9 dpi\n"
 
 
-def dump(targets: int, rng: random.Random, filler: int = 0, tall: bool = False) -> str:
+def dump(targets: int, rng: random.Random, filler: int = 0, tall: bool = False, modern: bool = False) -> str:
     if tall:  # cells of one size whatever the count: the screen grows (a long scrolling capture)
         cols = 10
         rows = -(-targets // cols)
@@ -29,6 +31,9 @@ def dump(targets: int, rng: random.Random, filler: int = 0, tall: bool = False) 
         cw, ch = 1080 / cols, 2340 * max(1, rows / cols) / rows
     lines = ["<?xml version='1.0' encoding='UTF-8' standalone='yes' ?>", '<hierarchy rotation="0">',
              f'<node index="0" class="android.widget.FrameLayout" clickable="false" bounds="[0,0][1080,{int(ch * rows) + 1}]">']
+    def extra(order: int) -> str:
+        return f' visible-to-user="true" drawing-order="{order}" hint=""' if modern else ""
+
     for k in range(targets):
         r, c = divmod(k, cols)
         x0 = int(c * cw + rng.uniform(0, cw * 0.2))
@@ -38,7 +43,7 @@ def dump(targets: int, rng: random.Random, filler: int = 0, tall: bool = False) 
         cell = (f'<node index="{k}" text="Item {k}" resource-id="demo:id/cell" class="android.widget.Button" '
                 f'package="demo" content-desc="" checkable="false" checked="false" clickable="true" enabled="true" '
                 f'focusable="true" focused="false" scrollable="false" long-clickable="false" password="false" '
-                f'selected="false" bounds="[{x0},{y0}][{x0 + w},{y0 + h}]"')
+                f'selected="false" bounds="[{x0},{y0}][{x0 + w},{y0 + h}]"{extra(k + 1)}')
         if not filler:
             lines.append(cell + " />")
             continue
@@ -48,7 +53,7 @@ def dump(targets: int, rng: random.Random, filler: int = 0, tall: bool = False) 
                 f'<node index="{f}" text="" resource-id="demo:id/part{f}" class="android.widget.TextView" '
                 f'package="demo" content-desc="" checkable="false" checked="false" clickable="false" enabled="true" '
                 f'focusable="false" focused="false" scrollable="false" long-clickable="false" password="false" '
-                f'selected="false" bounds="[{x0 + 2},{y0 + 2}][{x0 + w - 2},{y0 + h - 2}]" />')
+                f'selected="false" bounds="[{x0 + 2},{y0 + 2}][{x0 + w - 2},{y0 + h - 2}]"{extra(f + 1)} />')
         lines.append("</node>")
     lines += ["</node>", "</hierarchy>"]
     return "\n".join(lines) + "\n"
@@ -61,6 +66,7 @@ def main() -> None:
     ap.add_argument("--targets", type=int, default=200)
     ap.add_argument("--filler", type=int, default=0, help="non-clickable children per target")
     ap.add_argument("--tall", action="store_true", help="keep cell size and density; let the screen grow")
+    ap.add_argument("--modern", action="store_true", help="add visible-to-user, drawing-order and hint")
     ap.add_argument("--seed", type=int, default=1)
     a = ap.parse_args()
     a.out.mkdir(parents=True, exist_ok=True)
@@ -71,7 +77,7 @@ def main() -> None:
         if not (sub / "device.txt").exists():
             sub.mkdir(exist_ok=True)
             (sub / "device.txt").write_text(DEVICE)
-        (sub / f"screen_{s:06d}.xml").write_text(dump(a.targets, rng, a.filler, a.tall))
+        (sub / f"screen_{s:06d}.xml").write_text(dump(a.targets, rng, a.filler, a.tall, a.modern))
 
 
 if __name__ == "__main__":

@@ -1,7 +1,7 @@
 """Benchmark: tapgauge against the parsing floor, side by side in one run.
 
 Usage:
-  python bench/run_bench.py targets [--sizes 100 200 1000 10000] [--screens 20] [--repeat 3] [--filler 0]
+  python bench/run_bench.py targets [--sizes 100 200 1000 10000] [--screens 20] [--repeat 3] [--filler 0] [--tall] [--modern]
   python bench/run_bench.py screens [--counts 100 1000 10000 100000] [--targets 50] [--jobs 2] [--work DIR]
 
 targets: one process, one core. For each size a corpus is generated, then the floor
@@ -59,9 +59,11 @@ def settings() -> Settings:
                     scoring=Scoring(tuple(select_profiles(list(DEFAULT_PROFILES)))))
 
 
-def make_corpus(folder: Path, screens: int, targets: int, filler: int = 0, tall: bool = False) -> list[Path]:
+def make_corpus(folder: Path, screens: int, targets: int, filler: int = 0, tall: bool = False,
+                modern: bool = False) -> list[Path]:
     subprocess.run([sys.executable, str(HERE / "make_corpus.py"), str(folder), "--screens", str(screens),
-                    "--targets", str(targets), "--filler", str(filler), *(["--tall"] if tall else [])], check=True)
+                    "--targets", str(targets), "--filler", str(filler), *(["--tall"] if tall else []),
+                    *(["--modern"] if modern else [])], check=True)
     return discover([folder])[0]
 
 
@@ -81,17 +83,19 @@ def checks_only(screens: list, st: Settings) -> None:  # type: ignore[type-arg]
         check_screen(measure(screen, device), list(st.rulesets), False)
 
 
-def bench_targets(sizes: list[int], n_screens: int, repeat: int, filler: int, tall: bool) -> None:
+def bench_targets(sizes: list[int], n_screens: int, repeat: int, filler: int, tall: bool,
+                  modern: bool = False) -> None:
     st = settings()
     layout = "a growing screen, same density" if tall else "one 1080x2340 screen, denser as targets grow"
-    print(f"Targets per screen ({n_screens} screens each, one core; {layout}; filler nodes per target: {filler})\n")
+    print(f"Targets per screen ({n_screens} screens each, one core; {layout}; filler nodes per target: {filler}"
+          f"{'; with newer dumpers attributes' if modern else ''})\n")
     print("| targets/screen | lxml floor ms/screen | tapgauge ms/screen | screens/s | ratio to floor "
           "| checks ms/screen | checks per target / log2 n, us |")
     print("|---:|---:|---:|---:|---:|---:|---:|")
     for n in sizes:
         with tempfile.TemporaryDirectory() as tmp:
             folder = Path(tmp)
-            files = make_corpus(folder, n_screens, n, filler, tall)
+            files = make_corpus(folder, n_screens, n, filler, tall, modern)
             read = [s for f in files for s in read_screens(f, st.read)]
             devices = [(s, resolve_device(s, st.flags, *s.hints, st.config.for_path(s.path))) for s in read]
             floor, full, checks = [], [], []
@@ -197,6 +201,7 @@ def main() -> None:
     t.add_argument("--screens", type=int, default=20)
     t.add_argument("--repeat", type=int, default=5)
     t.add_argument("--filler", type=int, default=0)
+    t.add_argument("--modern", action="store_true", help="nodes carry drawing-order etc. (see make_corpus.py)")
     t.add_argument("--tall", action="store_true", help="same density at every size (see make_corpus.py)")
     s = sub.add_parser("screens")
     s.add_argument("--counts", type=int, nargs="+", default=[100, 1000, 10000, 100000])
@@ -208,7 +213,7 @@ def main() -> None:
     fl.add_argument("--jobs", type=int, default=2)
     a = ap.parse_args()
     if a.mode == "targets":
-        bench_targets(a.sizes, a.screens, a.repeat, a.filler, a.tall)
+        bench_targets(a.sizes, a.screens, a.repeat, a.filler, a.tall, a.modern)
     elif a.mode == "screens":
         bench_screens(a.counts, a.targets, a.jobs, a.work)
     else:
