@@ -130,3 +130,73 @@ def test_discover_walks_folders_in_order_and_skips_sidecars(tmp_path: Path) -> N
     found, missing = discover([tmp_path, tmp_path / "nope"])
     assert [p.relative_to(tmp_path).as_posix() for p in found] == ["a.xml", "b/z.xml"]
     assert len(missing) == 1 and "no such file" in missing[0].message
+
+
+# --- The one-pass reader against the plain definition of paint order, visibility and scrolling ---
+# The definitions (REFERENCES.md section 5; drawing-order is AccessibilityNodeInfo's
+# getDrawingOrder, from memory): children paint in ascending drawing-order, ties and
+# unnumbered children in document order; a node is visible when it and every view node
+# above it are visible to the user; scroll ancestors are the scrollable view nodes above.
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+from lxml import etree  # noqa: E402
+
+_ORDERS = st.one_of(st.none(), st.integers(0, 4).map(str), st.just("x"))
+
+
+@st.composite
+def _trees(draw: st.DrawFn, depth: int = 0) -> str:
+    kids = draw(st.lists(st.deferred(lambda: _trees(depth + 1)), max_size=0 if depth > 3 else 4))
+    if depth and draw(st.integers(0, 9)) == 0:  # a container without bounds, as multi-window dumps have
+        return "<window>" + "".join(kids) + "</window>"
+    l, t = draw(st.integers(0, 900)), draw(st.integers(0, 2000))
+    attrs = {"class": draw(st.sampled_from(["android.widget.Button", "android.widget.HorizontalScrollView"])),
+             "text": f"n{draw(st.integers(0, 99))}",
+             "clickable": draw(st.sampled_from(["true", "false"])),
+             "long-clickable": draw(st.sampled_from(["true", "false"])),
+             "scrollable": draw(st.sampled_from(["true", "false"])),
+             "visible-to-user": draw(st.sampled_from(["true", "true", "false"])),
+             "drawing-order": draw(_ORDERS),
+             "bounds": f"[{l},{t}][{l + draw(st.integers(0, 200))},{t + draw(st.integers(0, 200))}]"}
+    a = " ".join(f'{k}="{v}"' for k, v in attrs.items() if v is not None)
+    return f"<node {a}>" + "".join(kids) + "</node>"
+
+
+def _reference(root: etree._Element) -> list[tuple[object, ...]]:
+    """Targets by walking the tree recursively and sorting every sibling list: the definition."""
+    out: list[tuple[int, tuple[object, ...]]] = []
+    doc = {el: k for k, el in enumerate(root.iter())}
+    paint = 0
+
+    def key(el: etree._Element, pos: int) -> tuple[int, int]:
+        raw = el.get("drawing-order")
+        return (int(raw), pos) if raw is not None and raw.isdigit() else (pos, pos)
+
+    def walk(el: etree._Element, scrollers: tuple[object, ...], shown: bool) -> None:
+        nonlocal paint
+        kids = sorted(enumerate(el), key=lambda pk: key(pk[1], pk[0]))
+        for _, child in kids:
+            if child.get("bounds") is None:
+                walk(child, scrollers, shown)
+                continue
+            paint += 1
+            box = tuple(int(v) for v in child.get("bounds").replace("][", ",").strip("[]").split(","))
+            visible = shown and child.get("visible-to-user") == "true"
+            if child.get("clickable") == "true" or child.get("long-clickable") == "true":
+                out.append((doc[child], (box, child.get("text"), visible, paint, scrollers)))
+            axis = "x" if "Horizontal" in child.get("class") else "y"
+            walk(child, scrollers + ((box, axis),) if child.get("scrollable") == "true" else scrollers, visible)
+
+    walk(root, (), True)
+    return [fields for _, fields in sorted(out, key=lambda pair: pair[0])]
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(_trees(), min_size=1, max_size=3))
+def test_one_pass_reader_matches_the_definition(tmp_path_factory: pytest.TempPathFactory, roots: list[str]) -> None:
+    body = f'{HEAD}<hierarchy rotation="0">{"".join(roots)}</hierarchy>'
+    path = write(tmp_path_factory.mktemp("walk"), "w.xml", body)
+    expected = _reference(etree.fromstring(body.encode()))
+    got = [(t.bounds, t.label, t.visible, t.paint_rank, t.scroll_ancestors) for t in read_screen(path).targets]
+    assert got == expected
