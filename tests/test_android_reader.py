@@ -8,6 +8,9 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from lxml import etree
 
 from tapgauge.model import InputError
 from tapgauge.readers import discover, read_screen
@@ -137,10 +140,6 @@ def test_discover_walks_folders_in_order_and_skips_sidecars(tmp_path: Path) -> N
 # getDrawingOrder, from memory): children paint in ascending drawing-order, ties and
 # unnumbered children in document order; a node is visible when it and every view node
 # above it are visible to the user; scroll ancestors are the scrollable view nodes above.
-
-from hypothesis import given, settings  # noqa: E402
-from hypothesis import strategies as st  # noqa: E402
-from lxml import etree  # noqa: E402
 
 _ORDERS = st.one_of(st.none(), st.integers(0, 4).map(str), st.just("x"))
 
