@@ -7,6 +7,7 @@ model can give hit probabilities), else in the platform unit (ID and time only).
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from itertools import repeat
 
 import numpy as np
 
@@ -60,14 +61,13 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
          np.round(pred.time_ms, 2).tolist(), *_hit_and_miss(pred.hit))
         for pred in per_profile
     ]
+    # Every profile's Difficulty records built column-wise, then dealt out per target by zip.
+    per_target = zip(*(map(Difficulty, repeat(p.id), *columns[j]) for j, p in enumerate(profiles)))
     targets = list(sr.targets)
-    ids = [p.id for p in profiles]
-    for row, k in enumerate(scored):
-        t = targets[k]  # built directly: dataclasses.replace costs more than the rest of this loop
-        targets[k] = TargetResult(t.target, t.status, t.reason, t.size_unit, t.size_mm, t.findings, t.notes, tuple(
-            Difficulty(pid, w[row], d[row], i[row], ms[row], h[row], m[row])
-            for pid, (w, d, i, ms, h, m) in zip(ids, columns)
-        ))
+    for k, difficulty in zip(scored, per_target):
+        t = targets[k]  # built directly: _replace costs more than the rest of this loop
+        targets[k] = TargetResult(t.target, t.status, t.reason, t.size_unit, t.size_mm, t.findings, t.notes,
+                                  difficulty)
     return replace(sr, targets=tuple(targets), start=(start, round(float(start_unit[0]), 2), round(float(start_unit[1]), 2)),
                    reach_unit="mm" if unit == "mm" else device.unit)
 

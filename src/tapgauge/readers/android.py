@@ -95,35 +95,43 @@ def _boxes(raws: list[str], nodes: list[etree._Element], path: Path) -> list[lis
     return [list(_bounds(el, path)) for el in nodes]  # raises for the first bad node, in paint order
 
 
-def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None) -> Screen:
-    rotation_raw = root.get("rotation", "0")
-    if rotation_raw.strip() not in ("0", "1", "2", "3"):
-        raise InputError(path, f"rotation={rotation_raw!r}; expected 0, 1, 2 or 3", root.sourceline)
-    rotation = int(rotation_raw)
+Scrollers = tuple[tuple[Box, str], ...]  # scrolling view nodes above a node: (bounds, axis "x"/"y")
 
-    # One pass in paint order. Per node it only looks at attributes; every box is
-    # parsed and checked in bulk afterwards (`_boxes`), which is most of the saving.
-    nodes: list[etree._Element] = []  # view nodes in paint order; a node's paint rank is its place + 1
-    raws: list[str] = []  # their bounds, unparsed
-    found: list[tuple[etree._Element, int, bool, tuple[tuple[Box, str], ...]]] = []
-    reordered = False
 
-    def walk(el: etree._Element, scrollers: tuple[tuple[Box, str], ...], shown: bool) -> None:
-        nonlocal reordered
+class _Walk:
+    """One pass over a dump in paint order that only reads attributes.
+
+    Every box is parsed and checked in bulk afterwards (`_boxes`), which is most of
+    the saving over parsing node by node. A class rather than a recursive closure:
+    a closure that calls itself is a reference cycle, which kept each file's whole
+    tree alive until the garbage collector came round.
+    """
+
+    __slots__ = ("found", "nodes", "path", "raws", "reordered")
+
+    def __init__(self, path: Path) -> None:
+        self.path = path
+        self.nodes: list[etree._Element] = []  # view nodes in paint order; paint rank = place + 1
+        self.raws: list[str] = []  # their bounds, unparsed
+        self.found: list[tuple[etree._Element, int, bool, Scrollers]] = []  # targets: node, rank, visible, scrollers
+        self.reordered = False
+
+    def children(self, el: etree._Element, scrollers: Scrollers, shown: bool) -> None:
         kids = list(el)  # the parser drops comments and PIs; a stray one has no bounds and no children
         if len(kids) > 1:  # children paint in drawing order when the dump gives it, else document order
             painted = _paint_order(kids)
             if painted is not None:
-                kids, reordered = painted, True
+                kids, self.reordered = painted, True
+        nodes, raws, found = self.nodes, self.raws, self.found
         for child in kids:
             get = child.get
             raw = get("bounds")
             if raw is None:
                 if child.tag == "node":
-                    raise InputError(path, "<node> has no bounds attribute; expected bounds=\"[l,t][r,b]\"",
+                    raise InputError(self.path, "<node> has no bounds attribute; expected bounds=\"[l,t][r,b]\"",
                                      child.sourceline)
                 if len(child):
-                    walk(child, scrollers, shown)  # a container such as <window> or <display>
+                    self.children(child, scrollers, shown)  # a container such as <window> or <display>
                 continue
             nodes.append(child)
             raws.append(raw)
@@ -133,15 +141,24 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
                 found.append((child, len(raws), visible, scrollers))
             if len(child):
                 if get("scrollable") == _TRUE:
-                    walk(child, (*scrollers, (_bounds(child, path), _scroll_axis(child))), visible)
+                    self.children(child, (*scrollers, (_bounds(child, self.path), _scroll_axis(child))), visible)
                 else:
-                    walk(child, scrollers, visible)
+                    self.children(child, scrollers, visible)
 
-    walk(root, (), True)
+
+def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None) -> Screen:
+    rotation_raw = root.get("rotation", "0")
+    if rotation_raw.strip() not in ("0", "1", "2", "3"):
+        raise InputError(path, f"rotation={rotation_raw!r}; expected 0, 1, 2 or 3", root.sourceline)
+    rotation = int(rotation_raw)
+
+    walk = _Walk(path)
+    walk.children(root, (), True)
+    nodes, raws, found = walk.nodes, walk.raws, walk.found
     if not nodes:
         raise InputError(path, "no view nodes found; expected <node bounds=...> elements under <hierarchy>", root.sourceline)
     boxes = _boxes(raws, nodes, path)
-    if reordered:  # document order gives stable ordinals whatever the paint order was
+    if walk.reordered:  # document order gives stable ordinals whatever the paint order was
         doc_index = {el: k for k, el in enumerate(root.iter())}
         found.sort(key=lambda item: doc_index[item[0]])
     targets = []
