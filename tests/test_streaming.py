@@ -8,18 +8,22 @@ from __future__ import annotations
 
 import io
 import json
+import os
 import shutil
 from pathlib import Path
 
 import pytest
+from conftest import DEMO
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from conftest import DEMO
 from tapgauge.cli import main
 from tapgauge.jsontext import dumps, write_streamed
 from tapgauge.model import STATUSES, InputError, Severity
+from tapgauge.pipeline import Settings, iter_results
+from tapgauge.readers import discover
 from tapgauge.report.records import Checked, Report
+from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
 
 # JSON values as our records hold them: strings (any Unicode), ints, and floats rounded
 # to at most 4 decimals (every float in a record is rounded), nested a few levels.
@@ -104,3 +108,61 @@ def test_baseline_refuses_a_screen_id_given_twice(tmp_path: Path, monkeypatch: p
     assert main(["baseline", "one", "two", "-o", "b.json"]) == 2
     assert "given twice" in capsys.readouterr().err
     assert sorted(p.name for p in tmp_path.iterdir()) == ["one", "two"]  # nothing half-written left behind
+
+
+# --- Files found as the run goes, in the report's order, with no list of them kept ---
+
+_NAMES = st.sampled_from(["a", "a.xml", "a-b.xml", "ab.xml", "a b.xml", "A.xml", "b", "b.xml", "_x.xml", "0.xml"])
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.lists(_NAMES, min_size=1, max_size=3), min_size=1, max_size=12))
+def test_lazy_walk_comes_out_as_a_sorted_list_of_paths(tmp_path_factory: pytest.TempPathFactory,
+                                                      chains: list[list[str]]) -> None:
+    root = tmp_path_factory.mktemp("walk")
+    for chain in chains:  # folders along the chain, a screen file at its end
+        *folders, leaf = chain
+        where = root.joinpath(*folders)
+        if any(p.is_file() for p in [where, *where.parents] if p != root and root in p.parents):
+            continue  # a name already taken by a file
+        where.mkdir(parents=True, exist_ok=True)
+        if not (where / leaf).is_dir():
+            (where / leaf).write_text("<hierarchy/>")
+    found, errors = discover([root])
+    expected = [Path(d, f) for d, _, fs in os.walk(root) for f in fs if f.endswith(".xml")]
+    # oracle: Python's own sort of the full path strings, over what os.walk lists
+    assert [p.as_posix() for p in found] == sorted(p.as_posix() for p in expected)
+    assert not errors
+
+
+def test_a_folder_that_cannot_be_read_is_an_error_and_the_rest_are_checked(
+        tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]) -> None:
+    shutil.copytree(DEMO, tmp_path / "demo")
+    main(["check", str(tmp_path / "demo"), "-f", "json", "-o", str(tmp_path / "all.json")])
+    locked = tmp_path / "demo" / "zz-locked"
+    locked.mkdir()
+    shutil.copytree(DEMO / "android", locked / "android")
+    real = os.scandir
+
+    def scandir(path: object) -> object:
+        if Path(str(path)) == locked:
+            raise PermissionError(13, "Permission denied")
+        return real(path)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(os, "scandir", scandir)  # running as root, chmod would not stop the walk
+    code = main(["check", str(tmp_path / "demo"), "-f", "json", "-o", str(tmp_path / "r.json")])
+    report = json.loads((tmp_path / "r.json").read_text())
+    assert code == 2  # an input error, not findings alone
+    assert [e["path"].endswith("zz-locked") for e in report["errors"]] == [True]
+    assert "cannot read this folder" in report["errors"][0]["message"]
+    everything = json.loads((tmp_path / "all.json").read_text())
+    assert [s["path"] for s in report["screens"]] == [s["path"] for s in everything["screens"]]
+
+
+def test_a_file_reached_twice_is_checked_once(tmp_path: Path) -> None:
+    shutil.copytree(DEMO, tmp_path / "demo")
+    one = min((tmp_path / "demo").rglob("*.xml"))
+    st_ = Settings(tuple(select_rulesets(list(DEFAULT_RULESETS))))
+    twice = [r for r in iter_results([tmp_path / "demo", one], st_) if not isinstance(r, InputError)]
+    once = [r for r in iter_results([tmp_path / "demo"], st_) if not isinstance(r, InputError)]
+    assert [r.screen.path for r in twice] == [r.screen.path for r in once]

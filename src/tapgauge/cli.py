@@ -174,7 +174,7 @@ def baseline_cmd(
             check_overwrite(output, project)
         with interruptible(), progress() as tick, atomic_text(output) as fh:
             report = run.report(paths, tick)
-            screens, targets = write_baseline(fh, report, screen_namer(paths), project)
+            screens, targets = write_baseline(fh, report, screen_namer(paths), project, one_root=len(paths) == 1)
             if report.errors:
                 raise Discard
     except Discard:
@@ -230,7 +230,8 @@ def gate_cmd(
     try:
         with interruptible(), progress() as tick:
             report = run.report(paths, tick)
-            worse, better, gone = gate(report, screen_namer(paths), baseline, _replace(run.config.gate, **overrides))
+            worse, better, gone = gate(report, screen_namer(paths), baseline, _replace(run.config.gate, **overrides),
+                                      one_root=len(paths) == 1)
     except InputError as exc:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None

@@ -50,25 +50,36 @@ def baseline_entry(s: dict[str, Any], sid: str, level: Severity) -> dict[str, An
     return {"targets": sorted(targets, key=lambda x: x["key"])}
 
 
-def _entries(report: Report, screen_id: Callable[[dict[str, Any]], str]) -> Iterator[tuple[str, dict[str, Any]]]:
-    """(screen id, baseline entry) per screen as the report passes; a screen id seen twice is an error."""
+def _entries(report: Report, screen_id: Callable[[dict[str, Any]], str],
+             one_root: bool) -> Iterator[tuple[str, dict[str, Any]]]:
+    """(screen id, baseline entry) per screen as the report passes; a screen id seen twice is an error.
+
+    With `one_root` (one path given) ids are paths relative to it, in the run's path
+    order, so a repeated id can only follow its twin: only the last id is kept, and
+    memory does not grow with the number of screens. Several paths keep every id.
+    """
     level = Severity.parse(report.fail_level)
     seen: set[str] = set()
+    last = None
     for s in report.screens:
         sid = screen_id(s)
-        if sid in seen:
+        if sid == last or sid in seen:
             raise InputError(Path(s["path"]), f"screen id {sid!r} is given twice (the same relative path under two "
-                                              "folders): check those folders in separate runs")
-        seen.add(sid)
+                                              "folders, or one picture twice in an annotation file): check those "
+                                              "folders in separate runs, or name each picture once")
+        if not one_root:
+            seen.add(sid)
+        last = sid
         yield sid, baseline_entry(s, sid, level)
 
 
-def write_baseline(out: TextIO, report: Report, screen_id: Callable[[dict[str, Any]], str], project: str) -> tuple[int, int]:
+def write_baseline(out: TextIO, report: Report, screen_id: Callable[[dict[str, Any]], str], project: str,
+                   one_root: bool = False) -> tuple[int, int]:
     """Write the baseline document as the screens pass; returns (screens, targets) written."""
     counts = [0, 0]
 
     def entries() -> Iterator[tuple[str, dict[str, Any]]]:
-        for sid, entry in _entries(report, screen_id):
+        for sid, entry in _entries(report, screen_id, one_root):
             counts[0] += 1
             counts[1] += len(entry["targets"])
             yield sid, entry
@@ -204,7 +215,7 @@ LOOKAHEAD = 256  # baseline screens read ahead when looking for a screen that is
 
 
 def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], path: Path,
-         settings: GateSettings) -> tuple[list[Change], list[Change], list[Change]]:
+         settings: GateSettings, one_root: bool = False) -> tuple[list[Change], list[Change], list[Change]]:
     """(regressions, improvements, gone) of a report against the baseline at `path`, screen by screen.
 
     The run and the baseline are read side by side: a baseline is written in run
@@ -228,7 +239,7 @@ def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], path: Path,
 
     with path.open("rb") as fh:
         stored = baseline_screens(path, fh)
-        for sid, entry in _entries(report, screen_id):
+        for sid, entry in _entries(report, screen_id, one_root):
             if sid in waiting_base:
                 compare(sid, entry, waiting_base.pop(sid))
                 continue

@@ -13,6 +13,7 @@ from collections.abc import Callable, Iterator
 from concurrent.futures import Future
 from contextlib import contextmanager
 from dataclasses import dataclass, field
+from itertools import chain, islice
 from pathlib import Path
 from typing import TypeVar
 
@@ -21,7 +22,7 @@ from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
 from tapgauge.measure import measure
 from tapgauge.model import DeviceHints, InputError, RuleSet, ScreenResult
-from tapgauge.readers import ReadOptions, discover, read_screens
+from tapgauge.readers import ReadOptions, iter_inputs, read_screens
 from tapgauge.report.records import Checked, display_path, screen_record
 from tapgauge.score import Scoring
 from tapgauge.waivers import Waivers, waive_screen
@@ -114,7 +115,19 @@ def default_jobs() -> int:
     return max(1, os.cpu_count() or 1)
 
 
-def _ordered(work: Callable[[Path, Settings], list[T]], files: list[Path], settings: Settings,
+def _chunks(items: Iterator[Path | InputError], jobs: int) -> Iterator[list[Path | InputError]]:
+    """Files in chunks that start at one file and grow to 16 as the batch proves long.
+
+    A short batch is spread over every worker; a long one pays less for each
+    trip to a worker. The batch's length is not known in advance (discovery streams).
+    """
+    sent = 0
+    while chunk := list(islice(items, max(1, min(16, sent // (jobs * 16))))):
+        sent += len(chunk)
+        yield chunk
+
+
+def _ordered(work: Callable[[Path, Settings], list[T]], items: Iterator[Path | InputError], settings: Settings,
              jobs: int) -> Iterator[list[T | InputError]]:
     """`work` over files in worker processes, results in file order, few files in flight.
 
@@ -127,13 +140,12 @@ def _ordered(work: Callable[[Path, Settings], list[T]], files: list[Path], setti
     from concurrent.futures import ProcessPoolExecutor
     from concurrent.futures.process import BrokenProcessPool
 
-    chunk = max(1, min(16, len(files) // (jobs * 16) or 1))
-    batches = iter([files[i:i + chunk] for i in range(0, len(files), chunk)])
+    batches = _chunks(items, jobs)
     window = jobs * 3
     pool = ProcessPoolExecutor(max_workers=jobs)
-    pending: deque[tuple[list[Path], Future[list[list[T]]] | None]] = deque()
+    pending: deque[tuple[list[Path | InputError], Future[list[list[T | InputError]]] | None]] = deque()
 
-    def submit(batch: list[Path]) -> Future[list[list[T]]] | None:
+    def submit(batch: list[Path | InputError]) -> Future[list[list[T | InputError]]] | None:
         try:
             return pool.submit(_work_batch, work, batch, settings)
         except BrokenProcessPool:
@@ -165,25 +177,38 @@ def _ordered(work: Callable[[Path, Settings], list[T]], files: list[Path], setti
         pool.shutdown(wait=False, cancel_futures=True)
 
 
-def _work_batch(work: Callable[[Path, Settings], list[T]], batch: list[Path], settings: Settings) -> list[list[T]]:
-    return [work(path, settings) for path in batch]
+def _do(work: Callable[[Path, Settings], list[T]], item: Path | InputError, settings: Settings) -> list[T | InputError]:
+    return [item] if isinstance(item, InputError) else list(work(item, settings))  # a folder that could not be read
 
 
-def _one_by_one(work: Callable[[Path, Settings], list[T]], batch: list[Path],
+def _work_batch(work: Callable[[Path, Settings], list[T]], batch: list[Path | InputError],
+                settings: Settings) -> list[list[T | InputError]]:
+    return [_do(work, item, settings) for item in batch]
+
+
+def _one_by_one(work: Callable[[Path, Settings], list[T]], batch: list[Path | InputError],
                 settings: Settings) -> list[list[T | InputError]]:
     """A chunk whose worker died, redone one file per fresh process, so only the culprit is lost."""
     from concurrent.futures import ProcessPoolExecutor
     from concurrent.futures.process import BrokenProcessPool
 
     out: list[list[T | InputError]] = []
-    for path in batch:
+    for item in batch:
+        if isinstance(item, InputError):
+            out.append([item])
+            continue
         with ProcessPoolExecutor(max_workers=1) as solo:
             try:
-                out.append(list(solo.submit(work, path, settings).result()))
+                out.append(list(solo.submit(work, item, settings).result()))
             except BrokenProcessPool:
-                out.append([InputError(path, "the process checking this file stopped abruptly (a crash in a "
+                out.append([InputError(item, "the process checking this file stopped abruptly (a crash in a "
                                              "picture or XML library, or out of memory); the other files were checked")])
     return out
+
+
+def count_inputs(paths: list[Path]) -> int:
+    """How many items `iter_results` will go through: a second walk of the folders, keeping nothing."""
+    return sum(1 for _ in iter_inputs(paths, display_path))
 
 
 def iter_results(paths: list[Path], settings: Settings, jobs: int = 1,
@@ -191,21 +216,22 @@ def iter_results(paths: list[Path], settings: Settings, jobs: int = 1,
                  work: Callable[[Path, Settings], list[T]] = check_one) -> Iterator[T | InputError]:  # type: ignore[assignment]
     """`work`'s results for every input file, in display-path order, whatever the number of workers.
 
-    That order is the report's order, so records can be written as they come.
-    `progress(done, total)` is called as files finish.
+    That order is the report's order, so records can be written as they come. Files
+    are found as the run goes (no list of them is kept); `progress(done, total)` is
+    called as files finish, with the total from a first, cheap walk.
     """
-    files, missing = discover(paths)
-    yield from missing
-    files.sort(key=display_path)
-    total = len(files)
-    if jobs <= 1 or total < 2:
-        results: Iterator[list[T]] = (work(path, settings) for path in files)
+    items = iter_inputs(paths, display_path)  # paths that do not exist come first, as errors
+    total = count_inputs(paths) if progress else 0
+    head = list(islice(items, jobs))
+    items = chain(head, items)
+    if jobs <= 1 or len(head) < 2:
+        results: Iterator[list[T | InputError]] = (_do(work, item, settings) for item in items)
     else:
-        results = _ordered(work, files, settings, min(jobs, total))
-    for done, items in enumerate(results, start=1):
-        yield from items
+        results = _ordered(work, items, settings, min(jobs, len(head)))
+    for done, found in enumerate(results, start=1):
+        yield from found
         if progress:
-            progress(done, total)
+            progress(done, max(done, total))
 
 
 def run_check(paths: list[Path], settings: Settings, jobs: int = 1,

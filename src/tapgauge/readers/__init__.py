@@ -6,8 +6,11 @@ element tree), `home.png` (its screenshot, for overlays) and `home.device.txt`.
 
 from __future__ import annotations
 
+import heapq
 import os
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field, replace
+from operator import itemgetter
 from pathlib import Path
 
 from tapgauge.model import DeviceHints, InputError, Screen
@@ -123,21 +126,61 @@ def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
     return sorted(inputs)
 
 
-def discover(paths: list[Path]) -> tuple[list[Path], list[InputError]]:
-    """Expand files and folders (recursively) into input files, in a stable order.
+def _sorted_walk(folder: Path) -> Iterator[Path | InputError]:
+    """A folder's inputs, recursively, in the string order of their paths, one folder read at a time.
 
-    Files named directly are always taken. Symbolic links to folders are not
-    followed, so a link loop cannot trap the walk.
+    Siblings are sorted with a folder's name followed by "/", as it appears inside every
+    path below it, so the walk comes out in exactly the order a sorted list of full paths
+    would have, without the list. Symbolic links to folders are not followed (a link
+    loop cannot trap the walk); a folder that cannot be read is an error, not a silent gap.
     """
-    found: list[Path] = []
-    errors: list[InputError] = []
+    try:
+        with os.scandir(folder) as it:
+            entries = [(e.name, e.is_dir(), e.is_symlink()) for e in it]
+    except OSError as exc:
+        yield InputError(folder, f"cannot read this folder ({exc.strerror or exc}); its screens were not checked")
+        return
+    files = [name for name, is_dir, _ in entries if not is_dir]
+    order: list[tuple[str, Path]] = [(p.name, p) for p in _folder_inputs(folder, files)]
+    order += [(name + "/", folder / name) for name, is_dir, link in entries if is_dir and not link]
+    for name, path in sorted(order, key=itemgetter(0)):
+        if name.endswith("/"):
+            yield from _sorted_walk(path)
+        else:
+            yield path
+
+
+def iter_inputs(paths: list[Path], key: Callable[[Path], str]) -> Iterator[Path | InputError]:
+    """Input files under `paths` (files named directly are always taken), each once, in `key` order.
+
+    Paths that do not exist come first, as errors. Folders are walked lazily and the
+    walks merged, so no list of every file found is kept: memory stays flat however
+    many screens a run checks (it grows only with the largest single folder).
+    """
+    streams: list[Iterator[Path | InputError]] = []
     for given in paths:
         if given.is_file():
-            found.append(given)
+            streams.append(iter([given]))
         elif given.is_dir():
-            for folder, dirs, files in os.walk(given):
-                dirs.sort()
-                found.extend(_folder_inputs(Path(folder), files))
+            streams.append(_sorted_walk(given))
         else:
-            errors.append(InputError(given, "no such file or folder"))
-    return list(dict.fromkeys(found)), errors
+            yield InputError(given, "no such file or folder")
+
+    def order(item: Path | InputError) -> str:
+        return key(Path(item.path)) if isinstance(item, InputError) else key(item)
+
+    last = None
+    for item in heapq.merge(*streams, key=order):
+        k = order(item)
+        if k != last:  # the same file reached twice (a folder and a file in it, or nested folders)
+            yield item
+            last = k
+
+
+def discover(paths: list[Path]) -> tuple[list[Path], list[InputError]]:
+    """Every input file under `paths`, as a list, in path order; and the errors met on the way."""
+    found: list[Path] = []
+    errors: list[InputError] = []
+    for item in iter_inputs(paths, lambda p: p.as_posix()):
+        (errors if isinstance(item, InputError) else found).append(item)  # type: ignore[arg-type]
+    return found, errors
