@@ -18,7 +18,7 @@ from conftest import DEMO
 from tapgauge.cli import main
 from tapgauge.model import InputError
 from tapgauge.pipeline import Settings, check_one
-from tapgauge.readers import read_screens
+from tapgauge.readers import discover, read_screens
 from tapgauge.textfile import MAX_BYTES
 from tapgauge.rulesets import select_rulesets
 
@@ -524,3 +524,18 @@ def test_a_reader_that_stops_early_gets_exit_141_and_no_traceback() -> None:
     err = proc.stderr.read().decode()
     assert proc.wait(timeout=120) == 141  # the shell's code for SIGPIPE, never 1 ("findings")
     assert "Traceback" not in err
+
+
+def test_folders_nested_past_any_export_are_an_error_not_a_crash(tmp_path: Path) -> None:
+    # common practice: no device export nests folders hundreds deep; the walk must stop, not overflow
+    deep = tmp_path / "d"
+    deep.mkdir()
+    (deep / "top.xml").write_text("<hierarchy/>")
+    where = deep
+    for _ in range(260):
+        where = where / "n"
+    where.mkdir(parents=True)
+    (where / "bottom.xml").write_text("<hierarchy/>")
+    found, errors = discover([deep])
+    assert [p.name for p in found] == ["top.xml"]
+    assert len(errors) == 1 and "folders deep" in errors[0].message

@@ -126,7 +126,10 @@ def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
     return sorted(inputs)
 
 
-def _sorted_walk(folder: Path) -> Iterator[Path | InputError]:
+_DEEPEST = 200  # folders below a given folder; far past any export, well within Python's recursion limit
+
+
+def _sorted_walk(folder: Path, depth: int = 0) -> Iterator[Path | InputError]:
     """A folder's inputs, recursively, in the string order of their paths, one folder read at a time.
 
     Siblings are sorted with a folder's name followed by "/", as it appears inside every
@@ -134,6 +137,9 @@ def _sorted_walk(folder: Path) -> Iterator[Path | InputError]:
     would have, without the list. Symbolic links to folders are not followed (a link
     loop cannot trap the walk); a folder that cannot be read is an error, not a silent gap.
     """
+    if depth > _DEEPEST:
+        yield InputError(folder, f"more than {_DEEPEST} folders deep; nothing below it was searched")
+        return
     try:
         with os.scandir(folder) as it:
             entries = [(e.name, e.is_dir(), e.is_symlink()) for e in it]
@@ -145,7 +151,7 @@ def _sorted_walk(folder: Path) -> Iterator[Path | InputError]:
     order += [(name + "/", folder / name) for name, is_dir, link in entries if is_dir and not link]
     for name, path in sorted(order, key=itemgetter(0)):
         if name.endswith("/"):
-            yield from _sorted_walk(path)
+            yield from _sorted_walk(path, depth + 1)
         else:
             yield path
 
