@@ -178,7 +178,7 @@ def _ordered(work: Callable[[Path, Settings], list[T]], items: Iterator[Path | I
 
 
 def _do(work: Callable[[Path, Settings], list[T]], item: Path | InputError, settings: Settings) -> list[T | InputError]:
-    return [item] if isinstance(item, InputError) else list(work(item, settings))  # a folder that could not be read
+    return [item] if isinstance(item, InputError) else list(work(item, settings))  # met while finding files
 
 
 def _work_batch(work: Callable[[Path, Settings], list[T]], batch: list[Path | InputError],
