@@ -37,13 +37,11 @@ class Kind:
 
 def _fmt(v: float) -> str:
     """One decimal, dropped when it is zero: 24 dp, 23.5 dp."""
-    text = f"{v:.1f}"
-    return text[:-2] if text.endswith(".0") else text
+    return f"{v:.1f}".removesuffix(".0")
 
 
 def _who(m: MeasuredScreen, pos: int) -> str:
-    t = m.target(pos)
-    return f"#{t.ordinal} '{t.name}'"
+    return m.labels[pos]
 
 
 def display_unit(m: MeasuredScreen, rule: Rule) -> str:
@@ -99,15 +97,17 @@ def check_min_gap(m: MeasuredScreen, rule: Rule) -> KindResult:
     overlapping = np.zeros(len(boxes), dtype=bool)
     if len(positions):
         overlapping[positions] = intersection_areas(boxes[positions], boxes[who[positions]]) > 0
+    measured, labels = np.round(nearest, 3).tolist(), m.labels
+    need = f"; needs {_fmt(gap)} {unit} clear"
     for pos in positions.tolist():
         d, other = gaps[pos], others[pos]
         if d > EPS:
-            where = f"{_fmt(d)} {unit} from {_who(m, other)}"
+            where = f"{_fmt(d)} {unit} from {labels[other]}"
         elif overlapping[pos]:
-            where = f"overlaps {_who(m, other)}"
+            where = f"overlaps {labels[other]}"
         else:
-            where = f"touches {_who(m, other)}"
-        findings.append((pos, Finding(rule.id, rule.severity, round(d, 3), gap, unit, f"{where}; needs {_fmt(gap)} {unit} clear")))
+            where = f"touches {labels[other]}"
+        findings.append((pos, Finding(rule.id, rule.severity, measured[pos], gap, unit, where + need)))
     return KindResult(tuple(findings))
 
 

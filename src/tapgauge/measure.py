@@ -35,6 +35,7 @@ class MeasuredScreen:
     clipped_by: tuple[str, ...]  # per checked target: "" or a description of the clipping container
     # Derived arrays, computed once per unit: several rules ask for the same ones.
     _derived: dict[tuple[str, str], FloatArray] = field(default_factory=dict, repr=False)
+    _labels: list[str] = field(default_factory=list, repr=False)
 
     def boxes(self, unit: str) -> FloatArray:
         """The checked boxes in the platform unit, or in millimetres with unit="mm"."""
@@ -60,8 +61,12 @@ class MeasuredScreen:
             self._derived[key] = side
         return self._derived[key]
 
-    def target(self, position: int) -> Target:
-        return self.screen.targets[self.checked[position]]
+    @property
+    def labels(self) -> list[str]:
+        """How messages name each checked target ("#3 'Save'"), made once: findings name neighbours often."""
+        if len(self._labels) != len(self.checked):
+            self._labels[:] = [f"#{t.ordinal} '{t.name}'" for t in map(self.screen.targets.__getitem__, self.checked)]
+        return self._labels
 
 
 def to_unit(boxes: FloatArray, device: Device, unit: str) -> FloatArray:
