@@ -166,3 +166,13 @@ def test_a_file_reached_twice_is_checked_once(tmp_path: Path) -> None:
     twice = [r for r in iter_results([tmp_path / "demo", one], st_) if not isinstance(r, InputError)]
     once = [r for r in iter_results([tmp_path / "demo"], st_) if not isinstance(r, InputError)]
     assert [r.screen.path for r in twice] == [r.screen.path for r in once]
+
+
+def test_progress_counts_every_file_and_ends_at_its_total(tmp_path: Path) -> None:
+    shutil.copytree(DEMO, tmp_path / "demo")
+    ticks: list[tuple[int, int]] = []
+    settings_ = Settings(tuple(select_rulesets(list(DEFAULT_RULESETS))))
+    list(iter_results([tmp_path / "demo", tmp_path / "nope"], settings_, 2, lambda d, t: ticks.append((d, t))))
+    files, errors = discover([tmp_path / "demo", tmp_path / "nope"])
+    assert ticks[-1] == (len(files) + len(errors), len(files) + len(errors))
+    assert [d for d, _ in ticks] == list(range(1, len(ticks) + 1))
