@@ -62,7 +62,7 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
         for pred in per_profile
     ]
     # Every profile's Difficulty records built column-wise, then dealt out per target by zip.
-    per_target = zip(*(map(Difficulty, repeat(p.id), *columns[j]) for j, p in enumerate(profiles)))
+    per_target = zip(*(map(Difficulty, repeat(p.id), *column) for p, column in zip(profiles, columns)))
     targets = list(sr.targets)
     for k, difficulty in zip(scored, per_target):
         t = targets[k]  # built directly: _replace costs more than the rest of this loop

@@ -97,12 +97,12 @@ def read_screen(path: Path) -> Screen:
 
 
 def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
-    """The primary inputs of one folder: screens, annotations, and pictures nothing else claims."""
+    """The primary inputs of one folder: screens, annotations, and pictures nothing else claims (any order)."""
     names = set(files)
     stems_claimed: set[str] = set()
     inputs: list[Path] = []
     referenced: set[str] = set()
-    for name in sorted(files):
+    for name in files:
         p = folder / name
         low = name.lower()
         if low.endswith(SIDECAR_SUFFIX) or name in NOT_LABELS:
@@ -119,11 +119,11 @@ def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
         elif low.endswith(".txt") and any(p.stem + s in names for s in IMAGE_SUFFIXES):
             inputs.append(p)  # YOLO labels beside their image
             stems_claimed.add(p.stem)
-    for name in sorted(files):
+    for name in files:
         p = folder / name
         if p.suffix.lower() in IMAGE_SUFFIXES and p.stem not in stems_claimed and name not in referenced:
             inputs.append(p)  # a lone screenshot: boxes marked on it
-    return sorted(inputs)
+    return inputs
 
 
 _DEEPEST = 200  # folders below a given folder; far past any export, well within Python's recursion limit
