@@ -176,7 +176,7 @@ def _sizes(m: MeasuredScreen) -> tuple[list[list[float]], list[list[float]] | No
 
 
 def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool) -> ScreenResult:
-    notices: list[str] = []
+    notices: list[str] = [*m.screen.notices, *m.notices]
     applied: list[str] = []
     findings: dict[int, list[Finding]] = {}
     notes: dict[int, list[str]] = {}

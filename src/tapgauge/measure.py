@@ -33,6 +33,7 @@ class MeasuredScreen:
     boxes_px: FloatArray  # boxes of the checked targets, in screen coordinates
     covers: tuple[tuple[int, ...], ...]  # per checked target: positions in `checked` drawn over it
     clipped_by: tuple[str, ...]  # per checked target: "" or a description of the clipping container
+    notices: tuple[str, ...] = ()  # what measuring found worth saying of the whole screen
     # Derived arrays, computed once per unit: several rules ask for the same ones.
     _derived: dict[tuple[str, str], FloatArray] = field(default_factory=dict, repr=False)
     _labels: list[str] = field(default_factory=list, repr=False)

@@ -69,15 +69,37 @@ class Target(NamedTuple):
     paint_rank: int = 0  # larger is drawn later, on top
     scroll_ancestors: tuple[tuple[Box, str], ...] = ()  # (bounds, axis "x"/"y")
     line: int | None = None  # line in the source file
+    # Where the node sits in the source's tree, for stacking: per level from the window's
+    # root down, (place among its siblings in paint order, whether the source numbered
+    # that order itself, as Android's drawing-order does). Empty where the source has no tree.
+    path: tuple[tuple[int, bool], ...] = ()
+    window: int = -1  # index into Screen.windows; -1 where the source has no windows
+    text_within: str = ""  # visible text of its descendants, to name a target that has none of its own
 
     @property
     def name(self) -> str:
-        """A short human name: label, else resource id tail, else class tail."""
+        """A short human name: label, else its descendants' text, else resource id tail, else class tail."""
         if self.label:
             return self.label
+        if self.text_within:
+            return self.text_within
         if self.resource_id:
             return self.resource_id.rsplit("/", 1)[-1]
-        return self.cls.rsplit(".", 1)[-1] or "target"
+        return self.cls.rsplit(".", 1)[-1].removeprefix("XCUIElementType") or "target"
+
+    def is_ancestor_of(self, other: Target) -> bool:
+        """Whether this node encloses `other` in the source's tree (same window, a proper prefix of its path)."""
+        n = len(self.path)
+        return 0 < n < len(other.path) and self.window == other.window and other.path[:n] == self.path
+
+
+class Window(NamedTuple):
+    """A window in a dump that holds several: the app's, the keyboard's, the system bars', a dialog's."""
+
+    bounds: Box
+    package: str  # Android: the package of the window's root node; "" where the source has none
+    kind: str = ""  # what the source itself says it is ("keyboard" for an iOS keyboard); "" when it does not
+    line: int | None = None
 
 
 @dataclass(frozen=True)
@@ -103,6 +125,8 @@ class Screen:
     coords: str = "px"  # "px" or "pt"
     image: Path | None = None  # the screenshot that shows this screen, if there is one
     name: str = ""  # which screen in a multi-screen file (COCO, CSV); "" for one-screen files
+    notices: tuple[str, ...] = ()  # what the reader wants the user to know (lines it ignored, nodes it skipped)
+    windows: tuple[Window, ...] = ()  # in document order; targets point into it
 
 
 @dataclass(frozen=True)

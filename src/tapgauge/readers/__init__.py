@@ -38,6 +38,9 @@ NOT_LABELS = {FOLDER_SIDECAR, "classes.txt"}
 class ReadOptions:
     classes: ClassMap = field(default_factory=default_class_map)
     marker_hue: float = field(default_factory=lambda: parse_marker(DEFAULT_MARKER))
+    # Also take as targets what frameworks sometimes write for controls without marking them
+    # tappable: Android nodes focusable but not clickable, iOS "Other" elements with a label.
+    include_focusable: bool = False
 
 
 def _hints(path: Path) -> tuple[DeviceHints, ...]:
