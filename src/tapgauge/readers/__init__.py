@@ -66,9 +66,10 @@ def read_screens(path: Path, options: ReadOptions | None = None) -> list[Screen]
         return [read_marked(path, opts.marker_hue, _hints(path))]
     root = parse_xml(path)
     if is_android_root(root):
-        return [read_android(path, root, _hints(path), image=_picture(path))]
+        return [read_android(path, root, _hints(path), image=_picture(path), include_focusable=opts.include_focusable)]
     if is_ios_root(root):
-        return [_with_scale_from_picture(read_ios(path, root, _hints(path), image=_picture(path)))]
+        return [_with_scale_from_picture(read_ios(path, root, _hints(path), image=_picture(path),
+                                                  include_focusable=opts.include_focusable))]
     if is_voc_root(root):
         return [read_voc(path, root, opts.classes, _hints)]
     raise InputError(

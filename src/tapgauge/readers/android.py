@@ -146,7 +146,8 @@ class _Walk:
                     self.children(child, scrollers, visible)
 
 
-def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None) -> Screen:
+def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None,
+                 include_focusable: bool = False) -> Screen:
     rotation_raw = root.get("rotation", "0")
     if rotation_raw.strip() not in ("0", "1", "2", "3"):
         raise InputError(path, f"rotation={rotation_raw!r}; expected 0, 1, 2 or 3", root.sourceline)

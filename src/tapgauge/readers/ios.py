@@ -58,7 +58,8 @@ def _frame(el: etree._Element, path: Path) -> tuple[float, float, float, float] 
     return (x, y, x + w, y + h)
 
 
-def read_ios(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None) -> Screen:
+def read_ios(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None,
+             include_focusable: bool = False) -> Screen:
     found: list[dict[str, Any]] = []
     extent = [0.0, 0.0]
     app_frame: tuple[float, float, float, float] | None = None
