@@ -54,16 +54,20 @@ def interruptible() -> Iterator[None]:
 
 
 def overlay_observer(report: Report, folder: Path, failed: list[str]) -> Callable[[dict], None]:
-    """Draw each screen's overlay as it passes; after the first failure, say it once and stop drawing."""
+    """Draw each screen's overlay as it passes, saying what its picture could not show; after the first
+    failure to write, say it once and stop drawing."""
     from tapgauge.report.overlay import write_overlay  # Pillow drawing only when asked
 
     def draw(screen: dict) -> None:
         if failed:
             return
         try:
-            write_overlay(screen, report, folder)
+            written = write_overlay(screen, report, folder)
         except OSError as exc:
             failed.append(str(exc.strerror or exc))
+            return
+        if written.notice:  # e.g. a screenshot the boxes cannot be aligned with: said, not only drawn
+            say(f"{screen['path']}" + (f" :: {screen['name']}" if screen["name"] else "") + f": {written.notice}")
 
     return draw
 

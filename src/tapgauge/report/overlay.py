@@ -5,6 +5,9 @@ Okabe-Ito palette (chosen to stay distinct for common colour-vision deficiencies
 a line style, and a glyph in the target's tag. Failing targets also get the
 minimum square they must hold, dashed and centred on them; targets the WCAG
 spacing rule looked at get their spacing circle. A legend band explains it all.
+
+Boxes go onto the screenshot only where its pixels can be told from the dump (see `align`);
+otherwise the overlay is a wireframe and says why, rather than stretching boxes to fit.
 """
 
 from __future__ import annotations
@@ -13,7 +16,7 @@ import io
 import math
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, NamedTuple
 
 from PIL import Image, ImageDraw, ImageFont
 
@@ -102,24 +105,99 @@ def _to_coords(size: float, unit: str, device: dict[str, Any]) -> tuple[float, f
     return size * device["coords_per_unit"], size * device["coords_per_unit"]
 
 
-def draw_overlay(screen: dict[str, Any], report: Report, image: Image.Image | None,
-                 max_width: int | None = None) -> Image.Image:
-    """The overlay of one screen record as a new picture (the screenshot is not changed).
+AGREE = 0.01  # two axes' scales count as one uniform scale within 1% (common practice: rounding slack)
 
-    With max_width the picture is drawn at most that wide (cheaper than drawing big and shrinking).
+
+@dataclass(frozen=True)
+class Alignment:
+    """How a screen's coordinates land on its screenshot's pixels (picture = coordinate x f)."""
+
+    fx: float
+    fy: float
+    note: str = ""  # a legend line for a sound but unusual fit
+    refusal: str = ""  # why the screenshot was left out; "" when the boxes sit on it
+
+    @property
+    def on_picture(self) -> bool:
+        return not self.refusal
+
+
+def _size(v: float) -> str:
+    return f"{v:g}"
+
+
+def align(screen: dict[str, Any], picture: tuple[int, int]) -> Alignment:
+    """Where a screen record's boxes fall on a picture of `picture` (width, height) pixels.
+
+    Android bounds are screen pixels, whatever window size the dump's root states; iOS
+    frames are points, the picture points x scale; annotated and marked screenshots use
+    the picture's own pixels (their readers insist the sizes match). A picture that fits
+    none of these is refused, never stretched: the boxes would land on the wrong controls.
     """
     w, h = float(screen["width"]), float(screen["height"])
-    if image is not None:
+    pw, ph = picture
+    unit = screen["coordinates"]
+    shot = Path(screen["image"]).name if screen["image"] else "screenshot"
+    sizes = f"screen {_size(w)}x{_size(h)} {unit}, picture {pw}x{ph} px"
+    if screen["image"] is not None and screen["image"] == screen["path"]:
+        return Alignment(1.0, 1.0)  # a marked screenshot: the boxes were found in this very picture
+    if w <= 0 or h <= 0:
+        return Alignment(1.0, 1.0, refusal=f"cannot align the overlay with {shot}: {sizes} "
+                                          "(the screen has no size); wireframe drawn instead")
+    if unit == "px" and (pw, ph) == (w, h):
+        return Alignment(1.0, 1.0)
+    if unit == "px" and pw >= w and ph >= h:
+        outside = [t for t in screen["targets"] if not _inside(t["bounds"], pw, ph)]
+        if not outside:
+            # Bounds are screen pixels; the dump's root gave the app window, smaller than the
+            # screen the screenshot shows (system bars): draw 1:1 from the picture's corner.
+            return Alignment(1.0, 1.0, note=f"window in the dump: {_size(w)}x{_size(h)} px, inside a {pw}x{ph} px "
+                                            "screenshot; boxes drawn 1:1 in screen pixels")
+    else:
+        outside = []
+    rx, ry = pw / w, ph / h
+    if abs(rx - ry) <= AGREE * max(rx, ry):
+        k = (rx + ry) / 2
+        return Alignment(k, k)
+    why = (f"target #{outside[0]['ordinal']} reaches outside the picture" if outside
+           else f"scaled {rx:.3g}x across but {ry:.3g}x down")
+    return Alignment(1.0, 1.0, refusal=f"cannot align the overlay with {shot}: {sizes} ({why}); "
+                                       "wireframe drawn instead")
+
+
+def _inside(bounds: list[float], pw: int, ph: int) -> bool:
+    l, t, r, b = bounds
+    return l >= 0 and t >= 0 and r <= pw and b <= ph
+
+
+def draw_overlay(screen: dict[str, Any], report: Report, image: Image.Image | None,
+                 max_width: int | None = None) -> Image.Image:
+    """The overlay of one screen record as a new picture (the screenshot is not changed)."""
+    return render(screen, report, image, max_width)[0]
+
+
+def render(screen: dict[str, Any], report: Report, image: Image.Image | None,
+           max_width: int | None = None) -> tuple[Image.Image, Alignment | None]:
+    """The overlay of one screen record, and how it sits on the screenshot (None without one).
+
+    With max_width the picture is drawn at most that wide (cheaper than drawing big and shrinking).
+    A refused alignment is drawn as a wireframe, its reason in the legend.
+    """
+    w, h = float(screen["width"]), float(screen["height"])
+    fit = None if image is None else align(screen, image.size)
+    if image is not None and fit is not None and fit.on_picture:
         picture = image.convert("RGB")
+        fx, fy = fit.fx, fit.fy
         if max_width and picture.width > max_width:
+            full = picture.size
             picture = picture.resize((max_width, max(1, round(picture.height * max_width / picture.width))),
                                      Image.Resampling.BILINEAR)
+            fx, fy = fx * picture.width / full[0], fy * picture.height / full[1]
         base = Image.blend(picture, Image.new("RGB", picture.size, PAPER), 0.35)
-        fx, fy = base.width / w, base.height / h
     else:
         k = 2.0 if screen["coordinates"] == "pt" else 1.0
         if max_width:
-            k = min(k, max_width / w)
+            k = min(k, max_width / max(w, 1.0))
         base = Image.new("RGB", (max(1, round(w * k)), max(1, round(h * k))), (244, 244, 242))
         fx = fy = k
     s = max(1, round(base.width / 540))  # line widths and text grow with the picture
@@ -152,14 +230,28 @@ def draw_overlay(screen: dict[str, Any], report: Report, image: Image.Image | No
         ty = box[1] - 13 * s if box[1] >= 13 * s else box[3]
         draw.rectangle([box[0], ty, box[0] + tw + 4 * s, ty + 13 * s], fill=mark.colour)
         draw.text((box[0] + 2 * s, ty + 1 * s), tag, fill=PAPER, font=font)
-    return _with_legend(base, screen, s)
+    notes = (fit.note or fit.refusal,) if fit is not None and (fit.note or fit.refusal) else ()
+    return _with_legend(base, screen, s, notes), fit
 
 
-def _with_legend(base: Image.Image, screen: dict[str, Any], s: int) -> Image.Image:
+def _fit_text(text: str, font: ImageFont.ImageFont | ImageFont.FreeTypeFont, width: float) -> list[str]:
+    """`text` in lines no wider than `width` pixels, broken at spaces (a long word stays whole)."""
+    lines: list[str] = []
+    for word in text.split(" "):
+        if lines and font.getlength(lines[-1] + " " + word) <= width:
+            lines[-1] += " " + word
+        else:
+            lines.append(word)
+    return lines
+
+
+def _with_legend(base: Image.Image, screen: dict[str, Any], s: int, notes: tuple[str, ...] = ()) -> Image.Image:
     font = _font(12 * s)
     rows = [f"{screen['path']}" + (f" :: {screen['name']}" if screen["name"] else "")]
     counts = screen["summary"]
     rows.append(", ".join(f"{counts[k]} {k}" for k in ("pass", "fail", "unmeasurable", "unchecked", "exempt") if counts[k]))
+    for note in notes:  # alignment notes are long and matter: wrapped to the picture, never cut off
+        rows += _fit_text(note, font, base.width - 16 * s)
     line_h = 18 * s
     height = line_h * (len(rows) + len(MARKS) + 2) + 8 * s
     out = Image.new("RGB", (base.width, base.height + height), PAPER)
@@ -190,19 +282,29 @@ def overlay_name(screen: dict[str, Any]) -> Path:
     return stem.with_name(stem.name + ".overlay.png")
 
 
-def write_overlay(screen: dict[str, Any], report: Report, folder: Path) -> Path:
+class Written(NamedTuple):
+    path: Path
+    notice: str  # what the user should hear about this picture (on stderr); "" when all went well
+
+
+def write_overlay(screen: dict[str, Any], report: Report, folder: Path) -> Written:
     """A screen's overlay under `folder`, written atomically; the screenshot is let go at once."""
     image = None
+    notice = ""
     if screen["image"]:
         try:
             image = Image.open(screen["image"])
             image.load()
-        except (OSError, Image.DecompressionBombError):
-            image = None  # the reader already vetted it; a vanished file falls back to wireframe
-    picture = draw_overlay(screen, report, image)
+        except (OSError, Image.DecompressionBombError) as exc:
+            # The reader already vetted it; a file that vanished or changed since falls back to wireframe.
+            image = None
+            notice = f"cannot read the screenshot {screen['image']} ({exc}); wireframe drawn instead"
+    picture, fit = render(screen, report, image)
+    if fit is not None and fit.refusal:
+        notice = fit.refusal
     path = folder / overlay_name(screen)
     path.parent.mkdir(parents=True, exist_ok=True)
     buf = io.BytesIO()
     picture.save(buf, "PNG", optimize=False)
     write_atomic(path, buf.getvalue())
-    return path
+    return Written(path, notice)
