@@ -42,7 +42,7 @@ def _px(v: float) -> int:
     return round(v * PX)
 
 
-def _write(node: N, index: int, depth: int, out: list[str]) -> None:
+def _write(node: N, index: int, depth: int, out: list[str], modern: bool = False) -> None:
     l, t, r, b = (_px(v) for v in node.box)
     attrs = {
         "index": str(index), "text": node.text, "resource-id": f"{PACKAGE}:id/{node.rid}" if node.rid else "",
@@ -54,6 +54,8 @@ def _write(node: N, index: int, depth: int, out: list[str]) -> None:
         "password": "false", "selected": "false", "visible-to-user": str(node.visible).lower(),
         "bounds": f"[{l},{t}][{r},{b}]",
     }
+    if modern:  # newer dumpers also write the order in which the parent draws its children
+        attrs["drawing-order"] = str(index + 1)
     text = " ".join(f"{k}={quoteattr(v)}" for k, v in attrs.items())
     pad = "  " * depth
     if not node.kids:
@@ -61,7 +63,7 @@ def _write(node: N, index: int, depth: int, out: list[str]) -> None:
         return
     out.append(f"{pad}<node {text}>")
     for k, kid in enumerate(node.kids):
-        _write(kid, k, depth + 1, out)
+        _write(kid, k, depth + 1, out, modern)
     out.append(f"{pad}</node>")
 
 
@@ -70,10 +72,11 @@ class AndroidScreen:
     root: N
     rotation: int
     size: tuple[float, float]  # dp
+    modern: bool = False  # written by a newer dumper, with drawing-order
 
     def xml(self) -> str:
         out = ["<?xml version='1.0' encoding='UTF-8' standalone='yes' ?>", f'<hierarchy rotation="{self.rotation}">']
-        _write(self.root, 0, 1, out)
+        _write(self.root, 0, 1, out, self.modern)
         out.append("</hierarchy>")
         return "\n".join(out) + "\n"
 
@@ -246,7 +249,7 @@ def booking_form(release: int = 0) -> AndroidScreen:
     In release 2 the confirm button shrinks from 56 to 40 dp tall.
     """
     confirm_top = 776 if release == 2 else 760
-    return dump([
+    screen = dump([
         toolbar("Book plot B7"),
         N("android.widget.EditText", (16, 96, 376, 152), text="Member name", click=True, long=True, rid="name"),
         # The clear button sits inside the field, drawn over it; the field keeps plenty of room.
@@ -259,6 +262,8 @@ def booking_form(release: int = 0) -> AndroidScreen:
         N("android.widget.CheckBox", (16, 272, 376, 290), text="I have read the plot rules", check=True, click=True, rid="rules_ok"),
         N("android.widget.Button", (16, confirm_top, 376, 816), text="Confirm booking", click=True, rid="confirm"),
     ])
+    # Dumped by a newer dumper: drawing-order says the badge is drawn over the chip, so the overlap is known.
+    return AndroidScreen(screen.root, screen.rotation, screen.size, modern=True)
 
 
 def settings_landscape() -> AndroidScreen:

@@ -16,9 +16,14 @@ DATA = Path(__file__).resolve().parent / "data"
 
 
 def screen_of(boxes: list[tuple[int, int, int, int]], platform: str = "android") -> Screen:
-    """A screen whose targets are the given pixel boxes, later ones drawn on top."""
+    """A screen whose targets are the given pixel boxes, later ones drawn on top.
+
+    They are siblings numbered in drawing order, as a dump with drawing-order says, so
+    which one is on top is known, not presumed.
+    """
     targets = tuple(
-        Target(ordinal=k, bounds=b, cls="android.widget.Button", label=f"t{k}", resource_id="", paint_rank=k + 1)
+        Target(ordinal=k, bounds=b, cls="android.widget.Button", label=f"t{k}", resource_id="", paint_rank=k + 1,
+               path=((k, True),))
         for k, b in enumerate(boxes)
     )
     w = max([b[2] for b in boxes] + [1])

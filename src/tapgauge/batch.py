@@ -21,6 +21,7 @@ from tapgauge.config import Config, load_config
 from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.difficulty import WIDTH_MODELS
 from tapgauge.jsontext import dumps
+from tapgauge.measure import MeasureOptions
 from tapgauge.model import DeviceHints, InputError, Severity
 from tapgauge.pipeline import Settings, default_jobs, iter_results, record_one
 from tapgauge.profiles import DEFAULT_PROFILES, apply_params, parse_start, select_profiles
@@ -123,7 +124,7 @@ def print_input_error(e: dict) -> None:
 def prepare(rules: str | None, density: str | None, scale: str | None, ppi: str | None,
             classes: Path | None, marker: str | None, fail_level: str | None, profiles: str | None,
             params: list[str], start: str, width_model: str, today: str | None,
-            jobs: int | None = None) -> Run | int:
+            jobs: int | None = None, scope: Scope | None = None) -> Run | int:
     """Options and config made into a run; an exit code (after saying why) when they are bad."""
     try:
         if jobs is not None and jobs < 1:
@@ -131,11 +132,12 @@ def prepare(rules: str | None, density: str | None, scale: str | None, ppi: str 
         config = load_config(Path.cwd())
         level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
         chosen = select_rulesets(rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS))
-        read = read_options(config, classes, marker)
+        read = read_options(config, classes, marker, scope)
         scoring = make_scoring(config, profiles, params, start, width_model)
         waivers = Waivers(config.waivers, config.base, parse_day(today))
         settings = Settings(tuple(chosen), common_device(density, scale, ppi), config.devices,
-                            announce_skips=rules is not None, read=read, scoring=scoring, waivers=waivers)
+                            announce_skips=rules is not None, read=read, measure=measure_options(config, scope),
+                            scoring=scoring, waivers=waivers)
     except (InputError, ValueError) as exc:
         say(str(exc))
         return EXIT_ERROR
@@ -190,12 +192,35 @@ def common_device(density: str | None, scale: str | None, ppi: str | None) -> De
     )
 
 
-def read_options(config: Config, classes: Path | None = None, marker: str | None = None) -> ReadOptions:
+@dataclass(frozen=True)
+class Scope:
+    """Which nodes and windows count, as the command line says; None leaves it to the config."""
+
+    all_windows: bool | None = None
+    app_package: str | None = None
+    include_focusable: bool | None = None
+
+
+def _first(*values: object) -> object:
+    return next((v for v in values if v is not None), None)
+
+
+def read_options(config: Config, classes: Path | None = None, marker: str | None = None,
+                 scope: Scope | None = None) -> ReadOptions:
     """Reader options from flags, else the config, else the built-in defaults."""
+    flags = scope or Scope()
     return ReadOptions(
         classes=load_class_map(classes) if classes else (config.classes or default_class_map()),
         marker_hue=parse_marker(marker or config.marker or DEFAULT_MARKER),
+        include_focusable=bool(_first(flags.include_focusable, config.include_focusable)),
     )
+
+
+def measure_options(config: Config, scope: Scope | None = None) -> MeasureOptions:
+    flags = scope or Scope()
+    package = _first(flags.app_package, config.app_package)
+    return MeasureOptions(all_windows=bool(_first(flags.all_windows, config.all_windows)),
+                          app_package=str(package) if package else None)
 
 
 def table_or_json(fmt: str) -> None:

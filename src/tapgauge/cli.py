@@ -18,6 +18,7 @@ from rich.table import Table
 from tapgauge import __version__
 from tapgauge.batch import (
     Discard,
+    Scope,
     common_device,
     emit_record,
     interruptible,
@@ -25,6 +26,7 @@ from tapgauge.batch import (
     overlay_observer,
     prepare,
     progress,
+    measure_options,
     read_options,
     say,
     screen_namer,
@@ -67,6 +69,14 @@ ParamOpt = Annotated[Optional[list[str]], typer.Option(
 StartOpt = Annotated[str, typer.Option("--from", help="Where reaches start: centre, thumb-right, thumb-left, or X,Y in dp/pt.")]
 WidthModelOpt = Annotated[str, typer.Option(help="Target width for Fitts's law: approach (default), smaller or horizontal.")]
 TodayOpt = Annotated[Optional[str], typer.Option(help="Date that waiver expiry is judged on (YYYY-MM-DD); default: today.")]
+AllWindowsOpt = Annotated[Optional[bool], typer.Option(
+    "--all-windows/--app-windows",
+    help="Also check the on-screen keyboard's, the system bars' and other apps' targets (default: the app's only).")]
+AppPackageOpt = Annotated[Optional[str], typer.Option(
+    help="The app's package, where the largest window of a multi-window dump is not the app's.")]
+FocusableOpt = Annotated[Optional[bool], typer.Option(
+    "--include-focusable/--clickable-only",
+    help="Also take as targets Android nodes that are focusable but not clickable and iOS 'Other' elements with a label.")]
 JobsOpt = Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")]
 # gate, flow and compare write one record, as a table or as JSON.
 RecordFormatOpt = Annotated[str, typer.Option("--format", "-f", help="table or json.")]
@@ -112,23 +122,28 @@ def check(
     difficulty: Annotated[bool, typer.Option("--difficulty", help="Add predicted time and miss probability to the table.")] = False,
     today: TodayOpt = None,
     jobs: JobsOpt = None,
+    all_windows: AllWindowsOpt = None,
+    app_package: AppPackageOpt = None,
+    include_focusable: FocusableOpt = None,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
     raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width,
-                            profiles, param or [], start, width_model, difficulty, today, jobs))
+                            profiles, param or [], start, width_model, difficulty, today, jobs,
+                            Scope(all_windows, app_package, include_focusable)))
 
 
 def _check(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
            classes: Path | None, marker: str | None, overlay: Path | None, fmt: str, output: Path | None,
            fail_level: str | None, width: int | None, profiles: str | None, params: list[str], start: str,
-           width_model: str, difficulty: bool, today: str | None, jobs: int | None = None) -> int:
+           width_model: str, difficulty: bool, today: str | None, jobs: int | None = None,
+           scope: Scope | None = None) -> int:
     try:
         writer = writer_for(fmt)
     except ValueError as exc:
         say(str(exc))
         return EXIT_ERROR
     run = prepare(rules, density, scale, ppi, classes, marker, fail_level, profiles, params, start, width_model,
-                   today, jobs)
+                   today, jobs, scope)
     if isinstance(run, int):
         return run
     overlay_failed: list[str] = []
@@ -160,11 +175,15 @@ def baseline_cmd(
     start: StartOpt = "centre",
     today: TodayOpt = None,
     jobs: JobsOpt = None,
+    all_windows: AllWindowsOpt = None,
+    app_package: AppPackageOpt = None,
+    include_focusable: FocusableOpt = None,
 ) -> None:
     """Record each target's identity, size, status and predicted difficulty, for the release gate."""
     from tapgauge.gate import check_overwrite, write_baseline
 
-    run = prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
+    run = prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs,
+                  Scope(all_windows, app_package, include_focusable))
     if isinstance(run, int):
         raise typer.Exit(run)
     config = run.config
@@ -207,6 +226,9 @@ def gate_cmd(
     start: StartOpt = "centre",
     today: TodayOpt = None,
     jobs: JobsOpt = None,
+    all_windows: AllWindowsOpt = None,
+    app_package: AppPackageOpt = None,
+    include_focusable: FocusableOpt = None,
 ) -> None:
     """Fail (exit 1) only on what got worse since the baseline; report what got better."""
     from dataclasses import replace as _replace
@@ -222,7 +244,8 @@ def gate_cmd(
     except (InputError, ValueError) as exc:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    run = prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs)
+    run = prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs,
+                  Scope(all_windows, app_package, include_focusable))
     if isinstance(run, int):
         raise typer.Exit(run)
     overrides = {k: v for k, v in {"size_tolerance": size_tolerance, "miss_tolerance": miss_tolerance,
@@ -290,7 +313,7 @@ def compare_cmd(
         config = load_config(Path.cwd())
         settings = Settings(
             tuple(select_rulesets(list(config.rules or DEFAULT_RULESETS))), common_device(density, scale, ppi),
-            config.devices, read=read_options(config),
+            config.devices, read=read_options(config), measure=measure_options(config),
             scoring=make_scoring(config, profiles, param or [], start, width_model),
         )
         record = compare(a, b, settings)

@@ -21,7 +21,8 @@ from tapgauge.readers.marked import parse_marker
 from tapgauge.textfile import load_toml, read_text
 
 CONFIG_NAME = "tapgauge.toml"
-TOP_KEYS = ("project", "rules", "fail_level", "profiles", "marker", "device", "devices", "classes", "waivers", "gate")
+TOP_KEYS = ("project", "rules", "fail_level", "profiles", "marker", "device", "devices", "classes", "waivers", "gate",
+            "all_windows", "app_package", "include_focusable")
 
 
 def relative_to_base(path: Path, base: Path) -> str:
@@ -80,6 +81,9 @@ class Config:
     fail_level: Severity | None = None
     profiles: tuple[str, ...] | None = None
     marker: str | None = None
+    all_windows: bool | None = None  # also check the keyboard's, system bars' and other apps' targets
+    app_package: str | None = None  # the app's package, where the largest window is not the app's
+    include_focusable: bool | None = None  # also take focusable-only (Android) and labelled Other (iOS) as targets
     classes: ClassMap | None = None
     devices: DeviceDefaults = DeviceDefaults()
     waivers: tuple[Waiver, ...] = ()
@@ -182,6 +186,12 @@ def load_config(start: Path) -> Config:
             parse_marker(str(marker))
         except ValueError as exc:
             raise r.bad("marker", str(exc)) from None
+    for flag in ("all_windows", "include_focusable"):
+        if flag in table and not isinstance(table[flag], bool):
+            raise r.bad(flag, "must be true or false")
+    app_package = table.get("app_package")
+    if app_package is not None and not (isinstance(app_package, str) and app_package.strip()):
+        raise r.bad("app_package", "must be the app's package name, such as \"org.example.app\"")
     fail_level = None
     if "fail_level" in table:
         try:
@@ -206,6 +216,7 @@ def load_config(start: Path) -> Config:
     return Config(
         path=path, project=project, rules=rules, fail_level=fail_level, profiles=profiles,
         marker=str(marker) if marker is not None else None, classes=classes,
+        all_windows=table.get("all_windows"), app_package=app_package, include_focusable=table.get("include_focusable"),
         devices=DeviceDefaults(path.parent, tuple(patterns), fallback),
         waivers=_waivers(r, table.get("waivers", [])), gate=_gate(r, table.get("gate", {})), raw=table,
     )
@@ -271,6 +282,9 @@ def effective_settings(config: Config, defaults: dict[str, Any]) -> list[tuple[s
         ("profiles", ", ".join(config.profiles or defaults["profiles"]), origin("profiles")),
         ("marker", config.marker or defaults["marker"], origin("marker")),
         ("classes", "custom table" if config.classes else "built-in table", origin("classes")),
+        ("all_windows", str(bool(config.all_windows)).lower(), origin("all_windows")),
+        ("app_package", config.app_package or "(the package of the largest window)", origin("app_package")),
+        ("include_focusable", str(bool(config.include_focusable)).lower(), origin("include_focusable")),
         ("device", device_text(config.devices.fallback), origin("device")),
     ]
     for p in config.devices.patterns:

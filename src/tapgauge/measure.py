@@ -8,6 +8,7 @@ dropped. Overlap and clipping are found here once, for every rule to use.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 
@@ -15,13 +16,25 @@ from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import (
     FloatArray,
     as_boxes,
-    covering_pairs,
     largest_free_square,
     one_cover_squares,
     scale_boxes,
     sizes,
 )
-from tapgauge.model import Device, Screen, Target
+from tapgauge.model import Box, Device, Screen, Target
+from tapgauge.stacking import CHECKED_ROLES, WindowRole, blocking_window, cover_pairs, window_roles
+
+
+class MeasureOptions(NamedTuple):
+    """What the user says about which windows count (see stacking.py)."""
+
+    all_windows: bool = False  # also check the keyboard's, the system bars' and other apps' targets
+    app_package: str | None = None  # the app's package, where the largest window is not the app's
+
+
+# Where a clickable container's own targets leave less than this (in dp/pt) uncovered, it is
+# not a target of its own: thin dividers between tabs or rows do not make one (common practice).
+COVERED_BELOW = 1.0
 
 
 @dataclass(frozen=True, eq=False)
@@ -31,9 +44,11 @@ class MeasuredScreen:
     checked: tuple[int, ...]  # indices into screen.targets
     unchecked: tuple[tuple[int, str], ...]  # (index, reason)
     boxes_px: FloatArray  # boxes of the checked targets, in screen coordinates
-    covers: tuple[tuple[int, ...], ...]  # per checked target: positions in `checked` drawn over it
+    covers: tuple[tuple[int, ...], ...]  # per checked target: positions in `checked` known to be drawn over it
     clipped_by: tuple[str, ...]  # per checked target: "" or a description of the clipping container
     notices: tuple[str, ...] = ()  # what measuring found worth saying of the whole screen
+    # per checked target: positions presumed drawn over it (document order only, no drawing-order)
+    maybe_covers: tuple[tuple[int, ...], ...] = ()
     # Derived arrays, computed once per unit: several rules ask for the same ones.
     _derived: dict[tuple[str, str], FloatArray] = field(default_factory=dict, repr=False)
     _labels: list[str] = field(default_factory=list, repr=False)
@@ -46,20 +61,18 @@ class MeasuredScreen:
         return self._derived[key]
 
     def free_squares(self, unit: str) -> FloatArray:
-        """Per checked target, the side of the largest square left once targets drawn over it are removed."""
+        """Per checked target, the side of the largest square left once targets known to be drawn over it are removed."""
         key = ("free", unit)
         if key not in self._derived:
-            boxes = self.boxes(unit)
-            w, h = sizes(boxes)
-            side = np.minimum(w, h)
-            single = [(pos, over[0]) for pos, over in enumerate(self.covers) if len(over) == 1]
-            if single:
-                pos, over = np.array(single).T
-                side[pos] = one_cover_squares(boxes[pos], boxes[over])
-            for pos, over in enumerate(self.covers):
-                if len(over) > 1:
-                    side[pos] = largest_free_square(boxes[pos], boxes[list(over)])[0]
-            self._derived[key] = side
+            self._derived[key] = free_sides(self.boxes(unit), self.covers)
+        return self._derived[key]
+
+    def free_squares_presumed(self, unit: str) -> FloatArray:
+        """The same, counting also the targets only presumed to be drawn over it."""
+        key = ("presumed", unit)
+        if key not in self._derived:
+            both = tuple(tuple(sorted({*a, *b})) for a, b in zip(self.covers, self.maybe_covers))
+            self._derived[key] = free_sides(self.boxes(unit), both) if any(self.maybe_covers) else self.free_squares(unit)
         return self._derived[key]
 
     @property
@@ -68,6 +81,20 @@ class MeasuredScreen:
         if len(self._labels) != len(self.checked):
             self._labels[:] = [f"#{t.ordinal} '{t.name}'" for t in map(self.screen.targets.__getitem__, self.checked)]
         return self._labels
+
+
+def free_sides(boxes: FloatArray, covers: tuple[tuple[int, ...], ...]) -> FloatArray:
+    """Per box, the side of the largest square left once the boxes listed as covering it are removed."""
+    w, h = sizes(boxes)
+    side = np.minimum(w, h)
+    single = [(pos, over[0]) for pos, over in enumerate(covers) if len(over) == 1]
+    if single:
+        pos, over = np.array(single).T
+        side[pos] = one_cover_squares(boxes[pos], boxes[over])
+    for pos, over in enumerate(covers):
+        if len(over) > 1:
+            side[pos] = largest_free_square(boxes[pos], boxes[list(over)])[0]
+    return side
 
 
 def to_unit(boxes: FloatArray, device: Device, unit: str) -> FloatArray:
@@ -102,11 +129,58 @@ def _clipping(t: Target) -> str:
     return ""
 
 
-def measure(screen: Screen, device: Device) -> MeasuredScreen:
+def _window_edge(t: Target, window: Box, width: float, height: float) -> str:
+    """A target flush with an edge of its window that lies inside the screen may be cut by it."""
+    l, top, r, b = t.bounds
+    wl, wt, wr, wb = window
+    if (0 < wl and l <= wl) or (0 < wt and top <= wt) or (wr < width and r >= wr) or (wb < height and b >= wb):
+        return "cut by the edge of its window at [{:g},{:g}][{:g},{:g}]".format(*window)
+    return ""
+
+
+def _off_screen(t: Target, width: float, height: float) -> str:
+    """Wholly outside the screen: "off"; partly: "part"; else ""."""
+    l, top, r, b = t.bounds
+    if width <= 0 or height <= 0:
+        return ""
+    if r <= 0 or b <= 0 or l >= width or top >= height:
+        return "off"
+    return "part" if l < 0 or top < 0 or r > width or b > height else ""
+
+
+def _role_reason(role: str, package: str) -> str:
+    if role == "keyboard":
+        return "a key of the on-screen keyboard, not the app's target (--all-windows checks it)"
+    if role == "system bar":
+        return "in a system bar, not the app's target (--all-windows checks it)"
+    return f"in another app's window (package {package or 'unknown'}), not this app's target (--all-windows checks it)"
+
+
+def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOptions()) -> MeasuredScreen:
     targets = screen.targets
     unchecked: dict[int, str] = {}
+    clipped: dict[int, str] = {}
+    roles = window_roles(screen, options.app_package) if screen.windows else ()
+    with_targets = {t.window for t in targets}
+    notices: list[str] = [] if targets else ["no touch targets on this screen: nothing on it was checked"]
     for k, t in enumerate(targets):
         why = _exclusion(t)
+        if not why and roles:
+            role = roles[t.window]
+            if role.role not in CHECKED_ROLES and not options.all_windows:
+                why = _role_reason(role.role, role.package)
+            else:
+                blocked = blocking_window(t, roles, with_targets)
+                if blocked.startswith("~"):
+                    clipped[k] = blocked[1:]
+                else:
+                    why = blocked
+        if not why:
+            where = _off_screen(t, screen.width, screen.height)
+            if where == "off":
+                why = f"off-screen (wholly outside the {screen.width:g} x {screen.height:g} screen)"
+            elif where == "part":
+                clipped.setdefault(k, "partly off-screen")
         if why:
             unchecked[k] = why
     # Identical boxes are one control as far as a finger can tell: check the one on top.
@@ -121,13 +195,15 @@ def measure(screen: Screen, device: Device) -> MeasuredScreen:
         if k not in unchecked and top_by_box[t.bounds] != k:
             on_top = targets[top_by_box[t.bounds]]
             unchecked[k] = f"same bounds as #{on_top.ordinal} '{on_top.name}', which is drawn over it"
-    checked = tuple(k for k in range(len(targets)) if k not in unchecked)
+    candidates = [k for k in range(len(targets)) if k not in unchecked]
+    unchecked.update(_covered_containers(targets, candidates, device))
+    checked = tuple(k for k in candidates if k not in unchecked)
     boxes = as_boxes([targets[k].bounds for k in checked])
-    ranks = np.array([targets[k].paint_rank for k in checked], dtype=np.int64)
-    under, over = covering_pairs(boxes, ranks)
+    pairs = cover_pairs(boxes, [targets[k] for k in checked], roles)
     covers: list[list[int]] = [[] for _ in checked]
-    for u, o in zip(under.tolist(), over.tolist()):
-        covers[u].append(o)
+    maybe: list[list[int]] = [[] for _ in checked]
+    for u, o, known in zip(pairs.under.tolist(), pairs.over.tolist(), pairs.known.tolist()):
+        (covers if known else maybe)[u].append(o)
     return MeasuredScreen(
         screen=screen,
         device=device,
@@ -135,5 +211,36 @@ def measure(screen: Screen, device: Device) -> MeasuredScreen:
         unchecked=tuple(sorted(unchecked.items())),
         boxes_px=boxes,
         covers=tuple(tuple(sorted(c)) for c in covers),
-        clipped_by=tuple(_clipping(targets[k]) for k in checked),
+        clipped_by=tuple(_clipped(targets[k], clipped.get(k, ""), roles, screen) for k in checked),
+        notices=tuple(notices),
+        maybe_covers=tuple(tuple(sorted(c)) for c in maybe),
     )
+
+
+def _clipped(t: Target, already: str, roles: tuple[WindowRole, ...], screen: Screen) -> str:
+    if already:
+        return already
+    why = _clipping(t)
+    if not why and roles and t.window >= 0:
+        why = _window_edge(t, roles[t.window].bounds, screen.width, screen.height)
+    return why
+
+
+def _covered_containers(targets: tuple[Target, ...], candidates: list[int], device: Device) -> dict[int, str]:
+    """Clickable containers whose own clickable descendants leave no room to tap them: not targets."""
+    nested = [k for k in candidates if targets[k].path]
+    if len(nested) < 2:
+        return {}
+    out: dict[int, str] = {}
+    by_depth = sorted(nested, key=lambda k: len(targets[k].path))
+    for n, k in enumerate(by_depth):
+        container = targets[k]
+        inner = [d for d in by_depth[n + 1:] if container.is_ancestor_of(targets[d])]
+        if not inner:
+            continue
+        side, _ = largest_free_square(np.array(container.bounds, dtype=float),
+                                      as_boxes([targets[d].bounds for d in inner]))
+        if side / device.coords_per_unit < COVERED_BELOW:
+            names = ", ".join(f"#{targets[d].ordinal}" for d in inner[:4]) + (" ..." if len(inner) > 4 else "")
+            out[k] = f"covered by its own targets ({names}): not a target of its own"
+    return out

@@ -20,7 +20,7 @@ from typing import TypeVar
 from tapgauge.checks import check_screen
 from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
-from tapgauge.measure import measure
+from tapgauge.measure import MeasureOptions, measure
 from tapgauge.model import DeviceHints, InputError, RuleSet, ScreenResult
 from tapgauge.readers import ReadOptions, iter_inputs, read_screens
 from tapgauge.report.records import Checked, display_path, screen_record
@@ -37,6 +37,7 @@ class Settings:
     config: DeviceDefaults = DeviceDefaults()  # from the project config: loses to the screen's own files
     announce_skips: bool = False  # say when a chosen rule set does not fit a screen's platform
     read: ReadOptions = field(default_factory=ReadOptions)
+    measure: MeasureOptions = MeasureOptions()
     scoring: Scoring = Scoring()
     waivers: Waivers = Waivers()
 
@@ -57,7 +58,7 @@ def check_file(path: Path, settings: Settings) -> list[ScreenResult]:
         except ValueError as exc:
             where = f" (image {screen.name})" if screen.name else ""
             raise InputError(path, f"{exc}{where}") from None
-        checked = check_screen(measure(screen, device), list(settings.rulesets), settings.announce_skips)
+        checked = check_screen(measure(screen, device, settings.measure), list(settings.rulesets), settings.announce_skips)
         results.append(settings.scoring.apply(checked))
     return results
 

@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 from lxml import etree
 
-from tapgauge.model import Box, DeviceHints, InputError, Screen, Target
+from tapgauge.model import Box, DeviceHints, InputError, Screen, Target, Window
 
 _BOUNDS = re.compile(r"^\s*\[(-?\d+),(-?\d+)\]\[(-?\d+),(-?\d+)\]\s*$")
 _TRUE = "true"
@@ -96,6 +96,8 @@ def _boxes(raws: list[str], nodes: list[etree._Element], path: Path) -> list[lis
 
 
 Scrollers = tuple[tuple[Box, str], ...]  # scrolling view nodes above a node: (bounds, axis "x"/"y")
+Path_ = tuple[tuple[int, bool], ...]  # Target.path: (place in paint order, numbered by drawing-order) per level
+_TEXT_WITHIN = 60  # characters of descendants' text kept to name a target with none of its own
 
 
 class _Walk:
@@ -105,45 +107,81 @@ class _Walk:
     match and four int() calls per node. A class rather than a recursive closure:
     a closure that calls itself is a reference cycle, which kept each file's whole
     tree alive until the garbage collector came round.
+
+    A view node met outside any other view node is a window's root: stock dumps put
+    one per window straight under <hierarchy>, in no particular order (the dumper
+    collects them in a hash set), so windows are stacked later by what they are.
     """
 
-    __slots__ = ("found", "nodes", "path", "raws", "reordered")
+    __slots__ = ("focusable", "found", "loose", "nodes", "path", "raws", "reordered", "texts", "windows")
 
-    def __init__(self, path: Path) -> None:
+    def __init__(self, path: Path, focusable: bool) -> None:
         self.path = path
+        self.loose = focusable  # take focusable-but-not-clickable nodes as targets
         self.nodes: list[etree._Element] = []  # view nodes in paint order; paint rank = place + 1
         self.raws: list[str] = []  # their bounds, unparsed
-        self.found: list[tuple[etree._Element, int, bool, Scrollers]] = []  # targets: node, rank, visible, scrollers
+        # targets: node, rank, visible, scrollers, tree path, window, [start, end] of its descendants' texts
+        self.found: list[tuple[etree._Element, int, bool, Scrollers, Path_, int, list[int]]] = []
+        self.focusable: list[etree._Element] = []  # focusable, not clickable: maybe a control in disguise
+        self.texts: list[str] = []  # visible texts in walk order, to name targets that have none
+        self.windows: list[tuple[etree._Element, str]] = []  # root node of each window, what its container says
         self.reordered = False
 
-    def children(self, el: etree._Element, scrollers: Scrollers, shown: bool) -> None:
+    def children(self, el: etree._Element, scrollers: Scrollers, shown: bool, tree: Path_, window: int,
+                 kind: str = "") -> None:
         kids = list(el)  # the parser drops comments and PIs; a stray one has no bounds and no children
+        numbered = False
         if len(kids) > 1:  # children paint in drawing order when the dump gives it, else document order
+            numbered = kids[0].get("drawing-order") is not None
             painted = _paint_order(kids)
             if painted is not None:
                 kids, self.reordered = painted, True
-        nodes, raws, found = self.nodes, self.raws, self.found
-        for child in kids:
+        nodes, raws, found, texts = self.nodes, self.raws, self.found, self.texts
+        for place, child in enumerate(kids):
             get = child.get
             raw = get("bounds")
             if raw is None:
                 if child.tag == "node":
                     raise InputError(self.path, "<node> has no bounds attribute; expected bounds=\"[l,t][r,b]\"",
                                      child.sourceline)
-                if len(child):
-                    self.children(child, scrollers, shown)  # a container such as <window> or <display>
+                if len(child):  # a container such as <window> or <display>, which may say what it holds
+                    self.children(child, scrollers, shown, tree, window, _container_kind(child) or kind)
                 continue
+            if window < 0:  # a window's root
+                here, mine = ((0, False),), len(self.windows)
+                self.windows.append((child, kind))
+            else:
+                here, mine = (*tree, (place, numbered)), window
             nodes.append(child)
             raws.append(raw)
             visible = shown and get("visible-to-user", _TRUE) == _TRUE
             # a target is anything that takes a tap, a long press or a check
-            if get("clickable") == _TRUE or get("long-clickable") == _TRUE or get("checkable") == _TRUE:
-                found.append((child, len(raws), visible, scrollers))
+            tappable = get("clickable") == _TRUE or get("long-clickable") == _TRUE or get("checkable") == _TRUE
+            if not tappable and get("focusable") == _TRUE and get("scrollable") != _TRUE:
+                self.focusable.append(child)
+                tappable = self.loose
+            own = None if tappable else get("text") or get("content-desc")
+            if own:  # a nested target's text names that target, not the one around it
+                texts.append(own.strip())
+            span = [len(texts), len(texts)]
+            if tappable:
+                found.append((child, len(raws), visible, scrollers, here, mine, span))
             if len(child):
                 if get("scrollable") == _TRUE:
-                    self.children(child, (*scrollers, (_bounds(child, self.path), _scroll_axis(child))), visible)
+                    self.children(child, (*scrollers, (_bounds(child, self.path), _scroll_axis(child))), visible,
+                                  here, mine)
                 else:
-                    self.children(child, scrollers, visible)
+                    self.children(child, scrollers, visible, here, mine)
+                span[1] = len(texts)
+
+
+def _container_kind(el: etree._Element) -> str:
+    """What a window container element says it holds, where it says so (an input method's type)."""
+    return "keyboard" if any("INPUT_METHOD" in v.upper() for v in el.attrib.values()) else ""
+
+
+def _text_within(texts: list[str], start: int, stop: int) -> str:
+    return " ".join(texts[start:stop])[:_TEXT_WITHIN].strip()
 
 
 def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None,
@@ -153,8 +191,8 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
         raise InputError(path, f"rotation={rotation_raw!r}; expected 0, 1, 2 or 3", root.sourceline)
     rotation = int(rotation_raw)
 
-    walk = _Walk(path)
-    walk.children(root, (), True)
+    walk = _Walk(path, include_focusable)
+    walk.children(root, (), True, (), -1)
     nodes, raws, found = walk.nodes, walk.raws, walk.found
     if not nodes:
         raise InputError(path, "no view nodes found; expected <node bounds=...> elements under <hierarchy>", root.sourceline)
@@ -163,15 +201,34 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
         doc_index = {el: k for k, el in enumerate(root.iter())}
         found.sort(key=lambda item: doc_index[item[0]])
     targets = []
-    for k, (el, rank, visible, scrollers) in enumerate(found):
+    for k, (el, rank, visible, scrollers, tree, window, (start, stop)) in enumerate(found):
         get = el.get
+        label = (get("text") or get("content-desc") or "").strip()
         targets.append(Target(
-            k, tuple(boxes[rank - 1]), get("class") or el.tag, (get("text") or get("content-desc") or "").strip(),
+            k, tuple(boxes[rank - 1]), get("class") or el.tag, label,
             get("resource-id") or "", get("enabled", _TRUE) == _TRUE, visible, rank, scrollers, el.sourceline,
+            tree, window, "" if label else _text_within(walk.texts, start, stop),
         ))
     width = _int_attr(root, "width", path) or max(0, max(b[2] for b in boxes))
     height = _int_attr(root, "height", path) or max(0, max(b[3] for b in boxes))
+    index = {id(el): k for k, el in enumerate(nodes)}
+    windows = tuple(Window(tuple(boxes[index[id(el)]]), el.get("package") or "", kind, el.sourceline)
+                    for el, kind in walk.windows)
     return Screen(
         path=path, platform="android", width=width, height=height, rotation=rotation,
-        targets=tuple(targets), hints=hints, image=image,
+        targets=tuple(targets), hints=hints, image=image, windows=windows,
+        notices=_focusable_notice(walk.focusable, include_focusable),
     )
+
+
+def _focusable_notice(nodes: list[etree._Element], taken: bool) -> tuple[str, ...]:
+    if not nodes:
+        return ()
+    first = nodes[0]
+    name = (first.get("text") or first.get("content-desc") or first.get("resource-id") or "").strip()
+    example = f"first at line {first.sourceline}" + (f", '{name}'" if name else "")
+    if taken:
+        return (f"took {len(nodes)} focusable but not clickable node(s) as targets ({example}), "
+                "as --include-focusable asks",)
+    return (f"{len(nodes)} node(s) are focusable but not marked clickable ({example}); some frameworks write "
+            "their buttons this way: --include-focusable checks them as targets",)

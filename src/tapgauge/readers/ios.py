@@ -9,13 +9,14 @@ size: nothing here is "unmeasurable" for clipping.
 
 from __future__ import annotations
 
+import copy
 import math
 from pathlib import Path
 from typing import Any
 
 from lxml import etree
 
-from tapgauge.model import DeviceHints, InputError, Screen, Target
+from tapgauge.model import DeviceHints, InputError, Screen, Target, Window
 
 PREFIX = "XCUIElementType"
 # Types a person taps or drags to act. Static text, images and containers report
@@ -58,47 +59,101 @@ def _frame(el: etree._Element, path: Path) -> tuple[float, float, float, float] 
     return (x, y, x + w, y + h)
 
 
+_TEXT_WITHIN = 60  # characters of descendants' text kept to name a target with none of its own
+
+
+class _Walk:
+    """One pass over the tree: targets with their tree path, keyboards, texts, skipped labelled elements."""
+
+    def __init__(self, path: Path, loose: bool) -> None:
+        self.path = path
+        self.loose = loose  # take accessible "Other" elements with a label as targets
+        self.found: list[dict[str, Any]] = []
+        self.texts: list[str] = []  # labels and values in walk order, to name targets that have none
+        self.windows: list[Window] = []  # the app's (index 0, once its frame is known), then each keyboard
+        self.others: list[etree._Element] = []  # accessible labelled "Other" elements: controls in disguise?
+        self.extent = [0.0, 0.0]
+        self.app_frame: tuple[float, float, float, float] | None = None
+        self.framed = 0
+        self.order = 0
+
+    def visit(self, el: etree._Element, tree: tuple[tuple[int, bool], ...], window: int, hidden: bool) -> None:
+        place = 0
+        for child in el:
+            if not isinstance(child.tag, str):
+                continue
+            if not child.tag.startswith(PREFIX) and child.get("type") is None:
+                self.visit(child, tree, window, hidden)  # a wrapper element
+                continue
+            self.order += 1
+            here = (*tree, (place, False))  # element order is not a stacking order iOS promises
+            place += 1
+            kind = element_type(child)
+            frame = _frame(child, self.path)
+            shown = not hidden and child.get("visible", "true") != "false"
+            mine = window
+            if frame is not None:
+                self.framed += 1
+                if kind == "Application" and self.app_frame is None:
+                    self.app_frame = frame
+                self.extent[0], self.extent[1] = max(self.extent[0], frame[2]), max(self.extent[1], frame[3])
+                if kind == "Keyboard":
+                    mine = len(self.windows) + 1  # index 0 is kept for the app's window
+                    self.windows.append(Window(frame, "", "keyboard", child.sourceline))
+            label = (child.get("label") or child.get("value") or "").strip()
+            target = frame is not None and kind in INTERACTIVE
+            if (frame is not None and kind == "Other" and label and child.get("accessible") == "true"
+                    and not any(element_type(d) in INTERACTIVE for d in child.iterdescendants())):
+                self.others.append(child)
+                target = target or self.loose
+            if label and not target:  # a nested target's text names that target, not the one around it
+                self.texts.append(label)
+            start = len(self.texts)
+            entry: dict[str, Any] | None = None
+            if target:
+                ident = child.get("name") or ""
+                entry = {
+                    "bounds": frame, "cls": PREFIX + kind, "label": label, "resource_id": "" if ident == label else ident,
+                    "enabled": child.get("enabled", "true") == "true", "visible": shown, "paint_rank": self.order,
+                    "line": child.sourceline, "path": here, "window": mine,
+                }
+                self.found.append(entry)
+            if len(child):
+                self.visit(child, here, mine, not shown)
+            if entry is not None and not label:
+                entry["text_within"] = " ".join(self.texts[start:])[:_TEXT_WITHIN].strip()
+
+
 def read_ios(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None,
              include_focusable: bool = False) -> Screen:
-    found: list[dict[str, Any]] = []
-    extent = [0.0, 0.0]
-    app_frame: tuple[float, float, float, float] | None = None
-    framed = 0
-    for order, el in enumerate(root.iter()):
-        if not isinstance(el.tag, str):
-            continue
-        kind = element_type(el)
-        if not el.tag.startswith(PREFIX) and el.get("type") is None:
-            continue  # a wrapper element
-        frame = _frame(el, path)
-        if frame is None:
-            continue
-        framed += 1
-        if kind == "Application" and app_frame is None:
-            app_frame = frame
-        extent[0], extent[1] = max(extent[0], frame[2]), max(extent[1], frame[3])
-        if kind not in INTERACTIVE:
-            continue
-        label = el.get("label") or el.get("value") or ""
-        ident = el.get("name") or ""
-        found.append({
-            "bounds": frame,
-            "cls": PREFIX + kind,
-            "label": label.strip(),
-            "resource_id": "" if ident == label else ident,
-            "enabled": el.get("enabled", "true") == "true",
-            "visible": el.get("visible", "true") == "true" and not _hidden_ancestor(el),
-            "paint_rank": order,
-            "line": el.sourceline,
-        })
-    if framed == 0:
+    walk = _Walk(path, include_focusable)
+    walk.visit(_holder(root), (), 0, False)
+    if walk.framed == 0:
         raise InputError(path, "iOS element tree has no frames; expected x, y, width and height attributes "
                                "(in points) on the XCUIElementType* elements", root.sourceline)
-    width, height = (app_frame[2], app_frame[3]) if app_frame else (extent[0], extent[1])
-    targets = tuple(Target(ordinal=k, **fields) for k, fields in enumerate(found))
-    return Screen(path=path, platform="ios", width=width, height=height, rotation=0, targets=targets,
-                  hints=hints, coords="pt", image=image)
+    frame = walk.app_frame or (0.0, 0.0, walk.extent[0], walk.extent[1])
+    targets = tuple(Target(ordinal=k, **fields) for k, fields in enumerate(walk.found))
+    return Screen(path=path, platform="ios", width=frame[2], height=frame[3], rotation=0, targets=targets,
+                  hints=hints, coords="pt", image=image, windows=(Window(frame, "", "", None), *walk.windows),
+                  notices=_others_notice(walk.others, include_focusable))
 
 
-def _hidden_ancestor(el: etree._Element) -> bool:
-    return any(a.get("visible") == "false" for a in el.iterancestors())
+def _holder(root: etree._Element) -> etree._Element:
+    """An element whose children are the tree's top: the root itself counts when it is an element type."""
+    if root.tag.startswith(PREFIX) or root.get("type") is not None:
+        holder = etree.Element("root")
+        holder.append(copy.copy(root))  # lxml moves an appended element; a copy leaves the tree as parsed
+        return holder
+    return root
+
+
+def _others_notice(others: list[etree._Element], taken: bool) -> tuple[str, ...]:
+    if not others:
+        return ()
+    first = others[0]
+    example = f"first at line {first.sourceline}, '{(first.get('label') or first.get('value') or '').strip()}'"
+    if taken:
+        return (f"took {len(others)} accessible 'Other' element(s) with a label as targets ({example}), "
+                "as --include-focusable asks",)
+    return (f"{len(others)} accessible 'Other' element(s) carry a label but no control type ({example}); "
+            "custom controls are often written this way: --include-focusable checks them as targets",)
