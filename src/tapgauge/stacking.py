@@ -16,6 +16,7 @@ Two kinds of evidence, kept apart:
 
 from __future__ import annotations
 
+from collections import Counter
 from typing import NamedTuple
 
 import numpy as np
@@ -45,13 +46,15 @@ def window_roles(screen: Screen, app_package: str | None = None) -> tuple[Window
     """Each of the screen's windows with its role and layer.
 
     The app's package is the one given, else that of the largest window that is neither
-    a keyboard nor a system bar (the app fills the screen; its dialogs do not).
+    a keyboard nor a system bar (the app fills the screen; its dialogs do not), and of
+    equally large ones the one holding more targets.
     """
     windows = screen.windows
     kinds = [_kind(w) for w in windows]
-    if app_package is None:
-        candidates = [(_area(w.bounds), -k) for k, w in enumerate(windows) if kinds[k] == ""]
-        app_package = windows[-max(candidates)[1]].package if candidates else ""
+    if app_package is None:  # two full-screen windows (the app and a prompt): the one with more targets
+        count = Counter(t.window for t in screen.targets)
+        candidates = [(_area(w.bounds), count[k], -k) for k, w in enumerate(windows) if kinds[k] == ""]
+        app_package = windows[-max(candidates)[2]].package if candidates else ""
     roles: list[WindowRole] = []
     main = -1
     for k, w in enumerate(windows):
