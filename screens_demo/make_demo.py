@@ -35,6 +35,8 @@ class N:
     enabled: bool = True
     scroll: bool = False
     visible: bool = True
+    focusable: bool | None = None  # None: focusable when clickable or checkable, as views usually are
+    pkg: str = PACKAGE
     kids: list[N] = field(default_factory=list)
 
 
@@ -46,10 +48,11 @@ def _write(node: N, index: int, depth: int, out: list[str], modern: bool = False
     l, t, r, b = (_px(v) for v in node.box)
     attrs = {
         "index": str(index), "text": node.text, "resource-id": f"{PACKAGE}:id/{node.rid}" if node.rid else "",
-        "class": node.cls, "package": PACKAGE, "content-desc": node.desc,
+        "class": node.cls, "package": node.pkg, "content-desc": node.desc,
         "checkable": str(node.check).lower(), "checked": str(node.checked).lower(),
         "clickable": str(node.click).lower(), "enabled": str(node.enabled).lower(),
-        "focusable": str(node.click or node.check).lower(), "focused": "false",
+        "focusable": str(node.click or node.check if node.focusable is None else node.focusable).lower(),
+        "focused": "false",
         "scrollable": str(node.scroll).lower(), "long-clickable": str(node.long).lower(),
         "password": "false", "selected": "false", "visible-to-user": str(node.visible).lower(),
         "bounds": f"[{l},{t}][{r},{b}]",
@@ -266,6 +269,72 @@ def booking_form(release: int = 0) -> AndroidScreen:
     return AndroidScreen(screen.root, screen.rotation, screen.size, modern=True)
 
 
+KEYBOARD_PACKAGE = "net.quillkeys.inputmethod"  # an invented keyboard app
+SYSTEM_PACKAGE = "com.android.systemui"  # the platform's status and navigation bars (AOSP)
+ADB_TRAILER = "UI hierchary dumped to: /dev/tty"  # what adb prints after a dump sent to /dev/tty (its spelling)
+
+
+@dataclass
+class MultiWindowScreen:
+    """A dump of several windows, as the stock dumper writes them: each window's root straight
+    under <hierarchy>, in no set order (the dumper collects them in a hash set)."""
+
+    windows: list[N]  # in the order the file lists them
+    size: tuple[float, float] = SCREEN_DP
+    trailer: str = ""  # text the capture left after the XML
+
+    def xml(self) -> str:
+        out = ["<?xml version='1.0' encoding='UTF-8' standalone='yes' ?>", '<hierarchy rotation="0">']
+        for root in self.windows:
+            _write(root, 0, 1, out)
+        out.append("</hierarchy>" + self.trailer)
+        return "\n".join(out) + "\n"
+
+    def png(self) -> Image.Image:
+        w, h = self.size
+        img = Image.new("RGB", (_px(w), _px(h)), PAPER)
+        draw = ImageDraw.Draw(img)
+        app, *others = sorted(self.windows, key=lambda n: n.pkg != PACKAGE)  # the app first, the rest over it
+        for root in (app, *others):
+            if root.pkg != PACKAGE:
+                l, t, r, b = (_px(v) for v in root.box)
+                draw.rectangle([l, t, r, b], fill=(40, 44, 42) if root.pkg == SYSTEM_PACKAGE else (214, 218, 214))
+            _paint(draw, root)
+        return img
+
+
+def plot_map() -> MultiWindowScreen:
+    """The plot map while a member types a search, as the adb one-liner captured it.
+
+    Three windows: the app, the on-screen keyboard of an invented keyboard app, the system bars.
+    The map is a clickable surface that the file lists after the zoom buttons; this dump has no
+    drawing-order, so which is on top is presumed (the buttons, inside it), not known. The tab
+    bar is clickable but wholly covered by its own tabs. The "Show key" link is written as
+    focusable but not clickable, as some cross-platform frameworks write their controls.
+    """
+    w, h = SCREEN_DP
+    tabs = [N("android.widget.FrameLayout", (k * w / 3, 794, (k + 1) * w / 3, 850.91), desc=label, click=True,
+              rid=f"tab_{k}") for k, label in enumerate(["Plots", "Map", "Bookings"])]
+    app = N("android.widget.FrameLayout", (0, 0, w, h), kids=[
+        N("android.widget.FrameLayout", (0, 24, w, 794), rid="map_frame", kids=[
+            N("android.widget.EditText", (16, 32, 376, 80), text="Search plots", click=True, long=True, rid="map_search"),
+            N("android.widget.ImageButton", (336, 320, 376, 360), desc="Zoom in", click=True, rid="zoom_in"),
+            N("android.widget.ImageButton", (336, 368, 376, 408), desc="Zoom out", click=True, rid="zoom_out"),
+            N("android.widget.TextView", (16, 300, 120, 318), text="Show key", rid="map_key", focusable=True),
+            # Under the keyboard while it is open: hidden, so not checked.
+            N("android.widget.Button", (16, 700, 376, 756), text="Book the plot you picked", click=True, rid="map_book"),
+            N("android.view.View", (0, 24, w, 794), desc="Plot map", click=True, rid="map"),
+        ]),
+        N("android.widget.LinearLayout", (0, 794, w, 850.91), rid="tab_bar", click=True, kids=tabs),
+    ])
+    keys = [N("android.widget.FrameLayout", (k * w / 10, 560, (k + 1) * w / 10, 616), desc=c, click=True, pkg=KEYBOARD_PACKAGE)
+            for k, c in enumerate("qwertyuiop")]
+    keyboard = N("android.widget.FrameLayout", (0, 520, w, 794), pkg=KEYBOARD_PACKAGE, kids=keys)
+    bars = N("android.widget.FrameLayout", (0, 0, w, 24), pkg=SYSTEM_PACKAGE, kids=[
+        N("android.widget.ImageView", (340, 0, 364, 24), desc="Battery", click=True, pkg=SYSTEM_PACKAGE)])
+    return MultiWindowScreen([keyboard, app, bars], trailer=ADB_TRAILER)
+
+
 def settings_landscape() -> AndroidScreen:
     """Reminder settings in landscape (rotation 1): every target comfortable."""
     w, h = SCREEN_DP[1], SCREEN_DP[0]
@@ -289,8 +358,8 @@ $ adb shell dumpsys display | grep -m1 DisplayDeviceInfo
 def write_android(out: Path) -> None:
     out.mkdir(exist_ok=True)
     screens = {"plots": plots(), "plot_detail": plot_detail(), "booking_form": booking_form(),
-               "settings_landscape": settings_landscape()}
-    for name, screen in screens.items():
+               "settings_landscape": settings_landscape(), "plot_map": plot_map()}
+    for name, screen in screens.items():  # type: ignore[assignment]
         (out / f"{name}.xml").write_text(screen.xml(), encoding="utf-8")
         screen.png().save(out / f"{name}.png", optimize=True)
     (out / "device.txt").write_text(DEVICE_TXT, encoding="utf-8")
