@@ -7,11 +7,11 @@ status are words).
 from __future__ import annotations
 
 import io
-import textwrap
+import unicodedata
 from collections import Counter
 from typing import Any, TextIO
 
-from rich.cells import cell_len, chop_cells
+from rich.cells import cell_len
 from rich.console import Console
 from rich.table import Table
 from rich.text import Text
@@ -54,15 +54,91 @@ def _paint(text: str, style: str, color: bool) -> str:
     return f"\x1b[{_ANSI[style]}m{text}\x1b[0m" if color and text and style else text
 
 
-def _wrap(text: str, width: int, indent: str = "") -> list[str]:
-    """Lines of at most `width` terminal cells (wide characters count two)."""
-    if len(text) <= width and cell_len(text) <= width:
-        return [text]  # most lines fit: skip the wrapper
+_SPACES = str.maketrans("\t\n\r\v\f", "     ")
+# Punctuation that keeps to its neighbour: closing marks (、。！」) never start a line, opening
+# marks (「（) never end one. Unicode Standard Annex #14, Line Breaking: classes CL, CP, EX, IS,
+# NS and QU keep a break out before them, OP and QU after them (the categories approximate them).
+_NO_BREAK_BEFORE = frozenset({"Pe", "Pf", "Po"})
+_NO_BREAK_AFTER = frozenset({"Ps", "Pi"})
+
+
+def _clean(text: str) -> str:
+    """Whitespace controls as spaces, other control characters shown, so a label from a dump
+    cannot break the table's rows or send escapes to the terminal."""
+    text = text.translate(_SPACES)
+    return "".join("\ufffd" if unicodedata.category(c) == "Cc" else c for c in text) if not text.isprintable() else text
+
+
+def _clusters(text: str) -> list[str]:
+    """Each character with the zero-width marks after it (combining accents, joiners): never split."""
     out: list[str] = []
-    for line in textwrap.wrap(text, width, subsequent_indent=indent, break_long_words=True,
-                              break_on_hyphens=False) or [""]:
-        out += [line] if cell_len(line) <= width else chop_cells(line, width)
+    for ch in text:
+        if out and cell_len(ch) == 0:
+            out[-1] += ch
+        else:
+            out.append(ch)
     return out
+
+
+def _tokens(text: str) -> list[tuple[bool, str]]:
+    """(space before, unbreakable piece): words at spaces, and each wide character on its own,
+    since East Asian text may break between any two ideographs (UAX #14, class ID)."""
+    tokens: list[tuple[bool, str]] = []
+    space, prev = False, ""
+    for c in _clusters(text):
+        if c == " ":
+            space, prev = True, ""
+            continue
+        breakable = bool(prev) and (cell_len(prev) > 1 or cell_len(c) > 1) \
+            and unicodedata.category(c[0]) not in _NO_BREAK_BEFORE \
+            and unicodedata.category(prev[0]) not in _NO_BREAK_AFTER
+        if space or not prev or breakable:
+            tokens.append((space, c))
+        else:
+            tokens[-1] = (tokens[-1][0], tokens[-1][1] + c)
+        space, prev = False, c
+    return tokens
+
+
+def _cut(piece: str, room: int) -> tuple[str, str]:
+    """The most of `piece` that fits `room` cells (at least one character, so wrapping ends), and the rest."""
+    clusters = _clusters(piece)
+    used, k = 0, 0
+    while k < len(clusters) and used + cell_len(clusters[k]) <= room:
+        used += cell_len(clusters[k])
+        k += 1
+    k = max(k, 1)
+    return "".join(clusters[:k]), "".join(clusters[k:])
+
+
+def _wrap(text: str, width: int, indent: str = "") -> list[str]:
+    """Lines of at most `width` terminal cells: wide (East Asian) characters count two, combining
+    marks none. The first line keeps the text's own leading spaces, later lines start with `indent`."""
+    text = _clean(text)
+    if cell_len(text) <= width:
+        return [text]  # most lines fit: skip the wrapper
+    body = text.lstrip(" ")
+    lines: list[str] = []
+    line, filled = text[:len(text) - len(body)], False
+    for space, piece in _tokens(body):
+        sep = " " if space and filled else ""
+        if cell_len(line) + len(sep) + cell_len(piece) <= width:
+            line, filled = line + sep + piece, True
+            continue
+        if filled:
+            lines.append(line)
+            line, filled = indent, False
+        while cell_len(line) + cell_len(piece) > width:  # longer than a whole line: cut where it must
+            head, piece = _cut(piece, width - cell_len(line))
+            lines.append(line + head)
+            line = indent
+            if not piece:
+                break
+        if piece:
+            line, filled = line + piece, True
+    if filled:
+        lines.append(line)
+    return lines or [""]
 
 
 def _screen_rows(s: dict[str, Any], width: int, color: bool) -> list[str]:
@@ -85,15 +161,18 @@ def _screen_rows(s: dict[str, Any], width: int, color: bool) -> list[str]:
                           _SEVERITY_STYLE[f["severity"]]))
             right.append((f"  {f['message']}", "dim"))
         cells.append((left, right))
-    lw = min(_LEFT_MAX, max(cell_len(text) for left, _ in cells for text, _ in left))
+    heading = "finding: found / needed"
+    # The target column gives way on narrow terminals, so the heading on the right still fits.
+    lw = min(_LEFT_MAX, max(cell_len(text) for left, _ in cells for text, _ in left), width - 3 - len(heading))
     lw = max(lw, len("target"))
     rw = max(20, width - lw - 3)
-    out = [_paint("target".ljust(lw), "bold", color) + " ┃ " + _paint("finding: found / needed", "bold", color),
+    out = [_paint("target".ljust(lw), "bold", color) + " ┃ " + _paint(heading, "bold", color),
            "━" * lw + "━╇━" + "━" * rw]
     for n, (left, right) in enumerate(cells):
         if n:
             out.append("─" * lw + "─┼─" + "─" * rw)
-        lines_l = [(line, style) for text, style in left for line in _wrap(text, lw)]
+        hang = " " * min(lw // 3, cell_len(f"#{rows[n]['ordinal']} "))  # a long name continues under itself
+        lines_l = [(line, style) for text, style in left for line in _wrap(text, lw, hang)]
         lines_r: list[tuple[str, str]] = []
         for text, style in right:
             if style == "dim":  # a message: wrapped under its finding, indented
@@ -149,8 +228,9 @@ def write_table(report: Report, out: TextIO, width: int | None = None, color: bo
         title = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
         console.print(Text(title, style="bold underline"))
         console.print(Text(_device_line(s), style="dim"))
-        for notice in s["notices"]:
-            console.print(Text(f"note: {notice}", style="yellow"))
+        for notice in s["notices"]:  # wrapped here so that continued lines hang under the text
+            for line in _wrap(f"note: {notice}", width or 80, "      "):
+                console.print(Text(line, style="yellow"))
         block = _screen_rows(s, width or 80, color)
         if block:
             console.file.write("\n".join(block) + "\n")
