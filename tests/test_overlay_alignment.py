@@ -23,7 +23,7 @@ SHOT = (60, 60, 60)  # the screenshots' flat colour; blended with white under th
 WIREFRAME = (244, 244, 242)  # the overlay's background when no screenshot is used
 
 # Android bounds are screen coordinates, "[left,top][right,bottom]" in pixels (Android's
-# AccessibilityNodeInfo.getBoundsInScreen, which uiautomator dumps write as `bounds`).
+# AccessibilityNodeInfo.getBoundsInScreen, which uiautomator dumps write as `bounds`; from memory).
 # 88 x 88 px at 440 dpi is 32 dp, under Material's 48 dp minimum, so these targets fail.
 # Both sit low enough that the old height stretch (2340 / 2220) moved them by more than their height.
 SMALL = [(40, 1700, 128, 1788), (300, 1800, 388, 1888)]
@@ -113,7 +113,7 @@ def test_box_outside_a_larger_screenshot_is_refused(tmp_path: Path, capsys: pyte
 
 def _ios_tree(folder: Path, picture: tuple[int, int]) -> Path:
     # Frames are points; the picture is points x scale (Apple's Human Interface Guidelines,
-    # "Layout": a 3x display has three pixels per point along each axis).
+    # "Layout": a 3x display has three pixels per point along each axis; from memory).
     xml = ('<?xml version="1.0" encoding="UTF-8"?><AppiumAUT>'
            '<XCUIElementTypeApplication type="XCUIElementTypeApplication" name="Crumbwell" label="Crumbwell" '
            'enabled="true" visible="true" x="0" y="0" width="390" height="844">'

@@ -26,7 +26,7 @@ def cells(text: str) -> int:
     Unicode Standard Annex #11, East Asian Width: Wide (W) and Fullwidth (F) characters take two
     cells; everything else one, Ambiguous (A) included, as outside East Asian legacy contexts.
     Combining marks (general categories Mn and Me) take none: they sit on the character before
-    (common practice of terminals, and what POSIX wcwidth returns for them).
+    (common practice of terminals, and what POSIX wcwidth returns for them). Both from memory.
     """
     total = 0
     for c in text:
@@ -129,7 +129,7 @@ def test_breaks_fall_between_ideographs_not_inside_clusters_or_before_closing_ma
     text = "  " + "水やり、植え付け。" * 6
     for line in _wrap(text, 21, "  "):
         assert cells(line) <= 21 and line.startswith("  ")
-        assert line[2] not in "、。"  # closing marks stay at the end of the line they close (UAX #14, class CL)
+        assert line[2] not in "、。"  # closing marks stay at the end of the line they close (UAX #14, class CL; from memory)
     accented = "re\u0301server " * 8
     for line in _wrap(accented, 17):
         assert cells(line) <= 17

@@ -57,7 +57,8 @@ def _paint(text: str, style: str, color: bool) -> str:
 _SPACES = str.maketrans("\t\n\r\v\f", "     ")
 # Punctuation that keeps to its neighbour: closing marks (、。！」) never start a line, opening
 # marks (「（) never end one. Unicode Standard Annex #14, Line Breaking: classes CL, CP, EX, IS,
-# NS and QU keep a break out before them, OP and QU after them (the categories approximate them).
+# NS and QU keep a break out before them, OP and QU after them (the categories approximate them;
+# from memory).
 _NO_BREAK_BEFORE = frozenset({"Pe", "Pf", "Po"})
 _NO_BREAK_AFTER = frozenset({"Ps", "Pi"})
 
