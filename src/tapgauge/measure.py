@@ -175,8 +175,8 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
                     clipped[k] = blocked[1:]
                 else:
                     why = blocked
-        if not why:
-            where = _off_screen(t, screen.width, screen.height)
+        if not why and screen.platform == "ios":  # Android bounds are clipped to the display already, and
+            where = _off_screen(t, screen.width, screen.height)  # a root's size may be a window's, not the screen's
             if where == "off":
                 why = f"off-screen (wholly outside the {screen.width:g} x {screen.height:g} screen)"
             elif where == "part":
