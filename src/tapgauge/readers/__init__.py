@@ -29,7 +29,7 @@ from tapgauge.readers.images import IMAGE_SUFFIXES, image_size
 from tapgauge.readers.ios import is_ios_root, read_ios
 from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker, read_marked
 from tapgauge.readers.sidecar import FOLDER_SIDECAR, SIDECAR_SUFFIX, read_sidecar, sidecar_for
-from tapgauge.readers.xmlsafe import parse_xml
+from tapgauge.readers.xmlsafe import Document, parse_documents, status_notice
 
 NOT_LABELS = {FOLDER_SIDECAR, "classes.txt"}
 
@@ -53,7 +53,7 @@ def _picture(path: Path) -> Path | None:
 
 
 def read_screens(path: Path, options: ReadOptions | None = None) -> list[Screen]:
-    """Read one input file into the screens it holds (COCO and CSV files may hold many)."""
+    """Read one input file into the screens it holds (COCO and CSV files, and appended dumps, may hold many)."""
     opts = options or ReadOptions()
     suffix = path.suffix.lower()
     if suffix == ".json":
@@ -64,14 +64,39 @@ def read_screens(path: Path, options: ReadOptions | None = None) -> list[Screen]
         return [read_yolo(path, opts.classes, _hints)]
     if suffix in IMAGE_SUFFIXES:
         return [read_marked(path, opts.marker_hue, _hints(path))]
-    root = parse_xml(path)
+    docs = parse_documents(path)
+    if len(docs) == 1 and is_voc_root(docs[0].root):
+        return [read_voc(path, docs[0].root, opts.classes, _hints)]
+    return _dumps(path, docs, opts)
+
+
+def _dumps(path: Path, docs: list[Document], opts: ReadOptions, notices: tuple[str, ...] = ()) -> list[Screen]:
+    """One screen per window dump or element tree; several in one file are named "dump 1", "dump 2", ..."""
+    picture = _picture(path)
+    if len(docs) == 1:
+        screen = _screen_of(path, docs[0], opts, picture)
+        said = (*notices, status_notice(docs[0].ignored)) if docs[0].ignored else notices
+        return [replace(screen, notices=(*screen.notices, *said))]
+    # One screenshot cannot show several dumps: overlay none rather than guess (said once, on the first).
+    unused = (f"{picture.name} was not used for this file's {len(docs)} dumps: one screenshot cannot show "
+              "them all",) if picture is not None else ()
+    digits = len(str(len(docs)))  # "dump 01" .. "dump 12": names sort as their numbers do
+    screens = []
+    for k, doc in enumerate(docs, start=1):
+        screen = _screen_of(path, doc, opts, None)
+        said = (*notices, status_notice(doc.ignored)) if doc.ignored else notices
+        screens.append(replace(screen, name=f"dump {k:0{digits}d}",
+                               notices=(*screen.notices, *said, *(unused if k == 1 else ()))))
+    return screens
+
+
+def _screen_of(path: Path, doc: Document, opts: ReadOptions, picture: Path | None) -> Screen:
+    root = doc.root
     if is_android_root(root):
-        return [read_android(path, root, _hints(path), image=_picture(path), include_focusable=opts.include_focusable)]
+        return read_android(path, root, _hints(path), image=picture, include_focusable=opts.include_focusable)
     if is_ios_root(root):
-        return [_with_scale_from_picture(read_ios(path, root, _hints(path), image=_picture(path),
-                                                  include_focusable=opts.include_focusable))]
-    if is_voc_root(root):
-        return [read_voc(path, root, opts.classes, _hints)]
+        return _with_scale_from_picture(read_ios(path, root, _hints(path), image=picture,
+                                                 include_focusable=opts.include_focusable))
     raise InputError(
         path,
         f"root element is <{root.tag}>; expected <hierarchy> (Android window dump), XCUIElementType* "
