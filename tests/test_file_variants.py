@@ -17,9 +17,9 @@ from hypothesis import strategies as st
 from PIL import Image
 
 from tapgauge.cli import main
-from tapgauge.model import DeviceHints, InputError, Screen
+from tapgauge.model import DeviceHints, InputError, Screen, Target
 from tapgauge.pipeline import Settings, check_file
-from tapgauge.readers import read_screen, read_screens
+from tapgauge.readers import discover, read_screen, read_screens
 from tapgauge.rulesets import select_rulesets
 
 # The stock dumper's first line (AOSP uiautomator: XmlSerializer with standalone=true writes
@@ -278,6 +278,151 @@ def test_a_mismatched_tag_at_the_very_end_is_malformed_not_cut(tmp_path: Path) -
     assert err.message.startswith("malformed XML: Opening and ending tag mismatch") and err.line == 5
 
 
+# ---------------------------------------------------------------- page source saved as JSON
+
+
+GARDEN_TREE = {  # the JSON form of an iOS element tree (WebDriverAgent dictionaryForElement: short type
+    # names, "1"/"0" flags, rect as an object and frame as NSStringFromCGRect text, null for no text)
+    "type": "Application", "rawIdentifier": None, "name": "Plotwise", "label": "Plotwise", "value": None,
+    "rect": {"x": 0, "y": 0, "width": 390, "height": 844}, "frame": "{{0, 0}, {390, 844}}",
+    "isEnabled": "1", "isVisible": "1", "isAccessible": "0", "isFocused": "0",
+    "children": [{
+        "type": "Window", "name": None, "label": None, "value": None,
+        "rect": {"x": 0, "y": 0, "width": 390, "height": 844}, "frame": "{{0, 0}, {390, 844}}",
+        "isEnabled": "1", "isVisible": "1", "isAccessible": "0",
+        "children": [
+            {"type": "Button", "name": "water_bed_3", "label": "Water bed 3", "value": None,
+             "rect": {"x": 16, "y": 120, "width": 140, "height": 30}, "frame": "{{16, 120}, {140, 30}}",
+             "isEnabled": "1", "isVisible": "1", "isAccessible": "1"},
+            {"type": "Switch", "name": "frost_alerts", "label": "Frost alerts", "value": "1",
+             "frame": "{{323.5, 200}, {51, 31}}", "isEnabled": "0", "isVisible": "1", "isAccessible": "1"},
+            {"type": "Cell", "name": "bed_list_row", "label": "Bed 7, tomatoes", "value": None,
+             "rect": {"x": 0, "y": 900, "width": 390, "height": 44}, "isEnabled": True, "isVisible": False,
+             "isAccessible": False},
+        ],
+    }],
+}
+
+GARDEN_XML = """<?xml version="1.0" encoding="UTF-8"?>
+<XCUIElementTypeApplication type="XCUIElementTypeApplication" name="Plotwise" label="Plotwise" enabled="true" visible="true" accessible="false" x="0" y="0" width="390" height="844">
+  <XCUIElementTypeWindow type="XCUIElementTypeWindow" enabled="true" visible="true" accessible="false" x="0" y="0" width="390" height="844">
+    <XCUIElementTypeButton type="XCUIElementTypeButton" name="water_bed_3" label="Water bed 3" enabled="true" visible="true" accessible="true" x="16" y="120" width="140" height="30"/>
+    <XCUIElementTypeSwitch type="XCUIElementTypeSwitch" name="frost_alerts" label="Frost alerts" value="1" enabled="false" visible="true" accessible="true" x="323.5" y="200" width="51" height="31"/>
+    <XCUIElementTypeCell type="XCUIElementTypeCell" name="bed_list_row" label="Bed 7, tomatoes" enabled="true" visible="false" accessible="false" x="0" y="900" width="390" height="44"/>
+  </XCUIElementTypeWindow>
+</XCUIElementTypeApplication>
+"""
+
+
+def _without_lines(screen: Screen) -> list[Target]:
+    return [t._replace(line=None) for t in screen.targets]
+
+
+@pytest.mark.parametrize("wrapped", [False, True])
+def test_ios_json_tree_reads_exactly_like_the_xml_tree(tmp_path: Path, wrapped: bool) -> None:
+    # {"value": ..., "sessionId": ...} is the W3C WebDriver response envelope (W3C WebDriver, Commands).
+    doc = {"value": GARDEN_TREE, "sessionId": "5e3d-garden"} if wrapped else GARDEN_TREE
+    from_json = read_screen(write(tmp_path, "beds.json", json.dumps(doc, indent=2)))
+    from_xml = read_screen(write(tmp_path, "beds.xml", GARDEN_XML))
+    assert _without_lines(from_json) == _without_lines(from_xml)
+    assert [t.line for t in from_json.targets] == [None, None, None]  # no XML lines to point at
+    assert (from_json.platform, from_json.coords, from_json.width, from_json.height) == ("ios", "pt", 390, 844)
+    assert [(t.label, t.enabled, t.visible) for t in from_json.targets] == [
+        ("Water bed 3", True, True), ("Frost alerts", False, True), ("Bed 7, tomatoes", True, False)]
+    assert from_json.targets[1].bounds == (323.5, 200.0, 374.5, 231.0)  # from the frame text alone
+
+
+@pytest.mark.parametrize("xml", [bakery_dump(), GARDEN_XML])
+def test_webdriver_source_response_reads_its_xml(tmp_path: Path, xml: str) -> None:
+    # W3C WebDriver, Get Page Source: the response's "value" is the page source as a string.
+    path = write(tmp_path, "resp.json", json.dumps({"value": xml, "sessionId": "77aa"}))
+    from_json = read_screen(path)
+    from_xml = read_screen(write(tmp_path, "same.xml", xml))
+    assert from_json.targets == from_xml.targets
+    assert from_json.notices == (
+        "read the page source XML held in the response's 'value'; line numbers are lines of that XML",)
+
+
+def test_page_source_json_claims_its_screenshot(tmp_path: Path) -> None:
+    write(tmp_path, "beds.json", json.dumps({"value": GARDEN_TREE, "sessionId": "x"}))
+    Image.new("RGB", (1170, 2532)).save(tmp_path / "beds.png")  # 390 pt x 3 = 1170 px
+    write(tmp_path, "order.json", json.dumps({"value": bakery_dump()}))
+    Image.new("RGB", (1080, 2400)).save(tmp_path / "order.png")
+    found, errors = discover([tmp_path])
+    assert [p.name for p in found] == ["beds.json", "order.json"] and errors == []
+    beds = read_screen(tmp_path / "beds.json")
+    assert beds.image == tmp_path / "beds.png"
+    assert [h.scale for h in beds.hints] == [3.0]  # the iOS scale from the picture, as beside an XML tree
+    assert read_screen(tmp_path / "order.json").image == tmp_path / "order.png"
+
+
+def test_malformed_json_neither_crashes_discovery_nor_reads_as_coco(tmp_path: Path) -> None:
+    write(tmp_path, "half.json", '{"value": "<?xml version=\\"1.0\\"?><hierarchy rotation=\\"0\\"><node')
+    write(tmp_path, "empty.json", "")
+    found, errors = discover([tmp_path])
+    assert [p.name for p in found] == ["empty.json", "half.json"] and errors == []
+    half = error_of(tmp_path / "half.json")
+    assert half.message.startswith("not valid JSON: Unterminated string") and half.line == 1
+    assert "COCO" not in half.message and "COCO" not in error_of(tmp_path / "empty.json").message
+
+
+def test_json_syntax_errors_name_line_and_column(tmp_path: Path) -> None:
+    body = json.dumps({"value": GARDEN_TREE}, indent=1).replace('"Frost alerts",', '"Frost alerts"')
+    err = error_of(write(tmp_path, "typo.json", body))
+    assert err.line == body.splitlines().index(next(l for l in body.splitlines() if "Frost alerts" in l)) + 2
+    assert err.message.startswith("not valid JSON: Expecting ',' delimiter at line")
+
+
+@pytest.mark.parametrize(("change", "expect"), [
+    (lambda t: t["children"][0]["children"][0]["rect"].update(width="wide"),
+     "value.children[0].children[0].rect.width: expected a number of points, found 'wide'"),
+    (lambda t: t["children"][0]["children"][1].update(frame="{{1, 2}, {3}}"),
+     "value.children[0].children[1].frame: expected \"{{x, y}, {width, height}}\", found '{{1, 2}, {3}}'"),
+    (lambda t: t["children"][0]["children"].append("Button"),
+     "value.children[0].children[3]: expected an element object, found text"),
+    (lambda t: t["children"][0]["children"][0].update(isEnabled="maybe"),
+     "value.children[0].children[0].isEnabled: expected \"1\" or \"0\" (or true/false), found 'maybe'"),
+    (lambda t: t["children"][0]["children"][0]["rect"].update(height=-4),
+     "value.children[0].children[0].rect: negative width or height"),
+    (lambda t: t["children"][0].update(children={"type": "Button"}),
+     "value.children[0].children: expected a list of elements, found an object"),
+])
+def test_structural_json_errors_name_the_path_of_keys(tmp_path: Path, change: Callable[[dict], None],
+                                                      expect: str) -> None:
+    tree = json.loads(json.dumps(GARDEN_TREE))
+    change(tree)
+    err = error_of(write(tmp_path, "bad.json", json.dumps({"value": tree, "sessionId": "s"})))
+    assert err.message == expect and err.line is None
+
+
+def test_json_of_another_kind_lists_what_is_read(tmp_path: Path) -> None:
+    err = error_of(write(tmp_path, "prefs.json", '{"theme": "dark", "beds": 12}'))
+    assert err.message.startswith("JSON of a kind tapgauge does not read; expected COCO annotations")
+    assert "WebDriver page-source response" in err.message and "iOS element tree in JSON" in err.message
+
+
+def test_a_webdriver_error_response_says_so(tmp_path: Path) -> None:
+    # W3C WebDriver, Handling errors: {"value": {"error": ..., "message": ..., "stacktrace": ...}}.
+    body = {"value": {"error": "invalid session id", "message": "session deleted", "stacktrace": ""}}
+    err = error_of(write(tmp_path, "dead.json", json.dumps(body)))
+    assert err.message == ("the automation server answered with an error, not a page source "
+                           "('invalid session id: session deleted'); save the source again once the session is running")
+
+
+def test_errors_in_the_xml_string_are_placed_within_it(tmp_path: Path) -> None:
+    cut = bakery_dump("\n")[:-40]  # inside the second button, on the XML's line 5
+    err = error_of(write(tmp_path, "cut.json", json.dumps({"value": cut})))
+    assert err.message == (f"in the page source XML in 'value', its line 5: the file ends early at line 5, column "
+                           f"{len(cut.splitlines()[-1]) + 1}, inside <node> (depth 3); was the dump cut off?")
+    assert err.line is None
+
+
+def test_deeply_nested_json_is_an_error_not_a_crash(tmp_path: Path) -> None:
+    body = '{"type": "Other", "rect": {"x": 0, "y": 0, "width": 1, "height": 1}, "children": [' * 5000
+    err = error_of(write(tmp_path, "deep.json", body + "]}" * 5000))
+    assert "nested too deeply" in err.message
+
+
 # ---------------------------------------------------------------- never a crash
 
 FUZZ = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
@@ -299,3 +444,17 @@ def test_any_mix_of_dumps_status_lines_and_cuts_reads_or_is_an_input_error(
         return
     for s in screens:  # what was read is what was written: each screen's targets are the bakery's buttons
         assert [t.label for t in s.targets] == ["Order sourdough", "Save to favourites"]
+
+
+@FUZZ
+@given(st.lists(st.tuples(st.integers(0, 10**5), st.text(max_size=8)), min_size=1, max_size=4))
+def test_mutated_json_page_sources_read_or_are_input_errors(tmp_path: Path, cuts: list[tuple[int, str]]) -> None:
+    text = json.dumps({"value": GARDEN_TREE, "sessionId": "s"})
+    for pos, junk in cuts:
+        p = pos % (len(text) + 1)
+        text = text[:p] + junk + text[p + len(junk):]
+    p = write(tmp_path, "m.json", text.encode("utf-8", "surrogatepass"))
+    try:
+        read_screens(p)
+    except InputError as exc:
+        assert exc.path == str(p) and "COCO file" not in exc.message

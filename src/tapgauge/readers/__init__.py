@@ -1,7 +1,8 @@
 """Readers turn input files into Screens. They know nothing of rules.
 
 A screen may be a bundle of files sharing a stem: `home.xml` (a window dump or an
-element tree), `home.png` (its screenshot, for overlays) and `home.device.txt`.
+element tree) or `home.json` (page source saved from an automation server),
+`home.png` (its screenshot, for overlays) and `home.device.txt`.
 """
 
 from __future__ import annotations
@@ -28,8 +29,18 @@ from tapgauge.readers.classes import ClassMap, default_class_map
 from tapgauge.readers.images import IMAGE_SUFFIXES, image_size
 from tapgauge.readers.ios import is_ios_root, read_ios
 from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker, read_marked
+from tapgauge.readers.pagesource import (
+    HEAD_BYTES,
+    KINDS_READ,
+    json_kind,
+    load_json,
+    looks_like_page_source,
+    server_error,
+    tree_from_json,
+)
 from tapgauge.readers.sidecar import FOLDER_SIDECAR, SIDECAR_SUFFIX, read_sidecar, sidecar_for
 from tapgauge.readers.xmlsafe import Document, parse_documents, status_notice
+from tapgauge.textfile import read_bytes
 
 NOT_LABELS = {FOLDER_SIDECAR, "classes.txt"}
 
@@ -57,7 +68,7 @@ def read_screens(path: Path, options: ReadOptions | None = None) -> list[Screen]
     opts = options or ReadOptions()
     suffix = path.suffix.lower()
     if suffix == ".json":
-        return read_coco(path, opts.classes, _hints)
+        return _read_json(path, opts)
     if suffix == ".csv":
         return read_csv(path, opts.classes, _hints)
     if suffix == ".txt":
@@ -105,6 +116,36 @@ def _screen_of(path: Path, doc: Document, opts: ReadOptions, picture: Path | Non
     )
 
 
+def _read_json(path: Path, opts: ReadOptions) -> list[Screen]:
+    """A .json file: COCO annotations, a WebDriver page-source response, or an iOS element tree in JSON."""
+    data = load_json(path, read_bytes(path))
+    kind, part = json_kind(data)
+    if kind == "coco":
+        return read_coco(path, opts.classes, _hints, loaded=part)
+    if kind == "xml":
+        return _dumps(path, _documents_in_value(path, part), opts, (
+            "read the page source XML held in the response's 'value'; line numbers are lines of that XML",))
+    if kind == "tree":
+        where = "value" if part is not data else ""
+        screen = read_ios(path, tree_from_json(path, part, where), _hints(path), image=_picture(path),
+                          include_focusable=opts.include_focusable)
+        return [_with_scale_from_picture(screen)]
+    if kind == "error":
+        raise server_error(path, part)
+    raise InputError(path, f"JSON of a kind tapgauge does not read; expected {KINDS_READ}")
+
+
+def _documents_in_value(path: Path, xml: str) -> list[Document]:
+    """The XML documents in a WebDriver response's 'value', its errors placed within that XML."""
+    try:
+        return parse_documents(path, xml.encode("utf-8"))
+    except UnicodeEncodeError:
+        raise InputError(path, "the page source in 'value' holds characters that are not valid text") from None
+    except InputError as exc:
+        where = f", its line {exc.line}" if exc.line else ""
+        raise InputError(path, f"in the page source XML in 'value'{where}: {exc.message}") from None
+
+
 def _with_scale_from_picture(screen: Screen) -> Screen:
     """An iOS tree in points beside its screenshot in pixels: the width ratio is the scale."""
     if screen.image is None or screen.width <= 0:
@@ -141,7 +182,10 @@ def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
             stems_claimed.add(p.stem)
         elif low.endswith(".json"):
             inputs.append(p)
-            referenced |= coco_image_names(p)
+            if _is_page_source(p):
+                stems_claimed.add(p.stem)  # home.json + home.png is one screen, like home.xml + home.png
+            else:
+                referenced |= coco_image_names(p)
         elif low.endswith(".csv"):
             inputs.append(p)
             referenced |= csv_image_names(p)
@@ -153,6 +197,15 @@ def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
         if p.suffix.lower() in IMAGE_SUFFIXES and p.stem not in stems_claimed and name not in referenced:
             inputs.append(p)  # a lone screenshot: boxes marked on it
     return inputs
+
+
+def _is_page_source(path: Path) -> bool:
+    """Whether a .json file is page source, from its first few KiB only (discovery stays cheap; never raises)."""
+    try:
+        with open(path, "rb") as fh:
+            return looks_like_page_source(fh.read(HEAD_BYTES))
+    except OSError:
+        return False  # the read reports it
 
 
 _DEEPEST = 200  # folders below a given folder; far past any export, well within Python's recursion limit

@@ -17,6 +17,7 @@ import json
 import math
 from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 from lxml import etree
 
@@ -108,13 +109,16 @@ def _find_image(annotation: Path, filename: str) -> Path:
 # ---------------------------------------------------------------- COCO
 
 
-def read_coco(path: Path, classes: ClassMap, hints_for: HintsFor) -> list[Screen]:
-    try:
-        data = json.loads(read_text(path, "COCO file"))
-    except json.JSONDecodeError as exc:
-        raise InputError(path, f"not valid JSON: {exc.msg}", exc.lineno) from None
+def read_coco(path: Path, classes: ClassMap, hints_for: HintsFor, loaded: Any = None) -> list[Screen]:
+    """A COCO file's screens; `loaded` is its JSON when the caller has parsed it already (to sniff its kind)."""
+    data = loaded
+    if data is None:
+        try:
+            data = json.loads(read_text(path, "COCO file"))
+        except json.JSONDecodeError as exc:
+            raise InputError(path, f"not valid JSON: {exc.msg}", exc.lineno) from None
     if not isinstance(data, dict) or not all(isinstance(data.get(k), list) for k in ("images", "annotations", "categories")):
-        raise InputError(path, "not a COCO file: expected lists 'images', 'annotations' and 'categories'")
+        raise InputError(path, "COCO annotations need lists 'images', 'annotations' and 'categories'")
     try:
         names = {int(c["id"]): str(c["name"]) for c in data["categories"]}
         images = {int(i["id"]): i for i in data["images"]}
