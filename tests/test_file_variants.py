@@ -356,6 +356,16 @@ def test_page_source_json_claims_its_screenshot(tmp_path: Path) -> None:
     assert read_screen(tmp_path / "order.json").image == tmp_path / "order.png"
 
 
+def test_json_saved_by_powershell_is_read_as_utf16(tmp_path: Path) -> None:
+    # `curl .../source > beds.json` in Windows PowerShell 5.1 writes UTF-16 LE with a BOM (from memory).
+    write(tmp_path, "beds.json", json.dumps({"value": GARDEN_TREE}, indent=2).replace("\n", "\r\n").encode("utf-16"))
+    Image.new("RGB", (780, 1688)).save(tmp_path / "beds.png")
+    found, _ = discover([tmp_path])
+    assert [p.name for p in found] == ["beds.json"]  # the picture is claimed from the UTF-16 head alone
+    s = read_screen(tmp_path / "beds.json")
+    assert labels(s) == ["Water bed 3", "Frost alerts", "Bed 7, tomatoes"] and [h.scale for h in s.hints] == [2.0]
+
+
 def test_malformed_json_neither_crashes_discovery_nor_reads_as_coco(tmp_path: Path) -> None:
     write(tmp_path, "half.json", '{"value": "<?xml version=\\"1.0\\"?><hierarchy rotation=\\"0\\"><node')
     write(tmp_path, "empty.json", "")
