@@ -56,7 +56,7 @@ def check_file(path: Path, settings: Settings) -> list[ScreenResult]:
         try:
             device = resolve_device(screen, settings.flags, *screen.hints, settings.config.for_path(screen.path))
         except ValueError as exc:
-            where = f" (image {screen.name})" if screen.name else ""
+            where = f" ({screen.name})" if screen.name.startswith("dump ") else f" (image {screen.name})" if screen.name else ""
             raise InputError(path, f"{exc}{where}") from None
         checked = check_screen(measure(screen, device, settings.measure), list(settings.rulesets), settings.announce_skips)
         results.append(settings.scoring.apply(checked))
