@@ -231,13 +231,18 @@ def _covered_containers(targets: tuple[Target, ...], candidates: list[int], devi
     nested = [k for k in candidates if targets[k].path]
     if len(nested) < 2:
         return {}
+    # Each target's target ancestors, from the prefixes of its path: n x depth look-ups, not n x n.
+    by_path = {(targets[k].window, targets[k].path): k for k in nested}
+    inside: dict[int, list[int]] = {}
+    for d in nested:
+        t = targets[d]
+        for n in range(1, len(t.path)):
+            a = by_path.get((t.window, t.path[:n]))
+            if a is not None:
+                inside.setdefault(a, []).append(d)
     out: dict[int, str] = {}
-    by_depth = sorted(nested, key=lambda k: len(targets[k].path))
-    for n, k in enumerate(by_depth):
+    for k, inner in inside.items():
         container = targets[k]
-        inner = [d for d in by_depth[n + 1:] if container.is_ancestor_of(targets[d])]
-        if not inner:
-            continue
         side, _ = largest_free_square(np.array(container.bounds, dtype=float),
                                       as_boxes([targets[d].bounds for d in inner]))
         if side / device.coords_per_unit < COVERED_BELOW:
