@@ -123,7 +123,7 @@ def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, st
     """The scaled overlay as a data URI, and a crop per failing target (by ordinal)."""
     from PIL import Image
 
-    from tapgauge.report.overlay import draw_overlay
+    from tapgauge.report.overlay import align, draw_overlay
 
     shot = None
     if screen["image"]:
@@ -133,13 +133,17 @@ def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, st
         except OSError:
             shot = None
     small = draw_overlay(screen, report, shot, max_width=OVERLAY_WIDTH)
-    source = shot.convert("RGB") if shot is not None else small
-    fx = (shot.width / screen["width"]) if shot is not None else (small.width / screen["width"])
+    fit = align(screen, shot.size) if shot is not None else None
+    if shot is not None and fit is not None and fit.on_picture:  # crops sit where the overlay puts the boxes
+        source, fx, fy = shot.convert("RGB"), fit.fx, fit.fy
+    else:  # no screenshot, or one the boxes cannot be placed on: crop the wireframe
+        source = small
+        fx = fy = small.width / screen["width"] if screen["width"] else 1.0
     crops: dict[int, str] = {}
     for t in screen["targets"]:
         if t["status"] not in ("fail", "unmeasurable"):
             continue
-        l, top, r, b = (v * fx for v in t["bounds"])
+        l, top, r, b = t["bounds"][0] * fx, t["bounds"][1] * fy, t["bounds"][2] * fx, t["bounds"][3] * fy
         pad = max(12.0, 0.3 * max(r - l, b - top))
         box = (max(0, int(l - pad)), max(0, int(top - pad)), min(source.width, int(r + pad)),
                min(source.height, int(b + pad)))
