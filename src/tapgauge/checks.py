@@ -95,7 +95,8 @@ def _presumed_cover_notes(m: MeasuredScreen, rule: Rule, side: np.ndarray, size:
     for pos in np.flatnonzero((side >= size - EPS) & (presumed < size - EPS)).tolist():
         names = ", ".join(_who(m, o) for o in m.maybe_covers[pos][:3])
         more = f" and {len(m.maybe_covers[pos]) - 3} more" if len(m.maybe_covers[pos]) > 3 else ""
-        notes.append((pos, f"{rule.id}: if {names}{more} is drawn over it, only {_fmt(presumed[pos])} {unit} is left "
+        verb = "is" if len(m.maybe_covers[pos]) == 1 else "are"
+        notes.append((pos, f"{rule.id}: if {names}{more} {verb} drawn over it, only {_fmt(presumed[pos])} {unit} is left "
                            f"of a needed {_fmt(size)} {unit} square; the file does not say which is on top "
                            "(no drawing-order), so it is not failed for this"))
     return notes

@@ -22,7 +22,7 @@ from tapgauge.geometry import (
     sizes,
 )
 from tapgauge.model import Box, Device, Screen, Target
-from tapgauge.stacking import CHECKED_ROLES, WindowRole, blocking_window, cover_pairs, window_roles
+from tapgauge.stacking import CHECKED_ROLES, WindowRole, blocking_window, cover_pairs, fmt_box, window_roles
 
 
 class MeasureOptions(NamedTuple):
@@ -134,7 +134,7 @@ def _window_edge(t: Target, window: Box, width: float, height: float) -> str:
     l, top, r, b = t.bounds
     wl, wt, wr, wb = window
     if (0 < wl and l <= wl) or (0 < wt and top <= wt) or (wr < width and r >= wr) or (wb < height and b >= wb):
-        return "cut by the edge of its window at [{:g},{:g}][{:g},{:g}]".format(*window)
+        return f"cut by the edge of its window at {fmt_box(window)}"
     return ""
 
 
@@ -170,11 +170,9 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
             if role.role not in CHECKED_ROLES and not options.all_windows:
                 why = _role_reason(role.role, role.package)
             else:
-                blocked = blocking_window(t, roles, with_targets)
-                if blocked.startswith("~"):
-                    clipped[k] = blocked[1:]
-                else:
-                    why = blocked
+                why, cut = blocking_window(t, roles, with_targets)
+                if cut:
+                    clipped[k] = cut
         if not why and screen.platform == "ios":  # Android bounds are clipped to the display already, and
             where = _off_screen(t, screen.width, screen.height)  # a root's size may be a window's, not the screen's
             if where == "off":

@@ -87,10 +87,17 @@ def _area(b: Box) -> float:
     return max(0.0, b[2] - b[0]) * max(0.0, b[3] - b[1])
 
 
-def blocking_window(target: Target, roles: tuple[WindowRole, ...], with_targets: set[int]) -> str:
-    """Why a target of a checked window cannot be reached because of a window over it, or ""."""
+class Blocked(NamedTuple):
+    """What windows over a target do to it: hide it (not checked) or cut part of it off."""
+
+    hidden: str = ""  # the reason it is not checked, or ""
+    cut: str = ""  # what covers part of it, or ""
+
+
+def blocking_window(target: Target, roles: tuple[WindowRole, ...], with_targets: set[int]) -> Blocked:
+    """What the windows drawn over a target's own window do to it."""
     if target.window < 0 or not roles:
-        return ""
+        return Blocked()
     mine = roles[target.window]
     l, t, r, b = target.bounds
     cut = ""
@@ -100,7 +107,8 @@ def blocking_window(target: Target, roles: tuple[WindowRole, ...], with_targets:
         if other.role in ("dialog", "other app"):
             if k in with_targets:  # a modal window takes every tap while it is open
                 where = f"package {other.package}" if other.package else "the app"
-                return f"behind a dialog window ({where}) at {_fmt_box(other.bounds)} that takes the taps while open"
+                return Blocked(f"behind a dialog window ({where}) at {fmt_box(other.bounds)} that takes the taps "
+                               "while open")
             continue
         ol, ot, or_, ob = other.bounds
         il, it, ir, ib = max(l, ol), max(t, ot), min(r, or_), min(b, ob)
@@ -108,12 +116,13 @@ def blocking_window(target: Target, roles: tuple[WindowRole, ...], with_targets:
             continue
         what = "the on-screen keyboard" if other.role == "keyboard" else "a system bar"
         if il <= l and it <= t and ir >= r and ib >= b:
-            return f"hidden under {what} at {_fmt_box(other.bounds)}"
-        cut = cut or f"partly under {what} at {_fmt_box(other.bounds)}"
-    return "~" + cut if cut else ""
+            return Blocked(f"hidden under {what} at {fmt_box(other.bounds)}")
+        cut = cut or f"partly under {what} at {fmt_box(other.bounds)}"
+    return Blocked(cut=cut)
 
 
-def _fmt_box(b: Box) -> str:
+def fmt_box(b: Box) -> str:
+    """A box as dumps write bounds: [left,top][right,bottom]."""
     return "[{:g},{:g}][{:g},{:g}]".format(*b)
 
 

@@ -113,7 +113,8 @@ class _Walk:
     collects them in a hash set), so windows are stacked later by what they are.
     """
 
-    __slots__ = ("focusable", "found", "loose", "nodes", "path", "raws", "reordered", "texts", "windows")
+    __slots__ = ("focusable", "found", "loose", "nodes", "path", "raws", "reordered", "texts", "window_boxes",
+                 "windows")
 
     def __init__(self, path: Path, focusable: bool) -> None:
         self.path = path
@@ -124,11 +125,11 @@ class _Walk:
         self.found: list[tuple[etree._Element, int, bool, Scrollers, Path_, int, list[int]]] = []
         self.focusable: list[etree._Element] = []  # focusable, not clickable: maybe a control in disguise
         self.texts: list[str] = []  # visible texts in walk order, to name targets that have none
-        self.windows: list[tuple[etree._Element, str]] = []  # root node of each window, what its container says
+        self.windows: list[etree._Element] = []  # the root node of each window (its box: `window_boxes`)
+        self.window_boxes: list[int] = []  # where each window root's bounds stand in `raws`
         self.reordered = False
 
-    def children(self, el: etree._Element, scrollers: Scrollers, shown: bool, tree: Path_, window: int,
-                 kind: str = "") -> None:
+    def children(self, el: etree._Element, scrollers: Scrollers, shown: bool, tree: Path_, window: int) -> None:
         kids = list(el)  # the parser drops comments and PIs; a stray one has no bounds and no children
         numbered = False
         if len(kids) > 1:  # children paint in drawing order when the dump gives it, else document order
@@ -144,12 +145,13 @@ class _Walk:
                 if child.tag == "node":
                     raise InputError(self.path, "<node> has no bounds attribute; expected bounds=\"[l,t][r,b]\"",
                                      child.sourceline)
-                if len(child):  # a container such as <window> or <display>, which may say what it holds
-                    self.children(child, scrollers, shown, tree, window, _container_kind(child) or kind)
+                if len(child):  # a container such as <window> or <display>
+                    self.children(child, scrollers, shown, tree, window)
                 continue
             if window < 0:  # a window's root
                 here, mine = ((0, False),), len(self.windows)
-                self.windows.append((child, kind))
+                self.windows.append(child)
+                self.window_boxes.append(len(raws))
             else:
                 here, mine = (*tree, (place, numbered)), window
             nodes.append(child)
@@ -163,8 +165,8 @@ class _Walk:
             own = None if tappable else get("text") or get("content-desc")
             if own:  # a nested target's text names that target, not the one around it
                 texts.append(own.strip())
-            span = [len(texts), len(texts)]
             if tappable:
+                span = [len(texts), len(texts)]
                 found.append((child, len(raws), visible, scrollers, here, mine, span))
             if len(child):
                 if get("scrollable") == _TRUE:
@@ -172,12 +174,8 @@ class _Walk:
                                   here, mine)
                 else:
                     self.children(child, scrollers, visible, here, mine)
-                span[1] = len(texts)
-
-
-def _container_kind(el: etree._Element) -> str:
-    """What a window container element says it holds, where it says so (an input method's type)."""
-    return "keyboard" if any("INPUT_METHOD" in v.upper() for v in el.attrib.values()) else ""
+                if tappable:
+                    span[1] = len(texts)
 
 
 def _text_within(texts: list[str], start: int, stop: int) -> str:
@@ -211,9 +209,8 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
         ))
     width = _int_attr(root, "width", path) or max(0, max(b[2] for b in boxes))
     height = _int_attr(root, "height", path) or max(0, max(b[3] for b in boxes))
-    index = {id(el): k for k, el in enumerate(nodes)}
-    windows = tuple(Window(tuple(boxes[index[id(el)]]), el.get("package") or "", kind, el.sourceline)
-                    for el, kind in walk.windows)
+    windows = tuple(Window(tuple(boxes[at]), el.get("package") or "", "", el.sourceline)
+                    for el, at in zip(walk.windows, walk.window_boxes))
     return Screen(
         path=path, platform="android", width=width, height=height, rotation=rotation,
         targets=tuple(targets), hints=hints, image=image, windows=windows,

@@ -9,8 +9,8 @@ size: nothing here is "unmeasurable" for clipping.
 
 from __future__ import annotations
 
-import copy
 import math
+from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
@@ -77,9 +77,10 @@ class _Walk:
         self.framed = 0
         self.order = 0
 
-    def visit(self, el: etree._Element, tree: tuple[tuple[int, bool], ...], window: int, hidden: bool) -> None:
+    def visit(self, elements: Iterable[etree._Element], tree: tuple[tuple[int, bool], ...], window: int,
+              hidden: bool) -> None:
         place = 0
-        for child in el:
+        for child in elements:
             if not isinstance(child.tag, str):
                 continue
             if not child.tag.startswith(PREFIX) and child.get("type") is None:
@@ -127,7 +128,8 @@ class _Walk:
 def read_ios(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], image: Path | None = None,
              include_focusable: bool = False) -> Screen:
     walk = _Walk(path, include_focusable)
-    walk.visit(_holder(root), (), 0, False)
+    # The tree's top: the root itself when it is an element type, else what the wrapper holds.
+    walk.visit([root] if root.tag.startswith(PREFIX) or root.get("type") is not None else root, (), 0, False)
     if walk.framed == 0:
         raise InputError(path, "iOS element tree has no frames; expected x, y, width and height attributes "
                                "(in points) on the XCUIElementType* elements", root.sourceline)
@@ -136,15 +138,6 @@ def read_ios(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], i
     return Screen(path=path, platform="ios", width=frame[2], height=frame[3], rotation=0, targets=targets,
                   hints=hints, coords="pt", image=image, windows=(Window(frame, "", "", None), *walk.windows),
                   notices=_others_notice(walk.others, include_focusable))
-
-
-def _holder(root: etree._Element) -> etree._Element:
-    """An element whose children are the tree's top: the root itself counts when it is an element type."""
-    if root.tag.startswith(PREFIX) or root.get("type") is not None:
-        holder = etree.Element("root")
-        holder.append(copy.copy(root))  # lxml moves an appended element; a copy leaves the tree as parsed
-        return holder
-    return root
 
 
 def _others_notice(others: list[etree._Element], taken: bool) -> tuple[str, ...]:
