@@ -232,6 +232,17 @@ def test_a_screen_with_no_targets_says_so(tmp_path: Path, capsys: pytest.Capture
     assert any(n.startswith("no touch targets on this screen") for n in report["screens"][0]["notices"])
 
 
+def test_a_screen_whose_every_target_is_set_aside_says_nothing_was_compared(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    # Only the keyboard's window: every target is a key, none is the app's.
+    keys = "".join(node(f"[{k * 108},1500][{k * 108 + 108},1620]", pkg=KEYS, clickable="true", content_desc=c)
+                   for k, c in enumerate("qwe"))
+    _, report = check(tmp_path, dump(node("[0,1400][1080,2000]", keys, pkg=KEYS)), capsys)
+    notices = report["screens"][0]["notices"]
+    assert any(n.startswith("none of the 3 targets on this screen was checked (a key of the on-screen keyboard")
+               and n.endswith("nothing on it was compared") for n in notices)
+
+
 def test_focusable_nodes_that_are_not_clickable_are_counted_and_can_be_taken(
         tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     # Some cross-platform frameworks write controls as focusable but not clickable.

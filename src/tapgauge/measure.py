@@ -196,6 +196,10 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
     candidates = [k for k in range(len(targets)) if k not in unchecked]
     unchecked.update(_covered_containers(targets, candidates, device))
     checked = tuple(k for k in candidates if k not in unchecked)
+    if targets and not checked:  # say so: a screen where every target was set aside compared nothing
+        reasons = sorted({why.split(" (")[0].split(" at [")[0] for why in unchecked.values()})
+        notices.append(f"none of the {len(targets)} targets on this screen was checked ({'; '.join(reasons[:3])}"
+                       f"{'; ...' if len(reasons) > 3 else ''}): nothing on it was compared")
     boxes = as_boxes([targets[k].bounds for k in checked])
     pairs = cover_pairs(boxes, [targets[k] for k in checked], roles)
     covers: list[list[int]] = [[] for _ in checked]
