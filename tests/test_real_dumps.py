@@ -175,14 +175,14 @@ def test_all_windows_checks_the_keyboard_too(tmp_path: Path, capsys: pytest.Capt
 
 def test_app_package_names_the_app_when_the_guess_is_wrong(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     # Two full-screen windows: the app's and another app's permission prompt. The guess (largest
-    # window, then the one with more targets) takes the prompt for the app; --app-package corrects it.
+    # window, then the one with more targets) takes the prompt for the app; --package corrects it.
     prompt_pkg = "org.example.permissions"
     prompt = node("[0,0][1080,2000]", node("[100,1500][500,1600]", pkg=prompt_pkg, clickable="true", text="Allow")
                   + node("[580,1500][980,1600]", pkg=prompt_pkg, clickable="true", text="Deny"), pkg=prompt_pkg)
     app = node("[0,0][1080,2000]", node("[100,300][400,400]", clickable="true", text="Book"))
     _, report = check(tmp_path, dump(prompt, app), capsys)
     assert by_name(report)["Book"]["reason"].startswith(f"in another app's window (package {APP})")
-    _, report = check(tmp_path, dump(prompt, app), capsys, "--app-package", APP)
+    _, report = check(tmp_path, dump(prompt, app), capsys, "--package", APP)
     t = by_name(report)
     assert t["Book"]["status"] == "unchecked" and t["Book"]["reason"].startswith("behind a dialog window")
     assert t["Allow"]["status"] == "unchecked" and "another app's window" in t["Allow"]["reason"]

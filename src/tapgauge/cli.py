@@ -73,6 +73,7 @@ AllWindowsOpt = Annotated[Optional[bool], typer.Option(
     "--all-windows/--app-windows",
     help="Also check the on-screen keyboard's, the system bars' and other apps' targets (default: the app's only).")]
 AppPackageOpt = Annotated[Optional[str], typer.Option(
+    "--package",
     help="The app's package, where the largest window of a multi-window dump is not the app's.")]
 FocusableOpt = Annotated[Optional[bool], typer.Option(
     "--include-focusable/--clickable-only",

@@ -22,7 +22,7 @@ from tapgauge.textfile import load_toml, read_text
 
 CONFIG_NAME = "tapgauge.toml"
 TOP_KEYS = ("project", "rules", "fail_level", "profiles", "marker", "device", "devices", "classes", "waivers", "gate",
-            "all_windows", "app_package", "include_focusable")
+            "all_windows", "package", "include_focusable")
 
 
 def relative_to_base(path: Path, base: Path) -> str:
@@ -189,9 +189,9 @@ def load_config(start: Path) -> Config:
     for flag in ("all_windows", "include_focusable"):
         if flag in table and not isinstance(table[flag], bool):
             raise r.bad(flag, "must be true or false")
-    app_package = table.get("app_package")
+    app_package = table.get("package")
     if app_package is not None and not (isinstance(app_package, str) and app_package.strip()):
-        raise r.bad("app_package", "must be the app's package name, such as \"org.example.app\"")
+        raise r.bad("package", "must be the app's package name, such as \"org.example.app\"")
     fail_level = None
     if "fail_level" in table:
         try:
@@ -283,7 +283,7 @@ def effective_settings(config: Config, defaults: dict[str, Any]) -> list[tuple[s
         ("marker", config.marker or defaults["marker"], origin("marker")),
         ("classes", "custom table" if config.classes else "built-in table", origin("classes")),
         ("all_windows", str(bool(config.all_windows)).lower(), origin("all_windows")),
-        ("app_package", config.app_package or "(the package of the largest window)", origin("app_package")),
+        ("package", config.app_package or "(the package of the largest window)", origin("package")),
         ("include_focusable", str(bool(config.include_focusable)).lower(), origin("include_focusable")),
         ("device", device_text(config.devices.fallback), origin("device")),
     ]
