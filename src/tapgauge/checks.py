@@ -38,10 +38,11 @@ class Kind:
 def _fmt(v: float) -> str:
     """One decimal, dropped when it is zero: 24 dp, 23.5 dp.
 
-    Rounded first to the two decimals reports store sizes in, so a message and the size
-    column show one figure (27.048 is 27.05 in the report: both say 27.1, not 27.0 and 27.1).
+    Callers pass the figure as the report stores it (sizes to 2 decimals, measured values
+    to 3), so a message and the table's columns show one figure: 27.048 dp is stored as
+    27.05 and both say 27.1, not 27.0 beside 27.1.
     """
-    return f"{round(v, 2):.1f}".removesuffix(".0")
+    return f"{v:.1f}".removesuffix(".0")
 
 
 def _who(m: MeasuredScreen, pos: int) -> str:
@@ -67,8 +68,8 @@ def check_min_size(m: MeasuredScreen, rule: Rule) -> KindResult:
     findings: list[tuple[int, Finding]] = []
     notes: list[tuple[int, str]] = []
     # Plain Python numbers from here on: formatting numpy scalars one by one is slow.
-    w, h = (a.tolist() for a in sizes(boxes))
-    sides, measured, conflict = side.tolist(), np.round(side, 3).tolist(), conflicts.tolist()
+    w, h = (np.round(a, 2).tolist() for a in sizes(boxes))  # as the report stores sizes
+    measured, conflict = np.round(side, 3).tolist(), conflicts.tolist()
     need = f"{_fmt(size)} {unit}"
     passes_note = f"{rule.id}: under {need}, passes by spacing (its {need} circle clears all other targets)"
     if any(m.maybe_covers):
@@ -80,7 +81,7 @@ def check_min_size(m: MeasuredScreen, rule: Rule) -> KindResult:
         message = f"{_fmt(w[pos])} x {_fmt(h[pos])} {unit}, needs a {need} square"
         if m.covers[pos]:
             names = ", ".join(_who(m, o) for o in m.covers[pos][:3])
-            message += f"; {_fmt(sides[pos])} {unit} left beside {names} drawn over it"
+            message += f"; {_fmt(measured[pos])} {unit} left beside {names} drawn over it"
         if spacing:
             message += f"; its {need} circle intersects {_who(m, conflict[pos])}"
         findings.append((pos, Finding(rule.id, rule.severity, measured[pos], size, unit, message)))

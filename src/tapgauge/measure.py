@@ -71,8 +71,15 @@ class MeasuredScreen:
         """The same, counting also the targets only presumed to be drawn over it."""
         key = ("presumed", unit)
         if key not in self._derived:
-            both = tuple(tuple(sorted({*a, *b})) for a, b in zip(self.covers, self.maybe_covers))
-            self._derived[key] = free_sides(self.boxes(unit), both) if any(self.maybe_covers) else self.free_squares(unit)
+            side = self.free_squares(unit)
+            redo = [pos for pos, maybe in enumerate(self.maybe_covers) if maybe]  # the rest are as known
+            if redo:
+                both: list[tuple[int, ...]] = [()] * len(side)
+                for pos in redo:
+                    both[pos] = tuple(sorted({*self.covers[pos], *self.maybe_covers[pos]}))
+                side = side.copy()
+                side[redo] = free_sides(self.boxes(unit), tuple(both))[redo]
+            self._derived[key] = side
         return self._derived[key]
 
     @property
