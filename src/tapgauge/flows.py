@@ -11,6 +11,10 @@ A flow file (our own syntax) is plain text, one statement per line, `#` starts a
 
 The finger moves from the start to the first target, then from each target's centre to
 the next; a new screen keeps the finger where it was on the glass.
+
+A bad file is reported whole, each problem on the line that caused it: first every line
+that does not parse; once all parse, every screen that cannot be opened and every tap
+that finds no target or several, before anything is predicted.
 """
 
 from __future__ import annotations
@@ -41,6 +45,30 @@ class Step:
     screen: Path
     how: str  # "id", "label" or "index"
     value: str
+    screen_line: int = 0  # the 'screen' line it follows, named when that screen cannot be used
+
+
+class FlowErrors(InputError):
+    """Every problem found in one flow file, each with its line; str() gives one per line.
+
+    An InputError, so every caller that reports one error reports all of them unchanged.
+    """
+
+    def __init__(self, path: Path | str, errors: tuple[InputError, ...]) -> None:
+        self.errors = errors
+        listed = "\n".join(str(e) for e in errors)
+        super().__init__(path, f"{len(errors)} problems:\n{listed}")
+
+    def __reduce__(self) -> tuple[type, tuple[str, tuple[InputError, ...]]]:  # type: ignore[override]
+        return (FlowErrors, (self.path, self.errors))
+
+
+def _raise_all(path: Path, errors: list[InputError]) -> None:
+    """Raise the one error as it is, several as one FlowErrors in line order; nothing if none."""
+    if len(errors) == 1:
+        raise errors[0]
+    if errors:
+        raise FlowErrors(path, tuple(sorted(errors, key=lambda e: e.line or 0)))
 
 
 @dataclass(frozen=True)
@@ -65,41 +93,48 @@ def _strip_comment(line: str) -> str:
 
 
 def parse_flow(path: Path) -> Flow:
+    """The flow's steps; raises every bad line at once (FlowErrors when there are several)."""
     text = read_text(path, "flow file")
     start, xy = "centre", None
     screen: Path | None = None
+    screen_line = 0
     steps: list[Step] = []
+    errors: list[InputError] = []
     for n, raw in enumerate(text.splitlines(), start=1):
         try:
             words = shlex.split(_strip_comment(raw))
         except ValueError as exc:
-            raise InputError(path, f"cannot split this line: {exc}", n) from None
+            errors.append(InputError(path, f"cannot split this line: {exc}", n))
+            continue
         if not words:
             continue
         verb, args = words[0].lower(), words[1:]
         if verb == "from" and len(args) == 1:
             if steps:
-                raise InputError(path, "'from' must come before the first tap", n)
+                errors.append(InputError(path, "'from' must come before the first tap", n))
+                continue
             try:
                 start, xy = parse_start(args[0])
             except ValueError as exc:
-                raise InputError(path, str(exc), n) from None
+                errors.append(InputError(path, str(exc), n))
         elif verb == "screen" and len(args) == 1:
-            screen = (path.parent / args[0])
+            screen, screen_line = path.parent / args[0], n
         elif verb == "tap" and len(args) == 1:
-            if screen is None:
-                raise InputError(path, "a 'screen PATH' line must come before the first tap", n)
             sel = args[0]
-            if sel.startswith("#") and sel[1:].isdigit():
-                steps.append(Step(n, screen, "index", sel[1:]))
+            if screen is None:
+                errors.append(InputError(path, "a 'screen PATH' line must come before the first tap", n))
+            elif sel.startswith("#") and sel[1:].isdigit():
+                steps.append(Step(n, screen, "index", sel[1:], screen_line))
             elif sel.startswith("id:") and len(sel) > 3:
-                steps.append(Step(n, screen, "id", sel[3:]))
+                steps.append(Step(n, screen, "id", sel[3:], screen_line))
             elif sel.startswith("label:") and len(sel) > 6:
-                steps.append(Step(n, screen, "label", sel[6:]))
+                steps.append(Step(n, screen, "label", sel[6:], screen_line))
             else:
-                raise InputError(path, f"tap {sel!r}: expected id:RESOURCE_ID, label:TEXT or #NUMBER", n)
+                errors.append(InputError(path, f"tap {sel!r}: expected id:RESOURCE_ID, label:TEXT or #NUMBER", n))
         else:
-            raise InputError(path, f"expected 'from START', 'screen PATH' or 'tap SELECTOR', found {raw.strip()!r}", n)
+            errors.append(InputError(
+                path, f"expected 'from START', 'screen PATH' or 'tap SELECTOR', found {raw.strip()!r}", n))
+    _raise_all(path, errors)
     if not steps:
         raise InputError(path, "the flow has no taps")
     return Flow(path, start, xy, tuple(steps))
@@ -140,29 +175,60 @@ class Loaded:
     device: Device
 
 
+def _load(step: Step, flow: Path, flags: DeviceHints, config: DeviceDefaults, read: ReadOptions) -> Loaded:
+    """A step's screen and device; every failure an InputError at the first tap that needs it."""
+    path, line = step.screen, step.line
+    named = f" (named on line {step.screen_line})" if step.screen_line else ""
+    if not path.is_file():
+        raise InputError(flow, f"screen {path} not found{named}", line)
+    try:
+        screens = read_screens(path, read)
+    except InputError as exc:
+        raise InputError(flow, f"screen {path.name}{named} cannot be read: {exc}", line) from None
+    if len(screens) != 1:
+        raise InputError(flow, f"{path.name}{named} holds {len(screens)} screens; a flow needs one per file", line)
+    try:
+        device = resolve_device(screens[0], flags, *screens[0].hints, config.for_path(path))
+    except ValueError as exc:
+        raise InputError(flow, f"screen {path.name}{named}: {exc}", line) from None
+    return Loaded(screens[0], device)
+
+
+def _resolve(flow: Flow, flags: DeviceHints, config: DeviceDefaults,
+             read: ReadOptions) -> list[tuple[Loaded, int]]:
+    """Each step's screen and target index. Raises together every screen that cannot be used
+    (once each, at the first tap on it) and every tap that finds no target or several."""
+    loaded: dict[Path, Loaded] = {}
+    failed: set[Path] = set()
+    errors: list[InputError] = []
+    found: list[tuple[Loaded, int]] = []
+    for step in flow.steps:
+        if step.screen in failed:
+            continue
+        if step.screen not in loaded:
+            try:
+                loaded[step.screen] = _load(step, flow.path, flags, config, read)
+            except InputError as exc:
+                failed.add(step.screen)
+                errors.append(exc)
+                continue
+        entry = loaded[step.screen]
+        try:
+            found.append((entry, find_target(entry.screen, step, flow.path)))
+        except InputError as exc:
+            errors.append(exc)
+    _raise_all(flow.path, errors)
+    return found
+
+
 def run_flow(flow: Flow, profiles: list[Profile], flags: DeviceHints, config: DeviceDefaults,
              read: ReadOptions, width_model: str = "approach") -> dict[str, Any]:
     """Predict every step and the totals, per profile, as a plain record for the writers."""
-    cache: dict[Path, Loaded] = {}
-
-    def load(path: Path, line: int) -> Loaded:
-        if path not in cache:
-            if not path.is_file():
-                raise InputError(flow.path, f"screen {path} not found", line)
-            screens = read_screens(path, read)
-            if len(screens) != 1:
-                raise InputError(flow.path, f"{path.name} holds {len(screens)} screens; a flow needs one per file", line)
-            try:
-                device = resolve_device(screens[0], flags, *screens[0].hints, config.for_path(path))
-            except ValueError as exc:
-                raise InputError(path, str(exc)) from None
-            cache[path] = Loaded(screens[0], device)
-        return cache[path]
-
-    loaded = [load(s.screen, s.line) for s in flow.steps]
-    mm = all(entry.device.has_mm for entry in loaded)
+    resolved = _resolve(flow, flags, config, read)
+    entries = [entry for entry, _ in resolved]
+    mm = all(entry.device.has_mm for entry in entries)
     unit = "mm" if mm else "platform"
-    first = loaded[0]
+    first = entries[0]
     if flow.start_xy is None:
         fx, fy = start_points()[flow.start]
         sx, sy = fx * first.screen.width, fy * first.screen.height
@@ -171,8 +237,7 @@ def run_flow(flow: Flow, profiles: list[Profile], flags: DeviceHints, config: De
     here = to_unit(as_boxes([(sx, sy, sx, sy)]), first.device, unit)[0][:2]
     steps: list[dict[str, Any]] = []
     totals = {p.id: {"time_ms": 0.0, "expected_misses": 0.0, "all_hit": 1.0} for p in profiles}
-    for step, entry in zip(flow.steps, loaded):
-        k = find_target(entry.screen, step, flow.path)
+    for step, (entry, k) in zip(flow.steps, resolved):
         target = entry.screen.targets[k]
         box = to_unit(as_boxes([target.bounds]), entry.device, unit)
         box_mm = box if mm else None
