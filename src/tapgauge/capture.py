@@ -2,6 +2,9 @@
 
 Writes NAME.xml (the window dump), NAME.png (a screenshot) and NAME.device.txt (the
 raw `wm density`, `wm size` and `dumpsys display` lines), each atomically.
+
+Without --serial the device is the one `adb devices` lists; none, or several, is an
+error that lists what adb sees (each serial with its state) and how to choose.
 """
 
 from __future__ import annotations
@@ -54,6 +57,71 @@ def find_adb(serial: str | None) -> Adb:
     return Adb(exe, serial)
 
 
+# What to do about a device adb lists but cannot use yet, by its state.
+STATE_ADVICE = {
+    "offline": "reconnect it, or restart adb with `adb kill-server`",
+    "unauthorized": "unlock it and accept the USB debugging prompt",
+}
+
+
+@dataclass(frozen=True)
+class Listed:
+    serial: str
+    state: str  # "device" when ready; else offline, unauthorized, "no permissions (...)", ...
+
+    def said(self) -> str:
+        advice = STATE_ADVICE.get(self.state)
+        return f"{self.serial} ({self.state}{': ' + advice if advice else ''})"
+
+
+def parse_devices(text: str) -> list[Listed]:
+    """The devices in `adb devices` output: one `SERIAL<tab>STATE` line each after the heading.
+
+    Lines that are not a serial and a state (the heading, the server's '* daemon ...'
+    notices) are skipped; a state may hold spaces ("no permissions (...)").
+    """
+    found = []
+    for line in text.splitlines():
+        parts = line.strip().split("\t", 1) if "\t" in line else line.split()
+        if len(parts) == 2 and not line.startswith("*"):
+            found.append(Listed(parts[0].strip(), parts[1].strip()))
+    return found
+
+
+def choose_device(listed: list[Listed]) -> str:
+    """The serial of the one device adb lists, ready; else a CaptureError saying what adb sees."""
+    if not listed:
+        raise CaptureError("no Android device is connected (`adb devices` lists none); connect one by USB "
+                           "with USB debugging on, or start an emulator")
+    if len(listed) == 1:
+        one = listed[0]
+        if one.state != "device":
+            raise CaptureError(f"the only device, {one.said()}, is not ready")
+        return one.serial
+    ready = [d.serial for d in listed if d.state == "device"]
+    waiting = [d.said() for d in listed if d.state != "device"]
+    lines = [f"{len(listed)} devices are connected; choose one with --serial SERIAL"]
+    if ready:
+        lines[0] += ":"
+        lines += [f"  --serial {serial}" for serial in ready]
+    else:
+        lines[0] += ", once one is ready (none is now)"
+    if waiting:
+        lines += ["not ready:", *(f"  {w}" for w in waiting)]
+    raise CaptureError("\n".join(lines))
+
+
+def _pick(adb: Adb) -> Adb:
+    """`adb` aimed at the one connected device when no serial was given."""
+    if adb.serial is not None:
+        return adb
+    try:
+        listing = adb.text("devices")
+    except CaptureError:
+        return adb  # an adb without a usable `devices`: get-state will say what is wrong
+    return Adb(adb.exe, choose_device(parse_devices(listing)))
+
+
 def _check_device(adb: Adb) -> None:
     try:
         state = adb.text("get-state").strip()
@@ -61,7 +129,8 @@ def _check_device(adb: Adb) -> None:
         who = f"device {adb.serial}" if adb.serial else "a device"
         raise CaptureError(f"no usable connection to {who}: {exc}") from None
     if state != "device":
-        raise CaptureError(f"the device is '{state}', not ready; unlock it and accept the USB debugging prompt")
+        who = f"device {adb.serial}" if adb.serial else "the device"
+        raise CaptureError(f"{who} is '{state}', not ready; unlock it and accept the USB debugging prompt")
 
 
 def _display_lines(dumpsys: str) -> str:
@@ -77,7 +146,7 @@ def capture(name: str, out: Path, serial: str | None = None, force: bool = False
     existing = [p for p in targets if p.exists()]
     if existing and not force:
         raise CaptureError(f"{existing[0]} exists; choose another name or pass --force to replace it")
-    adb = find_adb(serial)
+    adb = _pick(find_adb(serial))
     _check_device(adb)
     said = adb.text("shell", "uiautomator", "dump", DEVICE_DUMP)
     if "ERROR" in said.upper():
