@@ -50,7 +50,7 @@ def _android_dump(folder: Path, boxes: list[tuple[int, int, int, int]], window: 
 
 
 def _check(path: Path, out: Path, capsys: pytest.CaptureFixture[str]) -> tuple[dict[str, Any], Image.Image, str]:
-    main(["check", str(path), "-f", "json", "--overlay", str(out)])
+    main(["check", str(path), "-f", "json", "--overlay", str(out), "--quiet"])
     captured = capsys.readouterr()
     screen = json.loads(captured.out)["screens"][0]
     return screen, Image.open(out / overlay_name(screen)).convert("RGB"), captured.err
@@ -148,7 +148,7 @@ def test_annotated_screenshot_boxes_are_its_own_pixels(tmp_path: Path, capsys: p
     Image.new("RGB", (720, 1280), SHOT).save(tmp_path / "cake_order.png")
     (tmp_path / "boxes.csv").write_text("image,left,top,right,bottom,class,label\n"
                                         "cake_order.png,100,900,150,950,button,Add candles\n", encoding="utf-8")
-    main(["check", str(tmp_path / "boxes.csv"), "--density", "320", "-f", "json", "--overlay", str(tmp_path / "ov")])
+    main(["check", str(tmp_path / "boxes.csv"), "--density", "320", "-f", "json", "--overlay", str(tmp_path / "ov"), "--quiet"])
     captured = capsys.readouterr()
     screen = json.loads(captured.out)["screens"][0]
     pic = Image.open(tmp_path / "ov" / overlay_name(screen)).convert("RGB")

@@ -7,6 +7,7 @@ reuse), kept out of cli.py so that it stays a list of commands.
 from __future__ import annotations
 
 import datetime as dt
+from collections import Counter
 import os
 import sys
 from collections.abc import Callable, Iterator
@@ -98,6 +99,32 @@ def write_report(report: Report, output: Path | None, write: Callable[[Report, T
         say(f"{output}: cannot write report: {exc.strerror or exc}")
         return EXIT_ERROR
     return 0
+
+
+def tell_verdict(report: Report, paths: list[Path], quiet: bool, in_stdout: bool) -> None:
+    """The summary line on stderr, so a CI log tells the story when the report went to a file or is a
+    machine format (the table on stdout has it already); and, whatever `quiet` says, why a run
+    that compared nothing failed."""
+    from tapgauge.report.verdict import summary_line
+
+    if report.summary["screens"] == 0 and not report.errors:
+        say(nothing_found(paths))
+    if not quiet and not in_stdout:
+        say(summary_line(report.summary, report.fail_level))
+
+
+def nothing_found(paths: list[Path]) -> str:
+    """What the given paths hold, when none of it is a screen (walked again only in that case)."""
+    files: Counter[str] = Counter()
+    for given in paths:
+        found = [given] if given.is_file() else [Path(d) / f for d, _, fs in os.walk(given) for f in fs]
+        files.update(p.suffix.lower() or "(no extension)" for p in found)
+    where = ", ".join(p.as_posix() for p in paths)
+    if not files:
+        return f"no screens to check: {where} holds no files"
+    kinds = ", ".join(f"{n} {ext}" for ext, n in files.most_common(5))
+    return (f"no screens to check: {where} holds {sum(files.values())} file(s) ({kinds}) and none is a screen "
+            "export (a window dump or element tree .xml, a page source .json, a screenshot with its boxes)")
 
 
 @dataclass(frozen=True)

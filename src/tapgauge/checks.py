@@ -198,7 +198,7 @@ def _sizes(m: MeasuredScreen) -> tuple[list[list[float]], list[list[float]] | No
 
 
 def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool) -> ScreenResult:
-    notices: list[str] = [*m.screen.notices, *m.notices]
+    notices: list[str] = [*m.screen.notices, *m.device.notices, *m.notices]
     applied: list[str] = []
     findings: dict[int, list[Finding]] = {}
     notes: dict[int, list[str]] = {}

@@ -31,10 +31,11 @@ from tapgauge.batch import (
     say,
     screen_namer,
     table_or_json,
+    tell_verdict,
     write_report,
 )
 from tapgauge.config import load_config
-from tapgauge.model import InputError
+from tapgauge.model import InputError, Severity
 from tapgauge.pipeline import Settings
 from tapgauge.profiles import DEFAULT_PROFILES
 from tapgauge.readers.marked import DEFAULT_MARKER
@@ -78,6 +79,8 @@ AppPackageOpt = Annotated[Optional[str], typer.Option(
 FocusableOpt = Annotated[Optional[bool], typer.Option(
     "--include-focusable/--clickable-only",
     help="Also take as targets Android nodes that are focusable but not clickable and iOS 'Other' elements with a label.")]
+QuietOpt = Annotated[bool, typer.Option(
+    "--quiet", "-q", help="No summary line on stderr (errors are still printed).")]
 JobsOpt = Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")]
 # gate, flow and compare write one record, as a table or as JSON.
 RecordFormatOpt = Annotated[str, typer.Option("--format", "-f", help="table or json.")]
@@ -126,20 +129,26 @@ def check(
     all_windows: AllWindowsOpt = None,
     app_package: AppPackageOpt = None,
     include_focusable: FocusableOpt = None,
+    show: Annotated[Optional[str], typer.Option(
+        metavar="LEVEL", help="List in the table only findings at or above this severity (error, warning, info); "
+        "screens with none are left out. Totals still count everything.")] = None,
+    quiet: QuietOpt = False,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
     raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width,
                             profiles, param or [], start, width_model, difficulty, today, jobs,
-                            Scope(all_windows, app_package, include_focusable)))
+                            Scope(all_windows, app_package, include_focusable), show, quiet))
 
 
 def _check(paths: list[Path], rules: str | None, density: str | None, scale: str | None, ppi: str | None,
            classes: Path | None, marker: str | None, overlay: Path | None, fmt: str, output: Path | None,
            fail_level: str | None, width: int | None, profiles: str | None, params: list[str], start: str,
            width_model: str, difficulty: bool, today: str | None, jobs: int | None = None,
-           scope: Scope | None = None) -> int:
+           scope: Scope | None = None, show: str | None = None, quiet: bool = False) -> int:
     try:
         writer = writer_for(fmt)
+        if show is not None:
+            show = Severity.parse(show).label
     except ValueError as exc:
         say(str(exc))
         return EXIT_ERROR
@@ -152,14 +161,17 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
         report = run.report(paths, tick)
         if overlay is not None:
             report.observe(overlay_observer(report, overlay, overlay_failed))
-        if fmt == "table" and output is None:
+        if fmt == "table":
             code = write_report(report, output, lambda r, out: writer(
-                r, out, width=width or Console().width, color=sys.stdout.isatty(), difficulty=difficulty))
+                r, out, width=width or (Console().width if output is None else 80),
+                color=output is None and sys.stdout.isatty(), difficulty=difficulty, show=show))
         else:
             code = write_report(report, output, lambda r, out: writer(r, out, width=width), fmt in TOTALS_FIRST)
     if overlay_failed:
         say(f"{overlay}: cannot write overlay pictures: {overlay_failed[0]}")
         return EXIT_ERROR
+    if not code:
+        tell_verdict(report, paths, quiet=quiet, in_stdout=fmt == "table" and output is None)
     return code or report.exit_code
 
 

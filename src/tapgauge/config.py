@@ -133,6 +133,21 @@ class _Reader:
     def bad(self, key: str, msg: str, nth: int = 0) -> InputError:
         return InputError(self.path, f"config key '{key}': {msg}", self.line(key.split(".")[-1].split("]")[-1], nth))
 
+    def in_table(self, table: str, key: str, nth: int = 0) -> int | None:
+        """The line of `key` within the nth [table] or [[table]] (the first of the file's
+        keys so named may belong to another table); the table's own line for an inline table."""
+        head = re.compile(rf"^\s*\[\[?\s*(?:tool\.tapgauge\.)?{re.escape(table)}\s*\]\]?\s*(?:#.*)?$")
+        starts = [k for k, text in enumerate(self.text.split("\n")) if head.match(text)]
+        if nth < len(starts):
+            lines = self.text.split("\n")
+            for k in range(starts[nth] + 1, len(lines)):
+                if lines[k].lstrip().startswith("["):
+                    break
+                if re.match(rf"^\s*{re.escape(key)}\s*=", lines[k]):
+                    return k + 1
+        inline = self.line(table)
+        return inline if inline is not None else self.line(key, nth)
+
     def strings(self, table: dict[str, Any], key: str) -> tuple[str, ...] | None:
         value = table.get(key)
         if value is None:
@@ -156,8 +171,8 @@ class _Reader:
                     scale = parse_scale(str(value))
                 elif key == "ppi":
                     ppi = parse_ppi(str(value))
-            except ValueError as exc:
-                raise self.bad(f"{where}.{key}", str(exc), nth) from None
+            except ValueError as exc:  # the flags' own checks and ranges, with this file's line
+                raise InputError(self.path, f"config key '{where}.{key}': {exc}", self.in_table(where, key, nth)) from None
         return DeviceHints(density_dpi=density, scale=scale, xdpi=ppi[0] if ppi else None,
                            ydpi=ppi[1] if ppi else None, source=f"config {self.path.name}")
 

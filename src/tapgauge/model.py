@@ -134,7 +134,8 @@ class Device:
     """How the screen's coordinates relate to the platform unit and, when known, to mm.
 
     xdpi/ydpi are screen coordinates per physical inch along the screen's x and y axes
-    as captured (already swapped for rotation, already divided by the scale for points).
+    as captured (already swapped for rotation, already divided by the scale for points):
+    what measuring needs. The ppi as given follows from them, the rotation and the scale.
     """
 
     platform: str  # "android" or "ios"
@@ -147,6 +148,8 @@ class Device:
     ydpi: float | None = None
     ppi_source: str | None = None
     no_mm_because: str = ""  # why millimetres are unknown, when they are
+    scale_source: str | None = None  # where the scale came from, when there is one
+    notices: tuple[str, ...] = ()  # what resolving the device found worth saying (a scale the screenshot contradicts)
 
     @property
     def has_mm(self) -> bool:

@@ -2,16 +2,18 @@
 
 `NAME.device.txt` applies to the screen NAME.*; `device.txt` to every screen in
 its folder. Either holds, pasted as printed, any of `wm density`, `wm size` and
-`dumpsys display`, and/or `density:`, `scale:` and `ppi:` lines.
+`dumpsys display`, and/or `density:`, `scale:` and `ppi:` lines. Every value is held
+to the same checks as the --density, --scale and --ppi flags; a bad one is an error
+naming the sidecar and its line.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
-from tapgauge.device import parse_device_text
+from tapgauge.device import DeviceTextError, parse_device_text
 from tapgauge.model import DeviceHints, InputError
-from tapgauge.textfile import read_text
+from tapgauge.textfile import read_bytes
 
 FOLDER_SIDECAR = "device.txt"
 SIDECAR_SUFFIX = ".device.txt"
@@ -25,10 +27,19 @@ def sidecar_for(screen_path: Path) -> Path | None:
     return shared if shared.is_file() else None
 
 
+def _decode(data: bytes) -> str:
+    """UTF-8, or UTF-16 where a byte-order mark says so: Windows PowerShell's `>` writes UTF-16."""
+    utf16 = data.startswith((b"\xff\xfe", b"\xfe\xff"))
+    text = data.decode("utf-16" if utf16 else "utf-8", errors="replace").removeprefix("\ufeff")
+    return text.replace("\r\n", "\n").replace("\r", "\n")  # lines as the error messages count them
+
+
 def read_sidecar(path: Path) -> DeviceHints:
-    text = read_text(path, "device sidecar", errors="replace")
+    text = _decode(read_bytes(path, "device sidecar"))
     try:
         hints = parse_device_text(text, source=f"sidecar {path.name}")
+    except DeviceTextError as exc:
+        raise InputError(path, str(exc), exc.line) from None
     except ValueError as exc:
         raise InputError(path, str(exc)) from None
     if hints.density_dpi is None and hints.scale is None and hints.xdpi is None:

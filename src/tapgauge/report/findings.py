@@ -13,6 +13,7 @@ from typing import Any, TextIO
 
 from tapgauge.difficulty import hit_probability
 from tapgauge.report.records import Report
+from tapgauge.report.verdict import summary_line
 
 COLUMNS = (
     "screen", "target", "label", "resource_id", "class", "rule_set", "rule", "severity", "status",
@@ -114,15 +115,36 @@ def finding_rows(report: Report) -> Iterator[dict[str, str]]:
         yield from screen_rows(s, rules, profile)
 
 
+NUMBER_COLUMNS = frozenset({"measured", "required", "width", "height", "width_mm", "height_mm", "miss_probability"})
+# A cell a spreadsheet would run as a formula starts with one of these (OWASP, "CSV Injection").
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def csv_safe(text: str) -> str:
+    """A text cell a spreadsheet shows as text: a leading single quote before a formula's first
+    character, as OWASP's CSV Injection page advises (labels come from the app under test)."""
+    return "'" + text if text.startswith(FORMULA_START) else text
+
+
 def write_csv(report: Report, out: TextIO, width: int | None = None) -> None:
     writer = csv.DictWriter(out, fieldnames=list(COLUMNS), lineterminator="\n")
     writer.writeheader()
     for row in finding_rows(report):
-        writer.writerow(row)
+        writer.writerow({k: v if k in NUMBER_COLUMNS else csv_safe(v) for k, v in row.items()})
+
+
+_MD_ESCAPES = str.maketrans({c: "\\" + c for c in "\\`*_[]|~"} | {"<": "&lt;", ">": "&gt;", "&": "&amp;",
+                                                                  "\n": " ", "\r": " "})
+
+
+def md_text(text: str) -> str:
+    """Text from a screen (a label, an id) as literal Markdown in a table cell: no markup, links or HTML
+    tags of its own (CommonMark 0.31, "Backslash escapes" and "Entity and numeric character references")."""
+    return text.translate(_MD_ESCAPES)
 
 
 def _md_cell(text: str) -> str:
-    return text.replace("|", "\\|").replace("\n", " ")
+    return md_text(text)
 
 
 MD_COLUMNS = ("screen", "target", "label", "rule", "severity", "status", "measured", "required", "unit",
@@ -131,11 +153,9 @@ MD_COLUMNS = ("screen", "target", "label", "rule", "severity", "status", "measur
 
 def write_markdown(report: Report, out: TextIO, width: int | None = None) -> None:
     """Totals first, so it is given a spooled report (its screens are read twice)."""
-    s = report.summary
     out.write("\n".join([
         "# Touch target findings", "",
-        f"{s['screens']} screens, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
-        f"{s['unmeasurable']} unmeasurable, {s['exempt']} exempt, {s['unchecked']} not checked.", "",
+        md_text(summary_line(report.summary, report.fail_level)) + ".", "",
         "Measured by tapgauge. These figures support, and do not replace, an accessibility audit under the "
         "law that applies and by a qualified person.", "",
         "| " + " | ".join(MD_COLUMNS) + " |",

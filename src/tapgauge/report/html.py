@@ -19,12 +19,13 @@ from typing import Any, TextIO
 
 from tapgauge.report.findings import first_profile, rule_index, screen_rows
 from tapgauge.report.records import Report
+from tapgauge.report.verdict import summary_line
 
 OVERLAY_WIDTH = 400  # px: pictures are drawn small so a report of hundreds of screens stays light
 CROP_SIZE = 96  # px: the longer side of a target's crop
 PROFILE_MARKS = (("#0072B2", "circle"), ("#D55E00", "square"), ("#009E73", "diamond"), ("#CC79A7", "triangle"))
 STATUS_WORDS = {"pass": "pass", "fail": "fail", "unmeasurable": "unmeasurable", "exempt": "exempt (waived)",
-                "unchecked": "not checked"}
+                "unchecked": "unchecked"}
 
 CSS = """
 :root { --ink: #1a1a1a; --muted: #4a4a4a; --line: #c9c9c9; --paper: #ffffff; --band: #f2f4f1; --accent: #0b5394; }
@@ -250,7 +251,8 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
         '<ul class="totals">'
         f"<li>{s['screens']} screens</li><li>{s['targets']} targets</li><li>{s['pass']} pass</li>"
         f"<li>{s['fail']} fail</li><li>{s['unmeasurable']} unmeasurable</li><li>{s['exempt']} exempt</li>"
-        f"<li>{s['unchecked']} not checked</li><li>{n_findings} findings</li></ul>",
+        f"<li>{s['unchecked']} unchecked</li><li>{n_findings} findings</li></ul>",
+        f'<p class="verdict"><strong>{escape(summary_line(s, report.fail_level))}.</strong></p>',
         '<p class="note">Measured by tapgauge from the screens listed below. These figures support, and do not '
         "replace, an accessibility audit under the law that applies and by a qualified person. Some WCAG "
         "exceptions (equivalent control, inline, platform-set size, essential) need a person's judgement; "

@@ -31,6 +31,10 @@ EXIT_OK = 0
 EXIT_FINDINGS = 1
 EXIT_ERROR = 2
 
+# The run's one verdict, which every format states, and its exit code.
+EXIT_CODES = {"pass": EXIT_OK, "fail": EXIT_FINDINGS, "input-errors": EXIT_ERROR, "nothing-compared": EXIT_ERROR}
+COMPARED = ("pass", "fail", "exempt")  # statuses of targets that were measured against the rules
+
 
 def display_path(path: Path | str) -> str:
     p = Path(path)
@@ -109,8 +113,8 @@ def screen_record(sr: ScreenResult) -> dict[str, Any]:
         "image": display_path(sr.screen.image) if sr.screen.image else None,
         "device": {
             "unit": d.unit, "coords_per_unit": d.coords_per_unit, "unit_source": d.unit_source,
-            "density_dpi": d.density_dpi, "scale": d.scale, "xdpi": d.xdpi, "ydpi": d.ydpi,
-            "ppi_source": d.ppi_source,
+            "density_dpi": d.density_dpi, "scale": d.scale, "scale_source": d.scale_source,
+            "xdpi": d.xdpi, "ydpi": d.ydpi, "ppi_source": d.ppi_source,
         },
         "rulesets": list(sr.rulesets),
         "reach": None if sr.start is None else {
@@ -137,19 +141,33 @@ class Totals:
 
     statuses: tuple[tuple[str, int], ...]  # (status, targets), every status
     open_findings: tuple[tuple[str, int], ...]  # (severity, unwaived findings on failing targets)
-    worst_open: int  # highest severity (Severity value) among those; 0 when none
+    worst_per_target: tuple[tuple[int, int], ...]  # (worst open severity value, failing targets with it)
 
 
 def screen_totals(rec: dict[str, Any]) -> Totals:
     counts: Counter[str] = Counter()
-    worst = 0
+    worst: Counter[int] = Counter()
     for t in rec["targets"]:
         if t["status"] == "fail":
+            levels = [SEVERITY_BY_LABEL[f["severity"]] for f in t["findings"] if not f["waiver"]]
             for f in t["findings"]:
                 if not f["waiver"]:
                     counts[f["severity"]] += 1
-                    worst = max(worst, SEVERITY_BY_LABEL[f["severity"]])
-    return Totals(tuple((s, rec["summary"][s]) for s in STATUSES), tuple(sorted(counts.items())), worst)
+            if levels:
+                worst[int(max(levels))] += 1
+    return Totals(tuple((s, rec["summary"][s]) for s in STATUSES), tuple(sorted(counts.items())),
+                  tuple(sorted(worst.items())))
+
+
+def open_at(t: dict[str, Any], level: Severity) -> list[dict[str, Any]]:
+    """A target's open findings at or above the fail level: what fails a run, and a JUnit case.
+
+    Only a failing target has them: an unmeasurable one was not measured reliably
+    enough to fail, and an exempt one has every finding waived.
+    """
+    if t["status"] != "fail":
+        return []
+    return [f for f in t["findings"] if not f["waiver"] and SEVERITY_BY_LABEL[f["severity"]] >= level]
 
 
 class Checked:
@@ -217,7 +235,7 @@ class Report:
         self._screens = 0
         self._statuses: Counter[str] = Counter()
         self._severities: Counter[str] = Counter()
-        self._failing = False
+        self._failing = 0  # targets with an open finding at or above the fail level
         self._errors: list[dict[str, Any]] = []
         self._matched = [0] * len(self._waivers.waivers)
 
@@ -252,7 +270,7 @@ class Report:
             totals = item.totals
             self._statuses.update(dict(totals.statuses))
             self._severities.update(dict(totals.open_findings))
-            self._failing = self._failing or totals.worst_open >= self._level
+            self._failing += sum(n for worst, n in totals.worst_per_target if worst >= self._level)
             for fn in self._observers:
                 fn(item.record)
             yield item
@@ -273,9 +291,23 @@ class Report:
         return waiver_records(outcomes(self._waivers, self._matched))
 
     @property
-    def exit_code(self) -> int:
+    def compared(self) -> int:
+        """Targets measured against the rules: nothing compared is never success."""
         self._final()
-        return EXIT_ERROR if self._errors else EXIT_FINDINGS if self._failing else EXIT_OK
+        return sum(self._statuses.get(s, 0) for s in COMPARED)
+
+    @property
+    def verdict(self) -> str:
+        self._final()
+        if self._errors:
+            return "input-errors"
+        if not self.compared:
+            return "nothing-compared"
+        return "fail" if self._failing else "pass"
+
+    @property
+    def exit_code(self) -> int:
+        return EXIT_CODES[self.verdict]
 
     @property
     def summary(self) -> dict[str, Any]:
@@ -286,6 +318,8 @@ class Report:
             "targets": sum(self._statuses.values()),
             **{s: self._statuses.get(s, 0) for s in STATUSES},
             "findings": {s.label: self._severities.get(s.label, 0) for s in sorted(Severity, reverse=True)},
+            "failing": self._failing,
+            "verdict": self.verdict,
             "exit_code": self.exit_code,
         }
 

@@ -1,7 +1,12 @@
 """SARIF 2.1.0 (OASIS) for code-scanning dashboards.
 
-One result per finding on a failing, unmeasurable or exempt target; waived findings
-carry an external suppression with the waiver's reason. Locations point at the
+One result per finding on a failing, unmeasurable or exempt target. Levels come from
+the rule's severity in SARIF's own words (error -> "error", warning -> "warning",
+info -> "note"; SARIF 2.1.0 section 3.27.10). A finding on a target that could not be
+measured reliably is `kind: "review"` with level "none" (section 3.27.9: a result that is
+not a failure has no other level): a person must look, but it fails nothing. Waived
+findings carry an external suppression with the waiver's reason. The invocation
+carries the exit code, the fail level and the run's verdict, as every format does. Locations point at the
 screen file and the target's line; where the screen has a screenshot, the result
 attaches it with the target's rectangle in image pixels. partialFingerprints use
 the coordinate-free target identity, so moving a control does not reopen a result.
@@ -16,6 +21,7 @@ from tapgauge import __version__
 from tapgauge.identity import fingerprint
 from tapgauge.jsontext import write_streamed
 from tapgauge.report.records import Report
+from tapgauge.report.verdict import verdict_text
 
 LEVELS = {"error": "error", "warning": "warning", "info": "note"}
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
@@ -40,10 +46,12 @@ def _results(report: Report, index: dict[str, int], artifact: Callable[[str], in
                 location = {"physicalLocation": {"artifactLocation": {"uri": s["path"], "index": artifact(s["path"])},
                                                  **({"region": region} if region else {})},
                             "logicalLocations": [{"name": f"#{t['ordinal']} {t['name']}", "kind": "element"}]}
+                review = t["status"] == "unmeasurable"
                 result: dict[str, Any] = {
                     "ruleId": f["rule"],
                     "ruleIndex": index[f["rule"]],
-                    "level": LEVELS[f["severity"]],
+                    "kind": "review" if review else "fail",
+                    "level": "none" if review else LEVELS[f["severity"]],
                     "message": {"text": f"#{t['ordinal']} {t['name']}: {f['message']} "
                                         f"(found {f['measured']:g}, needs {f['required']:g} {f['unit']})"},
                     "locations": [location],
@@ -85,13 +93,20 @@ def _driver(rules: list[dict[str, Any]]) -> dict[str, Any]:
     }
 
 
-def _invocation(errors: list[dict[str, Any]]) -> dict[str, Any]:
-    return {"executionSuccessful": not errors,
-            "toolExecutionNotifications": [
-                {"level": "error", "message": {"text": e["message"]},
-                 "locations": [{"physicalLocation": {"artifactLocation": {"uri": e["path"]},
-                                                     **({"region": {"startLine": e["line"]}} if e["line"] else {})}}]}
-                for e in errors]}
+def _invocation(report: Report, final: bool) -> dict[str, Any]:
+    if not final:
+        return {"executionSuccessful": True, "toolExecutionNotifications": []}
+    errors, summary = report.errors, report.summary
+    notes = [{"level": "error", "message": {"text": e["message"]},
+              "locations": [{"physicalLocation": {"artifactLocation": {"uri": e["path"]},
+                                                  **({"region": {"startLine": e["line"]}} if e["line"] else {})}}]}
+             for e in errors]
+    if summary["verdict"] == "nothing-compared":
+        notes.append({"level": "error", "message": {"text": verdict_text(summary, report.fail_level)}})
+    return {"executionSuccessful": summary["exit_code"] != 2, "exitCode": summary["exit_code"],
+            "toolExecutionNotifications": notes,
+            "properties": {"failLevel": report.fail_level, "verdict": summary["verdict"],
+                           "summary": verdict_text(summary, report.fail_level), "totals": summary}}
 
 
 def write_sarif(report: Report, out: TextIO, width: int | None = None) -> None:
@@ -111,7 +126,7 @@ def write_sarif(report: Report, out: TextIO, width: int | None = None) -> None:
                 "tool": {"driver": _driver(rules)},
                 "results": results,
                 "artifacts": [{"location": {"uri": uri}} for uri in artifacts] if final else [],
-                "invocations": [_invocation(report.errors if final else [])],
+                "invocations": [_invocation(report, final)],
             }],
         }
 

@@ -16,7 +16,9 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
+from tapgauge.model import SEVERITY_BY_LABEL
 from tapgauge.report.records import Report
+from tapgauge.report.verdict import summary_line
 
 _SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
 
@@ -30,15 +32,23 @@ def _device_line(s: dict[str, Any]) -> str:
     unit = d["unit"]
     coords = s["coordinates"]
     parts = [f"{s['platform']}, {s['width']:g}x{s['height']:g} {coords}"]
+    scale_source = d.get("scale_source") or d["unit_source"]  # records from before scale_source: the unit's
     if d["density_dpi"] is not None:
         parts.append(f"{d['density_dpi']:g} dpi = {d['coords_per_unit']:g} px/{unit} ({d['unit_source']})")
     elif coords == "px":
-        parts.append(f"scale {d['scale']:g} = {d['coords_per_unit']:g} px/{unit} ({d['unit_source']})")
+        parts.append(f"scale {d['scale']:g} = {d['coords_per_unit']:g} px/{unit} ({scale_source})")
     elif d["scale"] is not None:
-        parts.append(f"scale {d['scale']:g}")
+        parts.append(f"scale {d['scale']:g} ({scale_source})")
     if d["xdpi"] is not None:
-        per_inch = "ppi" if coords == "px" else "pt per inch"
-        parts.append(f"{d['xdpi']:g} x {d['ydpi']:g} {per_inch} ({d['ppi_source']})")
+        # The ppi as the user gave it: pixels (not points) per inch, along the natural axes.
+        k = d["scale"] if coords == "pt" else 1.0
+        x, y = d["xdpi"] * k, d["ydpi"] * k
+        if s["rotation"] % 2:
+            x, y = y, x
+        ppi = f"{x:g}" if f"{x:g}" == f"{y:g}" else f"{x:g} x {y:g}"
+        parts.append(f"{ppi} ppi ({d['ppi_source']})")
+    elif coords == "pt" and d["scale"] is None:
+        parts.append("no scale (pixels per point): no mm")
     else:
         parts.append("no physical ppi: no mm")
     return "; ".join(parts)
@@ -142,10 +152,16 @@ def _wrap(text: str, width: int, indent: str = "") -> list[str]:
     return lines or [""]
 
 
-def _screen_rows(s: dict[str, Any], width: int, color: bool) -> list[str]:
-    """Failing and unmeasurable targets as a two-column block: the target, then its findings."""
+def _shown(f: dict[str, Any], show: int) -> bool:
+    return SEVERITY_BY_LABEL[f["severity"]] >= show
+
+
+def _screen_rows(s: dict[str, Any], width: int, color: bool, show: int = 0) -> list[str]:
+    """Failing, unmeasurable and waived targets as a two-column block: the target, then its findings
+    (only those at or above `show`, a Severity value; 0 shows all)."""
     unit = s["device"]["unit"]
-    rows = [t for t in s["targets"] if t["status"] in ("fail", "unmeasurable")]
+    rows = [t for t in s["targets"] if t["status"] in ("fail", "unmeasurable", "exempt")
+            and any(_shown(f, show) for f in t["findings"])]
     if not rows:
         return []
     cells: list[tuple[list[tuple[str, str]], list[tuple[str, str]]]] = []
@@ -158,9 +174,16 @@ def _screen_rows(s: dict[str, Any], width: int, color: bool) -> list[str]:
             left.append(("unmeasurable: clipped", "magenta"))
         right = []
         for f in t["findings"]:
-            right.append((f"{f['severity'].upper()} {f['rule']}: {_num(f['measured'])} / {f['required']:g} {f['unit']}",
-                          _SEVERITY_STYLE[f["severity"]]))
+            if not _shown(f, show):
+                continue
+            w = f["waiver"]
+            word, style = ("WAIVED", "dim") if w else (f["severity"].upper(), _SEVERITY_STYLE[f["severity"]])
+            right.append((f"{word} {f['rule']}: {_num(f['measured'])} / {f['required']:g} {f['unit']}"
+                          + (f" ({f['severity']})" if w else ""), style))
             right.append((f"  {f['message']}", "dim"))
+            if w:
+                until = f", until {w['expires']}" if w["expires"] else ""
+                right.append((f"  waived: {w['reason']} ({w['author']}{until})", "dim"))
         cells.append((left, right))
     heading = "finding: found / needed"
     # The target column gives way on narrow terminals, so the heading on the right still fits.
@@ -176,7 +199,7 @@ def _screen_rows(s: dict[str, Any], width: int, color: bool) -> list[str]:
         lines_l = [(line, style) for text, style in left for line in _wrap(text, lw, hang)]
         lines_r: list[tuple[str, str]] = []
         for text, style in right:
-            if style == "dim":  # a message: wrapped under its finding, indented
+            if text.startswith("  "):  # a message: wrapped under its finding, indented
                 lines_r += [(line, style) for line in _wrap(text, rw, "  ")]
             else:  # the finding line: its severity word coloured, the rest plain
                 word = text.partition(" ")[0]
@@ -220,19 +243,51 @@ def _difficulty_table(s: dict[str, Any], profiles: list[str]) -> Table | None:
     return table
 
 
+def _rule_counts(s: dict[str, Any], opened: Counter[str], waived: Counter[str]) -> None:
+    for t in s["targets"]:
+        if t["status"] in ("fail", "exempt"):
+            for f in t["findings"]:
+                (waived if f["waiver"] else opened)[f["rule"]] += 1
+
+
+def _rule_table(report: Report, opened: Counter[str], waived: Counter[str], show: int) -> Table | None:
+    """Open and waived findings per rule, so a long batch ends with the overview."""
+    rows = [(r["id"], r["severity"]) for rs in report.rulesets for r in rs["rules"]
+            if (opened[r["id"]] or waived[r["id"]]) and SEVERITY_BY_LABEL[r["severity"]] >= show]
+    if not rows:
+        return None
+    table = Table(title="findings by rule", title_justify="left", header_style="bold", pad_edge=False,
+                  show_edge=False, box=None, padding=(0, 2, 0, 0))
+    table.add_column("rule id", no_wrap=True)  # ids are copied into waivers: never cut
+    table.add_column("severity")
+    table.add_column("open", justify="right")
+    table.add_column("waived", justify="right")
+    for rule, severity in rows:
+        table.add_row(rule, severity, str(opened[rule]), str(waived[rule]))
+    return table
+
+
 def write_table(report: Report, out: TextIO, width: int | None = None, color: bool = False,
-                difficulty: bool = False) -> None:
+                difficulty: bool = False, show: str | None = None) -> None:
+    """Each screen's findings, then the count per rule and the summary line. With `show` (a severity),
+    only findings at or above it are listed, and screens with none are left out of the listing."""
     console = Console(file=out, width=width or 80, force_terminal=color, no_color=not color,
                       highlight=False, soft_wrap=False)
     profiles = [p["id"] for p in report.profiles]
+    least = SEVERITY_BY_LABEL[show] if show else 0
+    opened: Counter[str] = Counter()
+    waived: Counter[str] = Counter()
     for s in report.screens:
+        _rule_counts(s, opened, waived)
+        block = _screen_rows(s, width or 80, color, least)
+        if show and not block:
+            continue
         title = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
         console.print(Text(title, style="bold underline"))
         console.print(Text(_device_line(s), style="dim"))
         for notice in s["notices"]:  # wrapped here so that continued lines hang under the text
             for line in _wrap(f"note: {notice}", width or 80, "      "):
                 console.print(Text(line, style="yellow"))
-        block = _screen_rows(s, width or 80, color)
         if block:
             console.file.write("\n".join(block) + "\n")
         if difficulty:
@@ -257,19 +312,10 @@ def write_table(report: Report, out: TextIO, width: int | None = None, color: bo
         if w["state"] != "active":
             why = "matches nothing" if w["state"] == "stale" else f"expired on {w['expires']}"
             console.print(Text(f"waiver {w['target']} / {w['rule']} on {w['screen']} {why}", style="yellow"))
+    by_rule = _rule_table(report, opened, waived, least)
+    if by_rule is not None:
+        console.print(by_rule)
     console.print(Text(summary_line(report.summary, report.fail_level), style="bold"))
-
-
-def summary_line(s: dict[str, Any], fail_level: str) -> str:
-    f = s["findings"]
-    verdict = {0: "passed", 1: "failed", 2: "input errors"}[s["exit_code"]]
-    screens = f"{s['screens']} screen" + ("" if s["screens"] == 1 else "s")
-    return (
-        f"{screens}, {s['targets']} targets: {s['pass']} pass, {s['fail']} fail, "
-        f"{s['unmeasurable']} unmeasurable, {s['exempt']} exempt, {s['unchecked']} unchecked; findings on failing targets: "
-        f"{f['error']} error, {f['warning']} warning, {f['info']} info; {s['errors']} unreadable; "
-        f"{verdict} at fail level {fail_level} (exit {s['exit_code']})"
-    )
 
 
 def write_flow_table(record: dict[str, Any], width: int | None = None, color: bool = False) -> str:
