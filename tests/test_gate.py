@@ -100,7 +100,8 @@ def test_gate_reads_the_baseline_in_any_order(project: Path, capsys: pytest.Capt
     assert got["gone"] == sorted(expected["gone"] + [
         {"kind": "gone-screen", "screen": "retired.xml", "target": "", "name": "",
          "message": "screen retired.xml is in the baseline but was not checked",
-         "fingerprint": next(g["fingerprint"] for g in got["gone"] if g["screen"] == "retired.xml")}],
+         "fingerprint": next(g["fingerprint"] for g in got["gone"] if g["screen"] == "retired.xml"),
+         "rules": [], "path": ""}],
         key=lambda c: (c["screen"], c["target"], c["kind"], c["message"]))
 
 

@@ -32,6 +32,7 @@ from tapgauge.batch import (
     screen_namer,
     table_or_json,
     tell_verdict,
+    nothing_found,
     write_report,
 )
 from tapgauge.config import load_config
@@ -79,6 +80,8 @@ AppPackageOpt = Annotated[Optional[str], typer.Option(
 FocusableOpt = Annotated[Optional[bool], typer.Option(
     "--include-focusable/--clickable-only",
     help="Also take as targets Android nodes that are focusable but not clickable and iOS 'Other' elements with a label.")]
+FailLevelOpt = Annotated[Optional[str], typer.Option(
+    metavar="LEVEL", help="Lowest severity that fails the run: error, warning or info. Default: error.")]
 QuietOpt = Annotated[bool, typer.Option(
     "--quiet", "-q", help="No summary line on stderr (errors are still printed).")]
 JobsOpt = Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")]
@@ -116,8 +119,7 @@ def check(
         help="Write an overlay picture per screen into this folder: targets marked by status.")] = None,
     fmt: Annotated[str, typer.Option("--format", "-f", help=f"Output format: {', '.join(WRITERS)}.")] = "table",
     output: Annotated[Optional[Path], typer.Option("--output", "-o", help="Write the report here (atomically) instead of stdout.")] = None,
-    fail_level: Annotated[Optional[str], typer.Option(
-        help="Lowest severity that fails the run: error, warning or info. Default: error.")] = None,
+    fail_level: FailLevelOpt = None,
     width: Annotated[Optional[int], typer.Option(help="Table width in columns (default: the terminal's, or 80).")] = None,
     profiles: ProfilesOpt = None,
     param: ParamOpt = None,
@@ -199,8 +201,7 @@ def baseline_cmd(
                   Scope(all_windows, app_package, include_focusable))
     if isinstance(run, int):
         raise typer.Exit(run)
-    config = run.config
-    project = config.project or (config.base.name if config.path else Path.cwd().name)
+    project, _ = run.config.project_name
     try:
         if not force:
             check_overwrite(output, project)
@@ -208,9 +209,11 @@ def baseline_cmd(
             report = run.report(paths, tick)
             screens, targets = write_baseline(fh, report, screen_namer(paths), project, one_root=len(paths) == 1)
             if report.errors:
-                raise Discard
-    except Discard:
-        say("not writing a baseline while screens could not be read (see above)")
+                raise Discard("not writing a baseline while screens could not be read (see above)")
+            if not screens:
+                raise Discard(nothing_found(paths) + "; not writing an empty baseline")
+    except Discard as exc:
+        say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
     except InputError as exc:
         say(str(exc))
@@ -225,12 +228,17 @@ def baseline_cmd(
 def gate_cmd(
     paths: Annotated[list[Path], typer.Argument(help="Screen files or folders, as recorded in the baseline.")],
     baseline: Annotated[Path, typer.Option("--baseline", "-b", help="Baseline file written by `tapgauge baseline`.")],
-    fmt: RecordFormatOpt = "table",
+    fmt: Annotated[str, typer.Option("--format", "-f", help=f"Output format: {', '.join(WRITERS)}.")] = "table",
     output: RecordOutputOpt = None,
+    fail_level: FailLevelOpt = None,
     size_tolerance: Annotated[Optional[float], typer.Option(help="dp/pt a target may shrink unnoticed (default 1).")] = None,
     miss_tolerance: Annotated[Optional[float], typer.Option(help="Rise in predicted miss probability allowed (default 0.02).")] = None,
     time_tolerance: Annotated[Optional[float], typer.Option(help="Rise in predicted time allowed, ms (default 25).")] = None,
     missing: Annotated[Optional[str], typer.Option(help="A screen or target that disappeared: report (default) or fail.")] = None,
+    moved: Annotated[Optional[str], typer.Option(
+        help="Predicted time that rose only because a target is farther from the start point: report (default) or fail.")] = None,
+    renamed_from: Annotated[Optional[str], typer.Option(
+        metavar="NAME", help="Accept a baseline recorded under this earlier project name.")] = None,
     rules: RulesOpt = None,
     density: DensityOpt = None,
     scale: ScaleOpt = None,
@@ -242,37 +250,60 @@ def gate_cmd(
     all_windows: AllWindowsOpt = None,
     app_package: AppPackageOpt = None,
     include_focusable: FocusableOpt = None,
+    quiet: QuietOpt = False,
 ) -> None:
     """Fail (exit 1) only on what got worse since the baseline; report what got better."""
+    import shlex
     from dataclasses import replace as _replace
 
-    from tapgauge.gate import check_baseline, gate, gate_record
-    from tapgauge.report.table import write_gate_table
+    from tapgauge.gate import check_baseline, check_level, gate, gate_record, waiver_snippets
+    from tapgauge.report.gate_report import GATE_WRITERS as writers, gate_summary
 
     try:
-        table_or_json(fmt)
-        if missing not in (None, "report", "fail"):
-            raise ValueError(f"--missing {missing!r}: expected report or fail")
-        check_baseline(baseline)
+        if fmt not in writers:
+            raise ValueError(f"unknown format {fmt!r}; expected one of: {', '.join(writers)}")
+        for name, value in (("--missing", missing), ("--moved", moved)):
+            if value not in (None, "report", "fail"):
+                raise ValueError(f"{name} {value!r}: expected report or fail")
+        header = check_baseline(baseline)
     except (InputError, ValueError) as exc:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    run = prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs,
+    run = prepare(rules, density, scale, ppi, None, None, fail_level, profiles, [], start, "approach", today, jobs,
                   Scope(all_windows, app_package, include_focusable))
     if isinstance(run, int):
         raise typer.Exit(run)
+    project, origin = run.config.project_name
+    recorded = header.get("project")
+    if recorded != project and recorded != renamed_from:
+        say(f"{baseline}: recorded for project {recorded!r}, but this is project {project!r} ({origin}); "
+            f"gate against this project's own baseline, or pass --renamed-from {shlex.quote(str(recorded))} "
+            "if the project was renamed")
+        raise typer.Exit(EXIT_ERROR)
     overrides = {k: v for k, v in {"size_tolerance": size_tolerance, "miss_tolerance": miss_tolerance,
-                                   "time_tolerance_ms": time_tolerance, "missing": missing}.items() if v is not None}
+                                   "time_tolerance_ms": time_tolerance, "missing": missing,
+                                   "moved": moved}.items() if v is not None}
     try:
+        check_level(header, baseline, run.level)
         with interruptible(), progress() as tick:
             report = run.report(paths, tick)
-            worse, better, gone = gate(report, screen_namer(paths), baseline, _replace(run.config.gate, **overrides),
-                                      one_root=len(paths) == 1)
+            verdict = gate(report, screen_namer(paths), baseline, _replace(run.config.gate, **overrides), run.level,
+                           one_root=len(paths) == 1)
     except InputError as exc:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    record = gate_record(worse, better, gone, baseline.as_posix(), len(report.errors))
-    raise typer.Exit(emit_record(record, fmt, output, write_gate_table) or record["summary"]["exit_code"])
+    rerecord = "tapgauge baseline " + " ".join(shlex.quote(p.as_posix()) for p in paths) + \
+        f" -o {shlex.quote(baseline.as_posix())}"
+    record = gate_record(verdict, baseline.as_posix(), len(report.errors), run.level, rerecord,
+                         waiver_snippets(verdict.worse, run.config.base))
+    if not verdict.compared:
+        say(nothing_found(paths) if not report.summary["screens"] else
+            f"none of the {report.summary['screens']} screen(s) checked is in {baseline}: gate the folders the "
+            "baseline was recorded from, or record a new baseline")
+    code = emit_record(record, fmt, output, writers[fmt])
+    if not code and not quiet and (output is not None or fmt != "table"):
+        say(gate_summary(record))
+    raise typer.Exit(code or record["summary"]["exit_code"])
 
 
 @app.command("flow")

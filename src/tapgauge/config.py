@@ -71,6 +71,7 @@ class GateSettings:
     miss_tolerance: float = 0.02  # rise in predicted miss probability (common practice)
     time_tolerance_ms: float = 25.0  # rise in predicted time (common practice)
     missing: str = "report"  # or "fail": a screen or target that disappeared
+    moved: str = "report"  # or "fail": predicted time rose only because a target is farther from the start
 
 
 @dataclass(frozen=True)
@@ -93,6 +94,14 @@ class Config:
     @property
     def base(self) -> Path:
         return self.path.parent if self.path else Path.cwd()
+
+    @property
+    def project_name(self) -> tuple[str, str]:
+        """The project's name as baselines record it, and where it comes from: the config's
+        `project`, else the name of the folder the config is in (or the current folder)."""
+        if self.project:
+            return self.project, f"{self.path}"
+        return self.base.resolve().name, "name of the folder " + ("holding the config" if self.path else "run in")
 
     @property
     def device(self) -> DeviceHints:
@@ -269,11 +278,11 @@ def _gate(r: _Reader, raw: Any) -> GateSettings:
         if key in numbers:
             if isinstance(value, bool) or not isinstance(value, (int, float)) or value < 0:
                 raise r.bad(f"gate.{key}", "must be a number of 0 or more")
-        elif key == "missing":
+        elif key in ("missing", "moved"):
             if value not in ("report", "fail"):
-                raise r.bad("gate.missing", "must be \"report\" or \"fail\"")
+                raise r.bad(f"gate.{key}", "must be \"report\" or \"fail\"")
         else:
-            raise r.bad(f"gate.{key}", f"unknown key; expected {', '.join(numbers)} or missing")
+            raise r.bad(f"gate.{key}", f"unknown key; expected {', '.join(numbers)}, missing or moved")
     return GateSettings(**{k: (float(v) if k in numbers else v) for k, v in raw.items()})
 
 
@@ -291,7 +300,7 @@ def effective_settings(config: Config, defaults: dict[str, Any]) -> list[tuple[s
 
     rows = [
         ("config file", str(config.path) if config.path else "(none found from here up)", ""),
-        ("project", config.project or "(unnamed)", origin("project")),
+        ("project", *config.project_name),
         ("rules", ", ".join(config.rules or defaults["rules"]), origin("rules")),
         ("fail_level", (config.fail_level.label if config.fail_level else defaults["fail_level"]), origin("fail_level")),
         ("profiles", ", ".join(config.profiles or defaults["profiles"]), origin("profiles")),
@@ -310,6 +319,7 @@ def effective_settings(config: Config, defaults: dict[str, Any]) -> list[tuple[s
         ("gate.miss_tolerance", f"{g.miss_tolerance:g}", origin("gate")),
         ("gate.time_tolerance_ms", f"{g.time_tolerance_ms:g} ms", origin("gate")),
         ("gate.missing", g.missing, origin("gate")),
+        ("gate.moved", g.moved, origin("gate")),
     ]
     for w in config.waivers:
         until = f" until {w.expires}" if w.expires else ""

@@ -9,6 +9,8 @@ count: a third identical failure where the baseline had two is new.
 
 from __future__ import annotations
 
+import json
+import math
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -17,7 +19,7 @@ from typing import IO, Any, TextIO
 import ijson
 
 from tapgauge import __version__
-from tapgauge.config import GateSettings
+from tapgauge.config import GateSettings, relative_to_base
 from tapgauge.identity import fingerprint
 from tapgauge.jsontext import write_streamed
 from tapgauge.model import SEVERITY_BY_LABEL, InputError, Severity
@@ -27,13 +29,14 @@ BASELINE_FORMAT = "tapgauge-baseline"
 BASELINE_VERSION = 1
 
 
-def _failing(t: dict[str, Any], fail_level: Severity) -> list[str]:
-    if t["status"] not in ("fail", "unmeasurable"):
+def _failing(t: dict[str, Any]) -> list[str]:
+    """The rules a target fails, open (not waived), at every severity: the gate picks its level later."""
+    if t["status"] != "fail":
         return []
-    return sorted({f["rule"] for f in t["findings"] if not f["waiver"] and SEVERITY_BY_LABEL[f["severity"]] >= fail_level})
+    return sorted({f["rule"] for f in t["findings"] if not f["waiver"]})
 
 
-def baseline_entry(s: dict[str, Any], sid: str, level: Severity) -> dict[str, Any]:
+def baseline_entry(s: dict[str, Any], sid: str) -> dict[str, Any]:
     """One screen's part of a baseline: its checked targets by identity, sorted by key."""
     unit = s["device"]["unit"]
     targets = []
@@ -42,12 +45,18 @@ def baseline_entry(s: dict[str, Any], sid: str, level: Severity) -> dict[str, An
             continue
         targets.append({
             "key": t["key"], "fingerprint": fingerprint(sid, t["key"]), "name": t["name"], "status": t["status"],
-            "failing": _failing(t, level), "size": [t["size"]["width"], t["size"]["height"]], "unit": unit,
+            "failing": _failing(t), "why": {f["rule"]: f["message"] for f in t["findings"] if not f["waiver"]},
+            "size": [t["size"]["width"], t["size"]["height"]], "unit": unit,
             "size_mm": None if t["size_mm"] is None else [t["size_mm"]["width"], t["size_mm"]["height"]],
-            "difficulty": {d["profile"]: {"time_ms": d["time_ms"], "miss": d["miss_probability"]}
+            "difficulty": {d["profile"]: {"time_ms": d["time_ms"], "miss": d["miss_probability"],
+                                          "distance": d["distance"], "width": d["width"]}
                            for d in t["difficulty"]},
         })
-    return {"targets": sorted(targets, key=lambda x: x["key"])}
+    entry: dict[str, Any] = {"targets": sorted(targets, key=lambda x: x["key"])}
+    if s["reach"]:
+        entry["reach_unit"] = s["reach"]["unit"]
+    entry["path"] = s["path"]  # where the screen was read from in this run (not stored in a baseline)
+    return entry
 
 
 def _entries(report: Report, screen_id: Callable[[dict[str, Any]], str],
@@ -58,7 +67,6 @@ def _entries(report: Report, screen_id: Callable[[dict[str, Any]], str],
     order, so a repeated id can only follow its twin: only the last id is kept, and
     memory does not grow with the number of screens. Several paths keep every id.
     """
-    level = Severity.parse(report.fail_level)
     seen: set[str] = set()
     last = None
     for s in report.screens:
@@ -70,7 +78,7 @@ def _entries(report: Report, screen_id: Callable[[dict[str, Any]], str],
         if not one_root:
             seen.add(sid)
         last = sid
-        yield sid, baseline_entry(s, sid, level)
+        yield sid, baseline_entry(s, sid)
 
 
 def write_baseline(out: TextIO, report: Report, screen_id: Callable[[dict[str, Any]], str], project: str,
@@ -82,6 +90,9 @@ def write_baseline(out: TextIO, report: Report, screen_id: Callable[[dict[str, A
         for sid, entry in _entries(report, screen_id, one_root):
             counts[0] += 1
             counts[1] += len(entry["targets"])
+            del entry["path"]  # a baseline holds no paths of the run that recorded it, nor its messages
+            for t in entry["targets"]:
+                del t["why"]
             yield sid, entry
 
     def document(screens: Any, final: bool) -> dict[str, Any]:
@@ -89,6 +100,7 @@ def write_baseline(out: TextIO, report: Report, screen_id: Callable[[dict[str, A
             "format": BASELINE_FORMAT, "version": BASELINE_VERSION, "project": project,
             "tool": {"name": "tapgauge", "version": __version__},
             "fail_level": report.fail_level,
+            "failing_from": Severity.INFO.label,  # "failing" lists open findings of every severity
             "rulesets": [r["id"] for r in report.rulesets],
             "profiles": [p["id"] for p in report.profiles],
             "screens": screens,
@@ -102,7 +114,7 @@ def screen_ref(s: dict[str, Any]) -> str:
     return f"{s['path']}::{s['name']}" if s["name"] else s["path"]
 
 
-_HEADER_KEYS = ("format", "version", "project")
+_HEADER_KEYS = ("format", "version", "project", "fail_level", "failing_from")
 
 
 def read_header(path: Path) -> dict[str, Any]:
@@ -113,8 +125,8 @@ def read_header(path: Path) -> dict[str, Any]:
             for prefix, event, value in ijson.parse(fh, use_float=True):
                 if prefix in _HEADER_KEYS and event in ("string", "number", "integer", "double", "null"):
                     found[prefix] = value
-                    if len(found) == len(_HEADER_KEYS):
-                        break
+                elif prefix == "screens":
+                    break  # the header comes before the screens
                 elif prefix == "" and event == "start_map":
                     continue
                 elif prefix == "" and event not in ("map_key", "end_map"):
@@ -203,39 +215,86 @@ def check_overwrite(path: Path, project: str) -> None:
 
 @dataclass(frozen=True)
 class Change:
-    kind: str  # new-failure, shrank, harder, gone-screen, gone-target | fixed, grew, easier
+    kind: str  # new-failure, shrank, harder, gone-screen, gone-target | fixed, grew, easier | moved
     screen: str
     target: str  # key ('' for a whole screen)
     name: str
-    message: str
+    message: str  # what changed, without the target's name (writers put it first)
     fingerprint: str
+    rules: tuple[str, ...] = ()  # new-failure and fixed: the rules
+    path: str = ""  # the screen file in this run ('' for a screen that is gone)
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """What the gate found: changes by kind, and how many screens were compared at all."""
+
+    worse: list[Change]
+    better: list[Change]
+    gone: list[Change]
+    moved: list[Change]
+    compared: int  # run screens that had a baseline entry
+
+
+@dataclass(frozen=True)
+class Scale:
+    """What compare_screen needs of the run: its fail level, its rules' severities and its profiles' lines."""
+
+    level: Severity
+    severity: dict[str, Severity]  # rule id -> severity
+    lines: dict[str, tuple[float, float]]  # profile id -> (intercept ms, slope ms per bit)
+
+    @classmethod
+    def of(cls, report: Report, level: Severity) -> Scale:
+        return cls(level, {r["id"]: SEVERITY_BY_LABEL[r["severity"]] for rs in report.rulesets for r in rs["rules"]},
+                   {p["id"]: (p["intercept_ms"], p["slope_ms_per_bit"]) for p in report.profiles})
+
+    def at_level(self, rules: list[str]) -> set[str]:
+        # A rule no longer in the run's rule sets cannot fail it.
+        return {r for r in rules if r in self.severity and self.severity[r] >= self.level}
 
 
 LOOKAHEAD = 256  # baseline screens read ahead when looking for a screen that is not next
 
 
+def check_level(header: dict[str, Any], path: Path, level: Severity) -> None:
+    """A baseline records failures from some severity up; gating below it would take old findings for new."""
+    recorded = header.get("failing_from") or header.get("fail_level") or "error"
+    if recorded in SEVERITY_BY_LABEL and level < SEVERITY_BY_LABEL[recorded]:
+        raise InputError(path, f"records failures at {recorded} and above only, so it cannot gate at fail level "
+                               f"{level.label}: re-record it with `tapgauge baseline`")
+
+
 def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], path: Path,
-         settings: GateSettings, one_root: bool = False) -> tuple[list[Change], list[Change], list[Change]]:
-    """(regressions, improvements, gone) of a report against the baseline at `path`, screen by screen.
+         settings: GateSettings, level: Severity, one_root: bool = False) -> Verdict:
+    """The changes of a report against the baseline at `path`, screen by screen, at fail level `level`.
 
     The run and the baseline are read side by side: a baseline is written in run
     order, so each screen is normally the next one in the file and memory stays
     small. Screens out of order are held until their partner turns up (a run over
     other folders holds more); a run screen not found within LOOKAHEAD entries is
     held until the end. Screens and targets that disappeared are regressions when
-    settings.missing is "fail"; otherwise they are only reported.
+    settings.missing is "fail"; time that rose only because a target moved farther
+    from the start point is one when settings.moved is "fail"; otherwise both are
+    only reported.
     """
     worse: list[Change] = []
     better: list[Change] = []
     gone: list[Change] = []
+    moved: list[Change] = []
+    compared = 0
     waiting_run: dict[str, dict[str, Any]] = {}  # run screens whose baseline entry has not turned up yet
     waiting_base: dict[str, dict[str, Any]] = {}  # baseline screens read ahead, not yet matched
+    scale = Scale.of(report, level)
 
     def compare(sid: str, new: dict[str, Any], old: dict[str, Any]) -> None:
-        w, b, g = compare_screen(sid, new, old, settings)
+        nonlocal compared
+        compared += 1
+        w, b, g, m = compare_screen(sid, new, old, settings, scale)
         worse.extend(w)
         better.extend(b)
         gone.extend(g)
+        moved.extend(m)
 
     with path.open("rb") as fh:
         stored = baseline_screens(path, fh)
@@ -263,69 +322,143 @@ def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], path: Path,
         gone.append(Change("gone-screen", sid, "", "", f"screen {sid} is in the baseline but was not checked",
                            fingerprint(sid, "")))
     for sid, entry in waiting_run.items():  # new screens: every failure is new
-        compare(sid, entry, {"targets": []})
+        w, b, g, m = compare_screen(sid, entry, {"targets": []}, settings, scale)
+        worse.extend(w)
     if settings.missing == "fail":
-        return worse + gone, better, []
-    return worse, better, gone
+        worse, gone = worse + gone, []
+    if settings.moved == "fail":
+        worse, moved = worse + moved, []
+    return Verdict(worse, better, gone, moved, compared)
 
 
-def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, Any],
-                   settings: GateSettings) -> tuple[list[Change], list[Change], list[Change]]:
-    """One screen's regressions, improvements and vanished targets against its baseline entry."""
+def _size(v: list[float]) -> str:
+    return f"{v[0]:g} x {v[1]:g}"
+
+
+def _own_time(old: dict[str, Any], new: dict[str, Any], line: tuple[float, float] | None) -> float | None:
+    """Predicted time with the target where it was (the baseline's distance) but its width now:
+    what the target itself lost, with a move from the start point taken out."""
+    if line is None or old.get("distance") is None or new.get("width") is None or new["width"] <= 0:
+        return None
+    a, b = line
+    return a + b * math.log2(old["distance"] / new["width"] + 1)
+
+
+def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, Any], settings: GateSettings,
+                   scale: Scale) -> tuple[list[Change], list[Change], list[Change], list[Change]]:
+    """One screen's regressions, improvements, vanished targets and moves against its baseline entry."""
     worse: list[Change] = []
     better: list[Change] = []
     gone: list[Change] = []
+    moved: list[Change] = []
     old = {t["key"]: t for t in old_screen["targets"]}
     new = {t["key"]: t for t in new_screen["targets"]}
+    path = new_screen.get("path", "")
+    reach = new_screen.get("reach_unit", "")
     for key, t in new.items():
         fp = fingerprint(sid, key)
         b = old.get(key)
-        fresh = sorted(set(t["failing"]) - set(b["failing"] if b else []))
+
+        def change(kind: str, message: str, rules: tuple[str, ...] = ()) -> Change:
+            return Change(kind, sid, key, t["name"], message, fp, rules, path)
+
+        fresh = sorted(scale.at_level(t["failing"]) - scale.at_level(b["failing"] if b else []))
         if fresh:
-            how = "new target" if b is None else "now"
-            worse.append(Change("new-failure", sid, key, t["name"], f"{t['name']} ({how}) fails {', '.join(fresh)}", fp))
+            why = "; ".join(f"{r}: {t['why'][r]}" for r in fresh if t.get("why", {}).get(r))
+            worse.append(change("new-failure", ("new target, fails " if b is None else "now fails ") + ", ".join(fresh)
+                                + (f" ({why})" if why else ""), tuple(fresh)))
         if b is None:
             continue
-        fixed = sorted(set(b["failing"]) - set(t["failing"]))
+        fixed = sorted(scale.at_level(b["failing"]) - scale.at_level(t["failing"]))
         if fixed:
-            better.append(Change("fixed", sid, key, t["name"], f"{t['name']} no longer fails {', '.join(fixed)}", fp))
+            better.append(change("fixed", f"no longer fails {', '.join(fixed)}", tuple(fixed)))
         unit = t["unit"]
         (ow, oh), (nw, nh) = b["size"], t["size"]
         if nw < ow - settings.size_tolerance or nh < oh - settings.size_tolerance:
-            worse.append(Change("shrank", sid, key, t["name"],
-                                f"{t['name']} shrank from {ow:g} x {oh:g} to {nw:g} x {nh:g} {unit}", fp))
+            worse.append(change("shrank", f"shrank from {_size(b['size'])} to {_size(t['size'])} {unit}"))
         elif nw > ow + settings.size_tolerance or nh > oh + settings.size_tolerance:
-            better.append(Change("grew", sid, key, t["name"],
-                                 f"{t['name']} grew from {ow:g} x {oh:g} to {nw:g} x {nh:g} {unit}", fp))
+            better.append(change("grew", f"grew from {_size(b['size'])} to {_size(t['size'])} {unit}"))
+        slower = []  # (profile, old ms, new ms, ms at the old distance): time lost only to a move
         for profile, d in t["difficulty"].items():
             o = b["difficulty"].get(profile)
             if o is None:
                 continue
             if d["miss"] is not None and o["miss"] is not None:
                 if d["miss"] > o["miss"] + settings.miss_tolerance:
-                    worse.append(Change("harder", sid, key, t["name"], f"{t['name']}: predicted miss for {profile} "
-                                        f"rose from {o['miss']:.0%} to {d['miss']:.0%}", fp))
+                    worse.append(change("harder", f"{profile}: miss {o['miss']:.0%} -> {d['miss']:.0%}"))
                 elif d["miss"] < o["miss"] - settings.miss_tolerance:
-                    better.append(Change("easier", sid, key, t["name"], f"{t['name']}: predicted miss for {profile} "
-                                         f"fell from {o['miss']:.0%} to {d['miss']:.0%}", fp))
+                    better.append(change("easier", f"{profile}: miss {o['miss']:.0%} -> {d['miss']:.0%}"))
             if d["time_ms"] > o["time_ms"] + settings.time_tolerance_ms:
-                worse.append(Change("harder", sid, key, t["name"], f"{t['name']}: predicted time for {profile} "
-                                    f"rose from {o['time_ms']:.0f} to {d['time_ms']:.0f} ms", fp))
+                own = _own_time(o, d, scale.lines.get(profile))
+                if own is not None and own <= o["time_ms"] + settings.time_tolerance_ms:
+                    slower.append((profile, o["time_ms"], d["time_ms"], own))
+                else:
+                    worse.append(change("harder", f"{profile}: time {o['time_ms']:.0f} -> {d['time_ms']:.0f} ms"
+                                        + (f" ({own:.0f} ms at its old distance)" if own is not None else "")))
+        if slower:
+            o, d = next(iter(b["difficulty"].values())), next(iter(t["difficulty"].values()))
+            times = "; ".join(f"{p} {old:.0f} -> {now:.0f} ms ({own:.0f} at its old distance)"
+                              for p, old, now, own in slower)
+            moved.append(change("moved", f"moved farther from the start point ({o['distance']:.1f} -> "
+                                         f"{d['distance']:.1f} {reach}), and predicted time rose for that alone: {times}"))
     for key, b in old.items():
         if key not in new:
             gone.append(Change("gone-target", sid, key, b.get("name", ""),
-                               f"{b.get('name') or key} is in the baseline but not on the screen now "
-                               "(removed, or its id, label or class changed)", fingerprint(sid, key)))
-    return worse, better, gone
+                               "is in the baseline but not on the screen now (removed, or its id, label or class "
+                               "changed)", fingerprint(sid, key), (), path))
+    return worse, better, gone, moved
 
 
-def gate_record(worse: list[Change], better: list[Change], gone: list[Change], baseline_path: str,
-                errors: int) -> dict[str, Any]:
+def waiver_target(key: str) -> str | None:
+    """A waiver's target selector for a baseline key ('id:save|Button#0' -> 'id:save'); None for a
+    target known only by its position, which a waiver cannot name."""
+    base = key.rsplit("#", 1)[0]
+    kind, _, rest = base.partition(":")
+    if kind in ("id", "label"):
+        return f"{kind}:{rest.rsplit('|', 1)[0]}"
+    if kind == "class":
+        return f"class:{rest}"
+    return None
+
+
+def _toml_string(text: str) -> str:
+    return json.dumps(text, ensure_ascii=False)  # JSON's string escapes are all valid in a TOML basic string
+
+
+def waiver_snippets(changes: list[Change], base: Path) -> list[str]:
+    """TOML waivers for the new failures, to paste into tapgauge.toml once a person has judged them."""
+    out = []
+    for c in changes:
+        target = waiver_target(c.target)
+        if c.kind != "new-failure" or target is None or not c.path:
+            continue
+        for rule in c.rules:
+            out.append("\n".join([
+                "[[waivers]]",
+                f"screen = {_toml_string(relative_to_base(Path(c.path), base))}",
+                f"target = {_toml_string(target)}",
+                f"rule = {_toml_string(rule)}",
+                'reason = "WHY THIS IS ACCEPTABLE (for instance a WCAG 2.5.8 exception)"',
+                'author = "WHO DECIDED"',
+                "# expires = 2027-06-30",
+            ]))
+    return out
+
+
+def gate_record(verdict: Verdict, baseline_path: str, errors: int, level: Severity, rerecord: str,
+                waivers: list[str]) -> dict[str, Any]:
     def rows(changes: list[Change]) -> list[dict[str, Any]]:
-        return [dict(c.__dict__) for c in sorted(changes, key=lambda c: (c.screen, c.target, c.kind, c.message))]
+        return [{**c.__dict__, "rules": list(c.rules)}
+                for c in sorted(changes, key=lambda c: (c.screen, c.target, c.kind, c.message))]
 
-    code = 2 if errors else 1 if worse else 0
-    return {"format": "tapgauge-gate", "version": 1, "baseline": baseline_path, "regressions": rows(worse),
-            "improvements": rows(better), "gone": rows(gone),
-            "summary": {"regressions": len(worse), "improvements": len(better), "gone": len(gone),
-                        "errors": errors, "exit_code": code}}
+    nothing = not verdict.compared
+    code = 2 if errors or nothing else 1 if verdict.worse else 0
+    word = ("input-errors" if errors else "nothing-compared" if nothing else "fail" if verdict.worse else "pass")
+    return {"format": "tapgauge-gate", "version": 1, "baseline": baseline_path, "fail_level": level.label,
+            "regressions": rows(verdict.worse), "improvements": rows(verdict.better), "gone": rows(verdict.gone),
+            "moved": rows(verdict.moved),
+            "next_steps": {"rerecord": rerecord if verdict.worse and code == 1 else "",
+                           "waivers": waivers if code == 1 else []},
+            "summary": {"screens": verdict.compared, "regressions": len(verdict.worse),
+                        "improvements": len(verdict.better), "gone": len(verdict.gone), "moved": len(verdict.moved),
+                        "errors": errors, "verdict": word, "exit_code": code}}

@@ -133,13 +133,14 @@ def write_csv(report: Report, out: TextIO, width: int | None = None) -> None:
         writer.writerow({k: v if k in NUMBER_COLUMNS else csv_safe(v) for k, v in row.items()})
 
 
-_MD_ESCAPES = str.maketrans({c: "\\" + c for c in "\\`*_[]|~"} | {"<": "&lt;", ">": "&gt;", "&": "&amp;",
+_MD_ESCAPES = str.maketrans({c: "\\" + c for c in "\\`*_[]|~"} | {"<": "&lt;", "&": "&amp;",
                                                                   "\n": " ", "\r": " "})
 
 
 def md_text(text: str) -> str:
     """Text from a screen (a label, an id) as literal Markdown in a table cell: no markup, links or HTML
-    tags of its own (CommonMark 0.31, "Backslash escapes" and "Entity and numeric character references")."""
+    tags of its own (CommonMark 0.31, "Backslash escapes" and "Entity and numeric character references";
+    a tag needs its "<", and a ">" inside a line starts nothing)."""
     return text.translate(_MD_ESCAPES)
 
 

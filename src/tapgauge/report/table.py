@@ -379,22 +379,3 @@ def write_compare_table(record: dict[str, Any], width: int | None = None, color:
                          f"{_pct(p['miss_A'])} -> {_pct(p['miss_B'])}", f"{ms(p['time_A'])} -> {ms(p['time_B'])}")
         console.print(diff)
     return buf.getvalue()
-
-
-def write_gate_table(record: dict[str, Any], width: int | None = None, color: bool = False) -> str:
-    """What got worse (fails the gate), what disappeared, and what got better."""
-    buf = io.StringIO()
-    console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color, highlight=False)
-    sections = (("regressions", "WORSE", "bold red"), ("gone", "GONE", "yellow"), ("improvements", "BETTER", "green"))
-    for key, word, style in sections:
-        for c in record[key]:
-            line = Text()
-            line.append(f"{word} ", style=style)
-            line.append(f"{c['screen']}: {c['message']}")
-            console.print(line)
-    s = record["summary"]
-    verdict = {0: "gate passed", 1: "gate failed", 2: "input errors"}[s["exit_code"]]
-    console.print(Text(f"against {record['baseline']}: {s['regressions']} worse, {s['gone']} gone, "
-                       f"{s['improvements']} better, {s['errors']} unreadable; {verdict} (exit {s['exit_code']})",
-                       style="bold"))
-    return buf.getvalue()
