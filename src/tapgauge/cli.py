@@ -9,7 +9,7 @@ from __future__ import annotations
 import json
 import sys
 from pathlib import Path
-from typing import Annotated, Optional
+from typing import Annotated, Any, Optional
 
 import typer
 from rich.console import Console
@@ -49,6 +49,7 @@ app = typer.Typer(
     add_completion=False,
     no_args_is_help=True,
     pretty_exceptions_enable=False,
+    rich_markup_mode=None,
     help="Check touch targets on mobile app screens: size and spacing in dp/pt and mm.",
     context_settings={"help_option_names": ["-h", "--help"]},
 )
@@ -479,9 +480,33 @@ def list_rules() -> None:
         console.print()
 
 
+# Placeholders in --help: plain words for what a value is (the library's default names the Python type).
+METAVARS = {"density": "DPI", "scale": "SCALE", "ppi": "PPI", "rules": "RULES", "classes": "FILE", "marker": "COLOUR",
+            "overlay": "FOLDER", "fmt": "FORMAT", "output": "FILE", "width": "COLUMNS", "profiles": "PROFILES",
+            "param": "PROFILE.KEY=VALUE", "start": "START", "width_model": "MODEL", "today": "DATE", "jobs": "N",
+            "app_package": "PACKAGE", "baseline": "FILE", "size_tolerance": "DP", "miss_tolerance": "P",
+            "time_tolerance": "MS", "missing": "report|fail", "moved": "report|fail", "name": "NAME", "form": "FORM",
+            "chart": "FILE", "serial": "SERIAL", "out": "FOLDER", "trials": "TRIALS", "flow": "FILE", "a": "A",
+            "b": "B", "paths": "PATHS"}
+
+
+def _plain_metavars(command: Any) -> Any:
+    """Every option's value named in plain words, once, for every subcommand."""
+    for sub in getattr(command, "commands", {}).values():
+        _plain_metavars(sub)
+        if sub.help and not sub.short_help:
+            sub.short_help = sub.help.strip().splitlines()[0]  # whole, not cut at 45 characters
+    for param in command.params:
+        if param.metavar is None and not getattr(param, "is_flag", False) and param.name in METAVARS:
+            param.metavar = METAVARS[param.name]
+        if param.param_type_name == "argument":
+            param.display_type_rich = lambda ctx=None: ""  # the name says it; no Python type beside it
+    return command
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the CLI in-process and return its exit code (tests call this)."""
-    command = typer.main.get_command(app)
+    command = _plain_metavars(typer.main.get_command(app))
     try:
         # Standalone mode prints usage errors itself and always ends in SystemExit.
         command.main(args=argv if argv is not None else sys.argv[1:], prog_name="tapgauge")
