@@ -364,7 +364,8 @@ def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, A
 
         fresh = sorted(scale.at_level(t["failing"]) - scale.at_level(b["failing"] if b else []))
         if fresh:
-            why = "; ".join(f"{r}: {t['why'][r]}" for r in fresh if t.get("why", {}).get(r))
+            whys = [(r, t["why"][r]) for r in fresh if t.get("why", {}).get(r)]
+            why = whys[0][1] if len(fresh) == 1 and whys else "; ".join(f"{r}: {m}" for r, m in whys)
             worse.append(change("new-failure", ("new target, fails " if b is None else "now fails ") + ", ".join(fresh)
                                 + (f" ({why})" if why else ""), tuple(fresh)))
         if b is None:

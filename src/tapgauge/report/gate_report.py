@@ -84,7 +84,7 @@ def _next_steps(record: dict[str, Any]) -> list[str]:
     lines = ["If these changes are intended, record a new baseline:", f"    {steps['rerecord']}"]
     if steps["waivers"]:
         lines += ["or, once a person has judged a new failure acceptable, waive it in tapgauge.toml:", ""]
-        lines += [f"    {line}" for w in steps["waivers"] for line in (*w.splitlines(), "")]
+        lines += [f"    {line}".rstrip() for w in steps["waivers"] for line in (*w.splitlines(), "")]
     return lines
 
 
