@@ -11,8 +11,8 @@ from collections import Counter
 from pathlib import Path
 
 import pytest
-
 from conftest import DEMO
+
 from tapgauge.cli import main
 
 FORMATS = ("table", "json", "csv", "md", "html", "sarif", "junit")

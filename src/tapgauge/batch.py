@@ -7,9 +7,9 @@ reuse), kept out of cli.py so that it stays a list of commands.
 from __future__ import annotations
 
 import datetime as dt
-from collections import Counter
 import os
 import sys
+from collections import Counter
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass

@@ -23,16 +23,16 @@ from tapgauge.batch import (
     emit_record,
     interruptible,
     make_scoring,
+    measure_options,
+    nothing_found,
     overlay_observer,
     prepare,
     progress,
-    measure_options,
     read_options,
     say,
     screen_namer,
     table_or_json,
     tell_verdict,
-    nothing_found,
     write_report,
 )
 from tapgauge.config import load_config
@@ -258,7 +258,8 @@ def gate_cmd(
     from dataclasses import replace as _replace
 
     from tapgauge.gate import check_baseline, check_level, gate, gate_record, waiver_snippets
-    from tapgauge.report.gate_report import GATE_WRITERS as writers, gate_summary
+    from tapgauge.report.gate_report import GATE_WRITERS as writers
+    from tapgauge.report.gate_report import gate_summary
 
     try:
         if fmt not in writers:

@@ -322,8 +322,7 @@ def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], path: Path,
         gone.append(Change("gone-screen", sid, "", "", f"screen {sid} is in the baseline but was not checked",
                            fingerprint(sid, "")))
     for sid, entry in waiting_run.items():  # new screens: every failure is new
-        w, b, g, m = compare_screen(sid, entry, {"targets": []}, settings, scale)
-        worse.extend(w)
+        worse.extend(compare_screen(sid, entry, {"targets": []}, settings, scale)[0])
     if settings.missing == "fail":
         worse, gone = worse + gone, []
     if settings.moved == "fail":
@@ -359,8 +358,9 @@ def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, A
         fp = fingerprint(sid, key)
         b = old.get(key)
 
-        def change(kind: str, message: str, rules: tuple[str, ...] = ()) -> Change:
-            return Change(kind, sid, key, t["name"], message, fp, rules, path)
+        def change(kind: str, message: str, rules: tuple[str, ...] = (), key: str = key, name: str = t["name"],
+                   fp: str = fp) -> Change:
+            return Change(kind, sid, key, name, message, fp, rules, path)
 
         fresh = sorted(scale.at_level(t["failing"]) - scale.at_level(b["failing"] if b else []))
         if fresh:

@@ -22,6 +22,7 @@ from rich.text import Text
 from tapgauge import __version__
 from tapgauge.report.findings import csv_safe, md_text
 from tapgauge.report.table import _wrap as wrap_cells  # wraps by display width, wide characters too
+from tapgauge.report.verdict import DISCLAIMER
 
 CAUSES = ("new-failure", "shrank", "gone-target", "gone-screen", "moved", "fixed", "grew")  # in this order
 DIFFICULTY = ("harder", "easier")
@@ -149,8 +150,7 @@ def write_gate_markdown(record: dict[str, Any], width: int | None = None, color:
         if steps["waivers"]:
             lines += ["Or, once a person has judged a new failure acceptable, waive it in `tapgauge.toml`:", "",
                       "```toml", "\n\n".join(steps["waivers"]), "```", ""]
-    lines += ["These figures support, and do not replace, an accessibility audit under the law that applies "
-              "and by a qualified person.", ""]
+    lines += [DISCLAIMER, ""]
     return "\n".join(lines)
 
 
@@ -237,15 +237,18 @@ def write_gate_junit(record: dict[str, Any], width: int | None = None, color: bo
     return etree.tostring(root, pretty_print=True, encoding="unicode", doctype="<?xml version='1.0' encoding='UTF-8'?>")
 
 
+GATE_CSS = ("body{font:16px/1.5 system-ui,sans-serif;max-width:60rem;margin:2rem auto;padding:0 1rem;color:#1a1a1a}"
+            "h3{margin-bottom:.2rem}.verdict{font-weight:700}ul{padding-left:1.2rem}"
+            "pre{background:#f2f4f1;padding:.6rem;overflow-x:auto}")
+
+
 def write_gate_html(record: dict[str, Any], width: int | None = None, color: bool = False) -> str:
     """A page for a build's artifacts: the same blocks and next step as the table."""
     s = record["summary"]
     h = ["<!DOCTYPE html>", '<html lang="en">', '<head><meta charset="utf-8">',
          '<meta name="viewport" content="width=device-width, initial-scale=1">',
          "<title>Touch targets against the baseline</title>",
-         "<style>body{font:16px/1.5 system-ui,sans-serif;max-width:60rem;margin:2rem auto;padding:0 1rem;color:#1a1a1a}"
-         "h3{margin-bottom:.2rem}.verdict{font-weight:700}ul{padding-left:1.2rem}pre{background:#f2f4f1;padding:.6rem;"
-         "overflow-x:auto}</style>", "</head>", "<body>", "<main>",
+         f"<style>{GATE_CSS}</style>", "</head>", "<body>", "<main>",
          f"<h1>Touch targets against the baseline: {escape(WORDS[s['verdict']])}</h1>",
          f'<p class="verdict">{escape(gate_summary(record))}.</p>']
     for verdict in ("worse", "gone", "moved", "better"):
@@ -263,8 +266,7 @@ def write_gate_html(record: dict[str, Any], width: int | None = None, color: boo
     steps = _next_steps(record)
     if steps:
         h += ["<h2>Next step</h2>", f"<pre>{escape(chr(10).join(steps))}</pre>"]
-    h += ["<p>These figures support, and do not replace, an accessibility audit under the law that applies and "
-          "by a qualified person.</p>", "</main>", "</body>", "</html>", ""]
+    h += [f"<p>{escape(DISCLAIMER)}</p>", "</main>", "</body>", "</html>", ""]
     return "\n".join(h)
 
 

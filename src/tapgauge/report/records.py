@@ -16,12 +16,20 @@ from typing import Any
 
 import orjson
 
-from tapgauge.jsontext import Raw, dumps
-
 from tapgauge import __version__
 from tapgauge.identity import target_keys
+from tapgauge.jsontext import Raw, dumps
+from tapgauge.model import (
+    SEVERITY_BY_LABEL,
+    STATUSES,
+    Finding,
+    InputError,
+    RuleSet,
+    ScreenResult,
+    Severity,
+    TargetResult,
+)
 from tapgauge.profiles import Profile
-from tapgauge.model import SEVERITY_BY_LABEL, STATUSES, Finding, InputError, RuleSet, ScreenResult, Severity, TargetResult
 from tapgauge.waivers import Waivers, outcomes, waiver_records
 
 REPORT_FORMAT = "tapgauge-report"
@@ -179,7 +187,7 @@ class Checked:
     other only when asked for, so a run that never needs one never pays for it.
     """
 
-    __slots__ = ("_text", "totals", "waived", "_record")
+    __slots__ = ("_record", "_text", "totals", "waived")
 
     def __init__(self, text: str | None, totals: Totals, waived: tuple[int, ...] = (),
                  record: dict[str, Any] | None = None) -> None:

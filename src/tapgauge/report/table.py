@@ -374,7 +374,7 @@ def write_compare_table(record: dict[str, Any], width: int | None = None, color:
             diff.add_column(col, overflow="fold")
         for row in record["differences"]:
             p = row["by_profile"][0]
-            ms = lambda v: "-" if v is None else f"{v:.0f}"  # noqa: E731
+            ms = lambda v: "-" if v is None else f"{v:.0f}"
             diff.add_row(f"{row['name']}", f"{row['A'] or 'absent'} -> {row['B'] or 'absent'}",
                          f"{_pct(p['miss_A'])} -> {_pct(p['miss_B'])}", f"{ms(p['time_A'])} -> {ms(p['time_B'])}")
         console.print(diff)

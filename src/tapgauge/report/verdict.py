@@ -8,6 +8,9 @@ from __future__ import annotations
 
 from typing import Any
 
+DISCLAIMER = ("These figures support, and do not replace, an accessibility audit under the law that applies "
+              "and by a qualified person.")
+
 
 def _plural(n: int, word: str) -> str:
     return f"{n} {word}" + ("" if n == 1 else "s")
