@@ -54,6 +54,11 @@ def test_every_format_tells_the_same_totals_and_verdict(tmp_path: Path, capsys: 
         assert _sentence(texts[fmt]) == log, fmt
     assert f"{summary['screens']} screens, {summary['targets']} targets: {summary['pass']} pass, {summary['fail']} fail" in log
 
+    # Targets that were not compared have one name everywhere: the status word "unchecked".
+    for fmt, text in texts.items():
+        assert "not checked" not in text.lower(), fmt
+    assert all("unchecked" in texts[fmt] for fmt in ("table", "json", "md", "html", "junit"))
+
     # CSV: one row per finding; open ones on failing targets are the summary's findings.
     rows = list(csv.DictReader(texts["csv"].splitlines()))
     open_rows = [r for r in rows if r["status"] == "fail" and not r["waiver"]]

@@ -263,7 +263,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
     h += ['<section aria-labelledby="h-summary">', '<h2 id="h-summary">Summary</h2>',
           "<table><caption>By screen</caption><thead><tr>"
           + "".join(f'<th scope="col">{c}</th>' for c in ("Screen", "Targets", "Pass", "Fail", "Unmeasurable",
-                                                           "Exempt", "Not checked", "Findings"))
+                                                           "Exempt", "Unchecked", "Findings"))
           + "</tr></thead><tbody>"]
     out.write("\n".join(h) + "\n")
     for k, scr in enumerate(report.screens):

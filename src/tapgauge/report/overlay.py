@@ -40,7 +40,7 @@ MARKS = {
     "pass": Mark((0, 114, 178), 2, (), "", "pass: solid blue"),
     "fail": Mark((213, 94, 0), 5, (), "!", "fail: thick solid vermilion, tag '!'"),
     "unmeasurable": Mark((204, 121, 167), 3, (10, 6), "?", "unmeasurable: dashed pink, tag '?'"),
-    "unchecked": Mark((110, 110, 110), 2, (3, 5), "-", "not checked: dotted grey, tag '-'"),
+    "unchecked": Mark((110, 110, 110), 2, (3, 5), "-", "unchecked: dotted grey, tag '-'"),
     "exempt": Mark((0, 158, 115), 3, (12, 4, 3, 4), "=", "exempt: dash-dot green, tag '='"),
 }
 SQUARE = (213, 94, 0)
