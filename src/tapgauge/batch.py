@@ -107,10 +107,13 @@ def tell_verdict(report: Report, paths: list[Path], quiet: bool, in_stdout: bool
     that compared nothing failed."""
     from tapgauge.report.verdict import summary_line
 
-    if report.summary["screens"] == 0 and not report.errors:
+    summary = report.summary
+    if summary["screens"] == 0 and not report.errors:
         say(nothing_found(paths))
+    elif summary["verdict"] == "nothing-compared" and (quiet or in_stdout):
+        say(summary_line(summary, report.fail_level))  # an error: said even when quiet
     if not quiet and not in_stdout:
-        say(summary_line(report.summary, report.fail_level))
+        say(summary_line(summary, report.fail_level))
 
 
 def nothing_found(paths: list[Path]) -> str:
