@@ -151,7 +151,12 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
     try:
         writer = writer_for(fmt)
         if show is not None:
-            show = Severity.parse(show).label
+            try:
+                show = Severity.parse(show).label
+            except ValueError as exc:
+                raise ValueError(f"--show: {exc}") from None
+            if fmt != "table":
+                say(f"--show lists findings in the table only; the {fmt} report holds every finding")
     except ValueError as exc:
         say(str(exc))
         return EXIT_ERROR
@@ -213,6 +218,9 @@ def baseline_cmd(
                 raise Discard("not writing a baseline while screens could not be read (see above)")
             if not screens:
                 raise Discard(nothing_found(paths) + "; not writing an empty baseline")
+            if not report.compared:
+                raise Discard(f"no target on the {screens} screen(s) was checked (see their reasons with "
+                              "`tapgauge check`); not writing a baseline that compares nothing")
     except Discard as exc:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
@@ -297,11 +305,15 @@ def gate_cmd(
     rerecord = "tapgauge baseline " + " ".join(shlex.quote(p.as_posix()) for p in paths) + \
         f" -o {shlex.quote(baseline.as_posix())}"
     record = gate_record(verdict, baseline.as_posix(), len(report.errors), run.level, rerecord,
-                         waiver_snippets(verdict.worse, run.config.base))
-    if not verdict.compared:
-        say(nothing_found(paths) if not report.summary["screens"] else
-            f"none of the {report.summary['screens']} screen(s) checked is in {baseline}: gate the folders the "
+                         waiver_snippets(verdict.worse, run.config.base), report.compared)
+    if not report.summary["screens"]:
+        say(nothing_found(paths))
+    elif not verdict.compared:
+        say(f"none of the {report.summary['screens']} screen(s) checked is in {baseline}: gate the folders the "
             "baseline was recorded from, or record a new baseline")
+    elif not report.compared:
+        say(f"no target on the {report.summary['screens']} screen(s) was checked (see their reasons with "
+            "`tapgauge check`): nothing to compare with the baseline")
     code = emit_record(record, fmt, output, writers[fmt])
     if not code and not quiet and (output is not None or fmt != "table"):
         say(gate_summary(record))

@@ -9,6 +9,7 @@ count: a third identical failure where the baseline had two is new.
 
 from __future__ import annotations
 
+import glob
 import json
 import math
 from collections.abc import Callable, Iterator
@@ -153,6 +154,8 @@ def check_baseline(path: Path) -> dict[str, Any]:
     if header.get("version") != BASELINE_VERSION:
         raise InputError(path, f"baseline version {header.get('version')!r}; this tapgauge reads version "
                                f"{BASELINE_VERSION}: re-record it")
+    if not isinstance(header.get("project"), str):
+        raise InputError(path, "baseline is damaged: it names no project; re-record it")
     return header
 
 
@@ -254,6 +257,9 @@ class Scale:
         return {r for r in rules if r in self.severity and self.severity[r] >= self.level}
 
 
+# A time recomputed from a baseline's rounded distance and width can differ from its rounded time by
+# a few hundredths of a millisecond; this much is not taken for a change.
+REROUNDING_MS = 0.5
 LOOKAHEAD = 256  # baseline screens read ahead when looking for a screen that is not next
 
 
@@ -334,13 +340,15 @@ def _size(v: list[float]) -> str:
     return f"{v[0]:g} x {v[1]:g}"
 
 
-def _own_time(old: dict[str, Any], new: dict[str, Any], line: tuple[float, float] | None) -> float | None:
-    """Predicted time with the target where it was (the baseline's distance) but its width now:
-    what the target itself lost, with a move from the start point taken out."""
-    if line is None or old.get("distance") is None or new.get("width") is None or new["width"] <= 0:
+def _own_time(old: dict[str, Any], shrink: float, line: tuple[float, float] | None) -> float | None:
+    """Predicted time with the target where it was, reached the way it was (the baseline's distance and
+    approach), at its size now: what the target itself lost, with a move taken out. The width along
+    the old approach scales with the target's size; `shrink` is the smaller of its width and height
+    ratios (new / old), so a target narrowed on either axis is never let off."""
+    if line is None or old.get("distance") is None or old.get("width") is None or old["width"] * shrink <= 0:
         return None
     a, b = line
-    return a + b * math.log2(old["distance"] / new["width"] + 1)
+    return a + b * math.log2(old["distance"] / (old["width"] * shrink) + 1)
 
 
 def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, Any], settings: GateSettings,
@@ -380,6 +388,7 @@ def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, A
         elif nw > ow + settings.size_tolerance or nh > oh + settings.size_tolerance:
             better.append(change("grew", f"grew from {_size(b['size'])} to {_size(t['size'])} {unit}"))
         slower = []  # (profile, old ms, new ms, ms at the old distance): time lost only to a move
+        shrink = min(nw / ow if ow > 0 else 1.0, nh / oh if oh > 0 else 1.0)
         for profile, d in t["difficulty"].items():
             o = b["difficulty"].get(profile)
             if o is None:
@@ -390,8 +399,8 @@ def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, A
                 elif d["miss"] < o["miss"] - settings.miss_tolerance:
                     better.append(change("easier", f"{profile}: miss {o['miss']:.0%} -> {d['miss']:.0%}"))
             if d["time_ms"] > o["time_ms"] + settings.time_tolerance_ms:
-                own = _own_time(o, d, scale.lines.get(profile))
-                if own is not None and own <= o["time_ms"] + settings.time_tolerance_ms:
+                own = _own_time(o, shrink, scale.lines.get(profile))
+                if own is not None and own <= o["time_ms"] + settings.time_tolerance_ms + REROUNDING_MS:
                     slower.append((profile, o["time_ms"], d["time_ms"], own))
                 else:
                     worse.append(change("harder", f"{profile}: time {o['time_ms']:.0f} -> {d['time_ms']:.0f} ms"
@@ -423,7 +432,8 @@ def waiver_target(key: str) -> str | None:
 
 
 def _toml_string(text: str) -> str:
-    return json.dumps(text, ensure_ascii=False)  # JSON's string escapes are all valid in a TOML basic string
+    # JSON's escapes are all valid in a TOML basic string; TOML 1.0 also forbids a raw DEL (U+007F).
+    return json.dumps(text, ensure_ascii=False).replace("\x7f", "\\u007f")
 
 
 def waiver_snippets(changes: list[Change], base: Path) -> list[str]:
@@ -436,7 +446,7 @@ def waiver_snippets(changes: list[Change], base: Path) -> list[str]:
         for rule in c.rules:
             out.append("\n".join([
                 "[[waivers]]",
-                f"screen = {_toml_string(relative_to_base(Path(c.path), base))}",
+                f"screen = {_toml_string(glob.escape(relative_to_base(Path(c.path), base)))}",  # a pattern
                 f"target = {_toml_string(target)}",
                 f"rule = {_toml_string(rule)}",
                 'reason = "WHY THIS IS ACCEPTABLE (for instance a WCAG 2.5.8 exception)"',
@@ -447,19 +457,22 @@ def waiver_snippets(changes: list[Change], base: Path) -> list[str]:
 
 
 def gate_record(verdict: Verdict, baseline_path: str, errors: int, level: Severity, rerecord: str,
-                waivers: list[str]) -> dict[str, Any]:
+                waivers: list[str], checked: int) -> dict[str, Any]:
+    """The gate's record; `checked` is how many of the run's targets were measured against the rules."""
     def rows(changes: list[Change]) -> list[dict[str, Any]]:
         return [{**c.__dict__, "rules": list(c.rules)}
                 for c in sorted(changes, key=lambda c: (c.screen, c.target, c.kind, c.message))]
 
-    nothing = not verdict.compared
+    nothing = not verdict.compared or not checked
     code = 2 if errors or nothing else 1 if verdict.worse else 0
     word = ("input-errors" if errors else "nothing-compared" if nothing else "fail" if verdict.worse else "pass")
     return {"format": "tapgauge-gate", "version": 1, "baseline": baseline_path, "fail_level": level.label,
             "regressions": rows(verdict.worse), "improvements": rows(verdict.better), "gone": rows(verdict.gone),
             "moved": rows(verdict.moved),
             "next_steps": {"rerecord": rerecord if verdict.worse and code == 1 else "",
-                           "waivers": waivers if code == 1 else []},
+                           "waivers": waivers if code == 1 else [],
+                           # waivers answer new failures only; a shrink or a harder reach needs the baseline
+                           "waivers_suffice": code == 1 and all(c.kind == "new-failure" for c in verdict.worse)},
             "summary": {"screens": verdict.compared, "regressions": len(verdict.worse),
                         "improvements": len(verdict.better), "gone": len(verdict.gone), "moved": len(verdict.moved),
                         "errors": errors, "verdict": word, "exit_code": code}}

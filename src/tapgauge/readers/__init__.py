@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import heapq
 import os
+import re
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field, replace
 from operator import itemgetter
@@ -132,6 +133,9 @@ def _read_json(path: Path, opts: ReadOptions) -> list[Screen]:
         return [_with_scale_from_picture(screen)]
     if kind == "error":
         raise server_error(path, part)
+    if isinstance(data, dict) and str(data.get("format", "")).startswith("tapgauge-"):
+        raise InputError(path, f"is tapgauge's own output ({data['format']}), not a screen; keep reports and "
+                               "baselines outside the folders tapgauge checks")
     raise InputError(path, f"JSON of a kind tapgauge does not read; expected {KINDS_READ}")
 
 
@@ -181,8 +185,11 @@ def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
             inputs.append(p)
             stems_claimed.add(p.stem)
         elif low.endswith(".json"):
+            head = _head(p)
+            if OWN_OUTPUT.search(head):
+                continue  # a report or baseline tapgauge wrote beside the screens is not a screen
             inputs.append(p)
-            if _is_page_source(p):
+            if looks_like_page_source(head):
                 stems_claimed.add(p.stem)  # home.json + home.png is one screen, like home.xml + home.png
             else:
                 referenced |= coco_image_names(p)
@@ -199,13 +206,17 @@ def _folder_inputs(folder: Path, files: list[str]) -> list[Path]:
     return inputs
 
 
-def _is_page_source(path: Path) -> bool:
-    """Whether a .json file is page source, from its first few KiB only (discovery stays cheap; never raises)."""
+# What tapgauge's own JSON outputs (report, baseline, gate record) start with.
+OWN_OUTPUT = re.compile(rb'^\s*\{\s*"format"\s*:\s*"tapgauge-')
+
+
+def _head(path: Path) -> bytes:
+    """A .json file's first few KiB, to tell page source from boxes cheaply (never raises)."""
     try:
         with open(path, "rb") as fh:
-            return looks_like_page_source(fh.read(HEAD_BYTES))
+            return fh.read(HEAD_BYTES)
     except OSError:
-        return False  # the read reports it
+        return b""  # the read reports it
 
 
 _DEEPEST = 200  # folders below a given folder; far past any export, well within Python's recursion limit

@@ -73,7 +73,7 @@ def gate_summary(record: dict[str, Any]) -> str:
     s = record["summary"]
     n = Counter(b.verdict for b in blocks(record))
     screens = f"{s['screens']} screen" + ("" if s["screens"] == 1 else "s")
-    return (f"against {record['baseline']}: {screens} compared; targets: {n['worse']} worse, "
+    return (f"against {record['baseline']}: {screens} compared; changed: {n['worse']} worse, "
             f"{n['gone']} gone, {n['moved']} only moved, {n['better']} better; {s['errors']} unreadable; "
             f"{WORDS[s['verdict']]} at fail level {record['fail_level']} (exit {s['exit_code']})")
 
@@ -84,7 +84,9 @@ def _next_steps(record: dict[str, Any]) -> list[str]:
         return []
     lines = ["If these changes are intended, record a new baseline:", f"    {steps['rerecord']}"]
     if steps["waivers"]:
-        lines += ["or, once a person has judged a new failure acceptable, waive it in tapgauge.toml:", ""]
+        lines += ["or, once a person has judged a new failure acceptable, waive it in tapgauge.toml"
+                  + ("" if steps["waivers_suffice"] else " (this answers the new failures only; what shrank or "
+                     "got harder needs the change undone or a new baseline)") + ":", ""]
         lines += [f"    {line}".rstrip() for w in steps["waivers"] for line in (*w.splitlines(), "")]
     return lines
 
@@ -148,7 +150,9 @@ def write_gate_markdown(record: dict[str, Any], width: int | None = None, color:
         lines += ["### Next step", "", "If these changes are intended, record a new baseline:", "",
                   "```sh", steps["rerecord"], "```", ""]
         if steps["waivers"]:
-            lines += ["Or, once a person has judged a new failure acceptable, waive it in `tapgauge.toml`:", "",
+            lines += ["Or, once a person has judged a new failure acceptable, waive it in `tapgauge.toml`"
+                      + ("" if steps["waivers_suffice"] else " (this answers the new failures only; what shrank "
+                         "or got harder needs the change undone or a new baseline)") + ":", "",
                       "```toml", "\n\n".join(steps["waivers"]), "```", ""]
     lines += [DISCLAIMER, ""]
     return "\n".join(lines)

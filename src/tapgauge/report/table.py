@@ -250,21 +250,16 @@ def _rule_counts(s: dict[str, Any], opened: Counter[str], waived: Counter[str]) 
                 (waived if f["waiver"] else opened)[f["rule"]] += 1
 
 
-def _rule_table(report: Report, opened: Counter[str], waived: Counter[str], show: int) -> Table | None:
-    """Open and waived findings per rule, so a long batch ends with the overview."""
+def _rule_lines(report: Report, opened: Counter[str], waived: Counter[str], show: int) -> list[str]:
+    """Open and waived findings per rule, so a long batch ends with the overview. The id comes last and
+    whole, whatever its length (ids are copied into waivers)."""
     rows = [(r["id"], r["severity"]) for rs in report.rulesets for r in rs["rules"]
             if (opened[r["id"]] or waived[r["id"]]) and SEVERITY_BY_LABEL[r["severity"]] >= show]
     if not rows:
-        return None
-    table = Table(title="findings by rule", title_justify="left", header_style="bold", pad_edge=False,
-                  show_edge=False, box=None, padding=(0, 2, 0, 0))
-    table.add_column("rule id", no_wrap=True)  # ids are copied into waivers: never cut
-    table.add_column("severity")
-    table.add_column("open", justify="right")
-    table.add_column("waived", justify="right")
-    for rule, severity in rows:
-        table.add_row(rule, severity, str(opened[rule]), str(waived[rule]))
-    return table
+        return []
+    lines = ["findings by rule", f"{'open':>6}  {'waived':>6}  {'severity':<8}  rule id"]
+    lines += [f"{opened[rule]:>6}  {waived[rule]:>6}  {severity:<8}  {rule}" for rule, severity in rows]
+    return lines
 
 
 def write_table(report: Report, out: TextIO, width: int | None = None, color: bool = False,
@@ -312,9 +307,8 @@ def write_table(report: Report, out: TextIO, width: int | None = None, color: bo
         if w["state"] != "active":
             why = "matches nothing" if w["state"] == "stale" else f"expired on {w['expires']}"
             console.print(Text(f"waiver {w['target']} / {w['rule']} on {w['screen']} {why}", style="yellow"))
-    by_rule = _rule_table(report, opened, waived, least)
-    if by_rule is not None:
-        console.print(by_rule)
+    for k, line in enumerate(_rule_lines(report, opened, waived, least)):
+        console.print(Text(line, style="bold" if k < 2 else ""), soft_wrap=True)
     console.print(Text(summary_line(report.summary, report.fail_level), style="bold"))
 
 
