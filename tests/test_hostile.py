@@ -305,8 +305,8 @@ def test_regression_baseline_difficulty_without_time(tmp_path: Path, capsys: pyt
 
 
 # The project's own text inputs, fuzzed the same way: rule sets, profiles, configs, flows, trial logs.
-RULESET = (Path(__file__).resolve().parent.parent / "src" / "tapgauge" / "rules" / "rulesets" / "wcag22-aa.toml").read_bytes()
-PROFILE = (Path(__file__).resolve().parent.parent / "src" / "tapgauge" / "rules" / "profiles" / "typical-adult.toml").read_bytes()
+RULESET = (Path(__file__).resolve().parent.parent / "rules" / "rulesets" / "wcag22-aa.toml").read_bytes()
+PROFILE = (Path(__file__).resolve().parent.parent / "rules" / "profiles" / "typical-adult.toml").read_bytes()
 FLOW = (DEMO / "book_a_plot.flow").read_text().replace("screen android/", f"screen {DEMO}/android/").encode()
 TRIALS = (Path(__file__).resolve().parent / "data" / "fitts1954_summary.csv").read_bytes()
 CONFIG = b"""project = "fernwick-allotments"
@@ -485,7 +485,7 @@ def test_profiles_with_values_of_the_wrong_type_never_crash(tmp_path: Path, caps
 def test_regression_profile_numbers_that_overflow(tmp_path: Path, capsys: pytest.CaptureFixture[str],
                                                   args: list[str]) -> None:
     """Found by the typed profile fuzzer: sigma_a_mm = 1e308 overflowed the spread arithmetic (internal error)."""
-    text = (Path(__file__).resolve().parent.parent / "src" / "tapgauge" / "rules" / "profiles" / "typical-adult.toml"
+    text = (Path(__file__).resolve().parent.parent / "rules" / "profiles" / "typical-adult.toml"
             ).read_text().replace("sigma_a_mm = 1.53", "sigma_a_mm = 1e308")
     (tmp_path / "p.toml").write_text(text)
     screen = str(DEMO / "android" / "plot_detail.xml")

@@ -137,7 +137,7 @@ def test_show_with_an_unknown_level_is_a_usage_error(screens: Path, capsys: pyte
 # ---- findings by rule: ids whole at 80 columns --------------------------------------------------
 
 def _house_rules(folder: Path, rule_id: str) -> Path:
-    """A project's own rule file (the format of src/tapgauge/rules/rulesets/*.toml)."""
+    """A project's own rule file (the format of rules/rulesets/*.toml)."""
     path = folder / "house.toml"
     path.write_text(f'''[ruleset]
 id = "fernwick-allotments-house-style"

@@ -13,11 +13,11 @@ import tomllib
 from collections.abc import Callable
 from dataclasses import dataclass
 from functools import cache
-from importlib import resources
 from pathlib import Path
 from typing import TypeVar
 
 from tapgauge.model import Device, DeviceHints, Screen
+from tapgauge.ruledata import rules_dir
 
 MM_PER_INCH = 25.4  # definition of the inch
 T = TypeVar("T")
@@ -34,7 +34,7 @@ class PlatformUnits:
 
 @cache
 def platform_units() -> dict[str, PlatformUnits]:
-    data = tomllib.loads(resources.files("tapgauge").joinpath("rules/platforms.toml").read_text("utf-8"))
+    data = tomllib.loads(rules_dir().joinpath("platforms.toml").read_text("utf-8"))
     return {
         name: PlatformUnits(
             unit=table["unit"],

@@ -1,6 +1,6 @@
 """Slope profiles (TOML): Fitts's-law timing and endpoint spread for a group of people.
 
-Built-in profiles ship in tapgauge/rules/profiles/; users pass their own file (for
+Built-in profiles are the files in rules/profiles/; users pass their own file (for
 example one written by `tapgauge calibrate`) or override single numbers with
 `--param PROFILE.KEY=VALUE`. Start points for reaches live in rules/start-points.toml.
 """
@@ -11,12 +11,12 @@ import re
 import tomllib
 from dataclasses import dataclass, replace
 from functools import cache
-from importlib import resources
 from typing import Any
 
 from tapgauge.choose import choose
-from tapgauge.textfile import load_toml
 from tapgauge.model import InputError
+from tapgauge.ruledata import rules_dir
+from tapgauge.textfile import load_toml
 
 NUMBERS = ("intercept_ms", "slope_ms_per_bit", "alpha", "sigma_a_mm")
 # Plausibility limits, not published figures: far beyond any study, they keep a typing
@@ -89,11 +89,11 @@ def parse_profile(text: str, origin: str) -> Profile:
 
 @cache
 def builtin_profiles() -> dict[str, Profile]:
-    folder = resources.files("tapgauge").joinpath("rules/profiles")
+    folder = rules_dir().joinpath("profiles")
     found = {}
     for entry in sorted(folder.iterdir(), key=lambda e: e.name):
         if entry.name.endswith(".toml"):
-            p = parse_profile(entry.read_text("utf-8"), f"tapgauge/rules/profiles/{entry.name}")
+            p = parse_profile(entry.read_text("utf-8"), f"rules/profiles/{entry.name}")
             found[p.id] = p
     return found
 
@@ -136,7 +136,7 @@ def apply_params(profiles: list[Profile], params: list[str]) -> list[Profile]:
 
 @cache
 def start_points() -> dict[str, tuple[float, float]]:
-    data = tomllib.loads(resources.files("tapgauge").joinpath("rules/start-points.toml").read_text("utf-8"))
+    data = tomllib.loads(rules_dir().joinpath("start-points.toml").read_text("utf-8"))
     return {name: (float(t["x"]), float(t["y"])) for name, t in data.items()}
 
 

@@ -1,6 +1,6 @@
 """Rule sets are data: TOML files naming each rule's kind, thresholds, unit and source.
 
-Built-in sets ship inside the package (tapgauge/rules/rulesets/); users may pass
+Built-in sets are the files in rules/rulesets/ (shipped inside the package); users may pass
 their own file. Every key is checked: an unknown or ill-typed key is an error that
 names the file, the line and the key.
 """
@@ -9,13 +9,13 @@ from __future__ import annotations
 
 import re
 from functools import cache
-from importlib import resources
 from typing import Any
 
 from tapgauge.checks import KINDS
 from tapgauge.choose import choose
-from tapgauge.textfile import load_toml
 from tapgauge.model import InputError, Rule, RuleSet, Severity
+from tapgauge.ruledata import rules_dir
+from tapgauge.textfile import load_toml
 
 DEFAULT_RULESETS = ("wcag22-aa", "android-guideline", "apple-guideline")
 UNITS = ("dp", "pt", "mm")
@@ -132,7 +132,7 @@ def _parse_rule(raw: dict[str, Any], set_id: str, head: dict[str, Any], fail: An
 
 
 def _builtin_dir() -> Any:
-    return resources.files("tapgauge").joinpath("rules/rulesets")
+    return rules_dir().joinpath("rulesets")
 
 
 @cache
@@ -140,7 +140,7 @@ def builtin_rulesets() -> dict[str, RuleSet]:
     found: dict[str, RuleSet] = {}
     for entry in sorted(_builtin_dir().iterdir(), key=lambda e: e.name):
         if entry.name.endswith(".toml"):
-            rs = parse_ruleset(entry.read_text("utf-8"), f"tapgauge/rules/rulesets/{entry.name}")
+            rs = parse_ruleset(entry.read_text("utf-8"), f"rules/rulesets/{entry.name}")
             found[rs.id] = rs
     return found
 

@@ -5,10 +5,10 @@ from __future__ import annotations
 import re
 import tomllib
 from dataclasses import dataclass
-from importlib import resources
 from pathlib import Path
 
 from tapgauge.model import InputError
+from tapgauge.ruledata import rules_dir
 from tapgauge.textfile import load_toml, read_text
 
 
@@ -53,7 +53,7 @@ def class_map_from(table: dict[str, object], source: str) -> ClassMap:
 
 
 def default_class_map() -> ClassMap:
-    text = resources.files("tapgauge").joinpath("rules/annotation-classes.toml").read_text("utf-8")
+    text = rules_dir().joinpath("annotation-classes.toml").read_text("utf-8")
     return class_map_from(tomllib.loads(text), "the built-in class table")
 
 
