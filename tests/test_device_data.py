@@ -147,7 +147,7 @@ def test_a_utf16_sidecar_as_powershell_writes_it_is_read(tmp_path: Path, capsys:
     # about_Redirection; from memory).
     screen = _android(tmp_path, "")
     (tmp_path / "a" / "device.txt").write_bytes("Physical density: 440\r\n".encode("utf-16"))
-    _, report, _ = _json([str(screen), "--rules", "android-guideline"], capsys)
+    _, report, _ = _json([str(screen), "--rules", "android-guidance"], capsys)
     assert not report["errors"] and report["screens"][0]["device"]["density_dpi"] == 440
 
 

@@ -79,7 +79,7 @@ def test_adb_one_liner_end_to_end(tmp_path: Path, capsys: pytest.CaptureFixture[
     # common practice to use /dev/tty to get the dump on stdout).
     dump = write(tmp_path, "order.xml", bakery_dump() + TTY_STATUS + "\n")
     before = dump.read_bytes()
-    code = main(["check", "--format", "json", "--density", "420", "--rules", "android-guideline", str(dump)])
+    code = main(["check", "--format", "json", "--density", "420", "--rules", "android-guidance", str(dump)])
     report = json.loads(capsys.readouterr().out)
     # Read, not refused (an unreadable file would be exit 2): the favourite button, 60 px = 22.9 dp
     # at 420 dpi, fails the 48 dp guideline, which is a warning, so the run passes at the default level.
@@ -218,7 +218,7 @@ def test_appended_dumps_are_screens_named_in_order(tmp_path: Path) -> None:
 def test_twelve_dumps_sort_in_number_order_through_the_pipeline(tmp_path: Path) -> None:
     body = "".join(bakery_dump().replace("Order sourdough", f"Order loaf {k}") + TTY_STATUS + "\n" for k in range(1, 13))
     path = write(tmp_path, "dozen.xml", body)
-    settings = Settings(tuple(select_rulesets(["android-guideline"])), flags=DeviceHints(density_dpi=420, source="test"))
+    settings = Settings(tuple(select_rulesets(["android-guidance"])), flags=DeviceHints(density_dpi=420, source="test"))
     results = check_file(path, settings)
     assert [r.screen.name for r in results] == [f"dump {k:02d}" for k in range(1, 13)]
     assert [r.screen.targets[0].label for r in results] == [f"Order loaf {k}" for k in range(1, 13)]

@@ -31,9 +31,9 @@ def test_csv_golden_and_columns(in_repo: None, capsys: pytest.CaptureFixture[str
     _golden(DATA / "demo_findings.csv", text)
     rows = list(csv.DictReader(io.StringIO(text)))
     assert tuple(rows[0].keys()) == COLUMNS  # the documented order
-    overlap = next(r for r in rows if r["label"] == "14" and r["rule"] == "wcag22-aa/target-size")
+    overlap = next(r for r in rows if r["label"] == "14" and r["rule"] == "wcag-2.5.8/size-24")
     assert "drawn over it" in overlap["fix"]
-    padding = next(r for r in rows if r["label"] == "Remove date" and r["rule"] == "wcag22-aa/target-size")
+    padding = next(r for r in rows if r["label"] == "Remove date" and r["rule"] == "wcag-2.5.8/size-24")
     # 20 x 20 dp against 24 dp: 2 dp on every side (arithmetic), or the WCAG spacing circle.
     assert padding["fix"].startswith("add 2 dp of touchable padding on every side")
 

@@ -83,7 +83,7 @@ def test_markdown_comment_says_per_screen_what_got_worse_with_before_and_after(
     assert [h.text_content() for h in page.iter("h3")] == ["booking_form.xml", "plot_detail.xml", "Next step"]
     items = [li.text_content() for li in page.iter("li")]
     assert any(i.startswith("Confirm booking: shrank from 360 x 56 to 360 x 40 dp") for i in items)
-    assert any(i.startswith("Favourite: new target, fails wcag22-aa/target-size") for i in items)
+    assert any(i.startswith("Favourite: new target, fails wcag-2.5.8/size-24") for i in items)
     assert any(i.startswith("Back: is in the baseline but not on the screen now") for i in items)
     words = [s.text_content() for s in page.iter("strong")]
     assert words.count("Worse") == 2 and words.count("Gone") == 1
@@ -119,8 +119,8 @@ def test_pasting_the_waiver_snippets_makes_the_gate_pass(project: Path, capsys: 
     # Python's own TOML 1.0 parser (tomllib, PEP 680) reads it as the README's [[waivers]] tables.
     waivers = tomllib.loads(snippet)["waivers"]
     assert {(w["screen"], w["target"], w["rule"]) for w in waivers} == {
-        ("v2/plot_detail.xml", "id:favourite", "wcag22-aa/target-size"),
-        ("v2/plot_detail.xml", "id:tool_3", "wcag22-aa/target-size")}
+        ("v2/plot_detail.xml", "id:favourite", "wcag-2.5.8/size-24"),
+        ("v2/plot_detail.xml", "id:tool_3", "wcag-2.5.8/size-24")}
     _paste_waivers(project / "tapgauge.toml", snippet)
     code, text, _ = _gate(capsys, "v2/plot_detail.xml", "-b", "b.json", "-f", "md")
     assert code == 0 and "gate passed" in text
@@ -128,7 +128,7 @@ def test_pasting_the_waiver_snippets_makes_the_gate_pass(project: Path, capsys: 
     # icon, undersized in v1 already: the gate lets old failures be, check does not).
     assert main(["check", "v2/plot_detail.xml", "--width", "100"]) == 1
     out = capsys.readouterr().out
-    assert out.count("WAIVED wcag22-aa/target-size") == 2 and "Equivalent control in the plot menu" in out
+    assert out.count("waived wcag-2.5.8/size-24") == 2 and "Equivalent control in the plot menu" in out
 
 
 def test_the_next_step_says_waivers_answer_only_the_new_failures(project: Path,
@@ -221,8 +221,8 @@ def test_fail_level_warning_also_gates_the_platform_guidelines(project: Path, ca
     _, at_warning = _record(capsys, "v2", "-b", "b.json", "--fail-level", "warning")
     # Confirm booking went from 56 to 40 dp high: under Android's 48 dp (a warning), above WCAG's 24 dp.
     new_at_warning = {(c["name"], r) for c in at_warning["regressions"] if c["kind"] == "new-failure" for r in c["rules"]}
-    assert ("Confirm booking", "android-guideline/touch-size") in new_at_warning
-    assert not any(r.startswith("android-guideline/") for c in at_error["regressions"] for r in c["rules"])
+    assert ("Confirm booking", "android-guidance/size-48") in new_at_warning
+    assert not any(r.startswith("android-guidance/") for c in at_error["regressions"] for r in c["rules"])
     # One baseline serves both levels: the same baseline, no re-recording.
     assert at_warning["baseline"] == at_error["baseline"] == "b.json"
 

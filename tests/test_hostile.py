@@ -25,7 +25,7 @@ from tapgauge.rulesets import select_rulesets
 FUZZ = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 ANDROID = (DEMO / "android" / "plot_detail.xml").read_bytes()
 IOS = (DEMO / "ios" / "seed_tray.xml").read_bytes()
-SETTINGS = Settings(tuple(select_rulesets(["wcag22-aa", "android-guideline"])))
+SETTINGS = Settings(tuple(select_rulesets(["wcag-2.5.8", "android-guidance"])))
 
 
 def _outcome(path: Path) -> str:
@@ -305,19 +305,19 @@ def test_regression_baseline_difficulty_without_time(tmp_path: Path, capsys: pyt
 
 
 # The project's own text inputs, fuzzed the same way: rule sets, profiles, configs, flows, trial logs.
-RULESET = (Path(__file__).resolve().parent.parent / "rules" / "rulesets" / "wcag22-aa.toml").read_bytes()
+RULESET = (Path(__file__).resolve().parent.parent / "rules" / "rulesets" / "wcag-2.5.8.toml").read_bytes()
 PROFILE = (Path(__file__).resolve().parent.parent / "rules" / "profiles" / "typical-adult.toml").read_bytes()
 FLOW = (DEMO / "book_a_plot.flow").read_text().replace("screen android/", f"screen {DEMO}/android/").encode()
 TRIALS = (Path(__file__).resolve().parent / "data" / "fitts1954_summary.csv").read_bytes()
 CONFIG = b"""project = "fernwick-allotments"
-rules = ["wcag22-aa", "android-guideline"]
+rules = ["wcag-2.5.8", "android-guidance"]
 fail_level = "warning"
 [device]
 density = 440
 [[waivers]]
 screen = "*.xml"
 target = "label:Share plot"
-rule = "android-guideline/*"
+rule = "android-guidance/*"
 reason = "Equivalent control in the menu"
 author = "Review board"
 expires = 2027-03-31
@@ -403,7 +403,7 @@ def typed_configs(draw: st.DrawFn) -> str:
         for _ in range(draw(st.integers(0, 2))):
             lines.append(f"[[{array}]]")
             keys = draw(st.lists(st.sampled_from(_CONFIG_KEYS[array]), unique=True))
-            lines += [f"{k} = {_toml(draw(_value | st.sampled_from(['id:book', 'label:x', '*.xml', 'wcag22-aa/*'])))}"
+            lines += [f"{k} = {_toml(draw(_value | st.sampled_from(['id:book', 'label:x', '*.xml', 'wcag-2.5.8/*'])))}"
                       for k in keys]
     return "\n".join(lines) + "\n"
 

@@ -16,9 +16,9 @@ from conftest import DEMO
 from tapgauge.cli import main
 
 FORMATS = ("table", "json", "csv", "md", "html", "sarif", "junit")
-# SARIF 2.1.0 (OASIS), section 3.27.10 "level": error, warning, note, none; our "info" is SARIF's "note".
-SARIF_LEVEL = {"error": "error", "warning": "warning", "info": "note"}
-RANK = {"info": 1, "warning": 2, "error": 3}
+# SARIF 2.1.0 (OASIS), section 3.27.10 "level": error, warning, note, none; our severities use its words.
+SARIF_LEVEL = {"error": "error", "warning": "warning", "note": "note"}
+RANK = {"note": 1, "warning": 2, "error": 3}
 
 
 def _write_all(tmp_path: Path, capsys: pytest.CaptureFixture[str], *extra: str) -> tuple[dict[str, str], set[int], set[str]]:
@@ -66,13 +66,13 @@ def test_every_format_tells_the_same_totals_and_verdict(tmp_path: Path, capsys: 
     failing = {(r["screen"], r["target"]) for r in open_rows if RANK[r["severity"]] >= RANK[level]}
     assert len(failing) == summary["failing"]
 
-    # SARIF: failures by level, the unmeasurable target as a review item that fails nothing.
+    # SARIF: failures by level, the partial target as a review item that fails nothing.
     run = json.loads(texts["sarif"])["runs"][0]
     fails = [r for r in run["results"] if r["kind"] == "fail" and "suppressions" not in r]
     assert Counter(r["level"] for r in fails) == +Counter({SARIF_LEVEL[k]: v for k, v in summary["findings"].items()})
     reviews = [r for r in run["results"] if r["kind"] == "review"]
     assert reviews and {r["level"] for r in reviews} == {"none"}  # SARIF 2.1.0, 3.27.9: kind other than fail
-    assert {r["properties"]["status"] for r in reviews} == {"unmeasurable"}
+    assert {r["properties"]["status"] for r in reviews} == {"partial"}
     invocation = run["invocations"][0]
     assert invocation["exitCode"] == summary["exit_code"]
     assert invocation["properties"]["verdict"] == summary["verdict"]
@@ -82,7 +82,7 @@ def test_every_format_tells_the_same_totals_and_verdict(tmp_path: Path, capsys: 
     root = ET.fromstring(texts["junit"].encode("utf-8"))
     assert int(root.get("tests")) == summary["targets"]
     assert int(root.get("failures")) == summary["failing"]
-    assert int(root.get("skipped")) == summary["unchecked"] + summary["unmeasurable"] + summary["exempt"]
+    assert int(root.get("skipped")) == summary["unchecked"] + summary["partial"] + summary["exempt"]
     assert int(root.get("errors")) == summary["errors"] == 0
 
 
@@ -94,7 +94,11 @@ def test_warnings_fail_only_at_the_warning_level(tmp_path: Path, capsys: pytest.
     s_strict = json.loads(strict["json"])["summary"]
     s_lenient = json.loads(lenient["json"])["summary"]
     assert s_strict["fail"] == s_lenient["fail"]  # the targets' statuses do not depend on the level
-    assert s_lenient["failing"] < s_strict["failing"] == s_strict["fail"]
+    assert s_lenient["failing"] < s_strict["failing"] <= s_strict["fail"]
+    # At the lowest level every failing target fails the run (a finding of any severity is open).
+    assert main(["check", str(DEMO), "-f", "json", "-o", str(tmp_path / "all.json"), "--fail-level", "note"]) == 1
+    s_all = json.loads((tmp_path / "all.json").read_text())["summary"]
+    assert s_all["failing"] == s_all["fail"]
     # A finding below the fail level is not a JUnit failure: the case passes and lists it.
     root = ET.fromstring(lenient["junit"].encode("utf-8"))
     warned = [c for c in root.iter("testcase") if c.find("failure") is None and c.find("system-out") is not None]

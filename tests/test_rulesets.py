@@ -31,17 +31,20 @@ def test_builtins_carry_published_thresholds_and_sources() -> None:
     sets = builtin_rulesets()
     assert set(DEFAULT_RULESETS) <= set(sets)
     # WCAG 2.2 SC 2.5.8: 24 CSS px with the spacing exception (W3C, published).
-    aa = sets["wcag22-aa"].rules[0]
+    aa = sets["wcag-2.5.8"].rules[0]
     assert (aa.id, aa.param("size"), aa.param("spacing_exception"), aa.severity) == (
-        "wcag22-aa/target-size", 24.0, True, Severity.ERROR)
+        "wcag-2.5.8/size-24", 24.0, True, Severity.ERROR)
     # WCAG 2.2 SC 2.5.5: 44 CSS px, no spacing exception (W3C, published).
-    assert sets["wcag22-aaa"].rules[0].param("size") == 44.0
+    assert sets["wcag-2.5.5"].rules[0].param("size") == 44.0
     # Android accessibility help: 48 dp targets, 8 dp apart (published).
-    android = {r.id: r for r in sets["android-guideline"].rules}
-    assert android["android-guideline/touch-size"].param("size") == 48.0
-    assert android["android-guideline/touch-spacing"].param("gap") == 8.0
-    # Apple HIG: 44 x 44 pt (published, older edition).
-    assert sets["apple-guideline"].rules[0].param("size") == 44.0
+    android = {r.id: r for r in sets["android-guidance"].rules}
+    assert android["android-guidance/size-48"].param("size") == 48.0
+    assert android["android-guidance/gap-8"].param("gap") == 8.0
+    # Apple Human Interface Guidelines, Accessibility, 2025 edition (read second-hand): iOS controls
+    # 44 x 44 pt by default, 28 x 28 pt at the least; the minimum warns, the default is a note.
+    apple = {r.id: r for r in sets["apple-hig"].rules}
+    assert (apple["apple-hig/size-28"].param("size"), apple["apple-hig/size-28"].severity) == (28.0, Severity.WARNING)
+    assert (apple["apple-hig/size-44"].param("size"), apple["apple-hig/size-44"].severity) == (44.0, Severity.NOTE)
     # Parhi et al. 2006: 9.2 mm for discrete one-thumb taps (published).
     assert sets["motor-mm"].rules[0].param("size") == 9.2
     for rs in sets.values():
@@ -77,5 +80,5 @@ def test_malformed_rule_files_name_file_line_and_key(old: str, new: str, expect:
 
 
 def test_unknown_ruleset_id_lists_the_builtins() -> None:
-    with pytest.raises(InputError, match="wcag22-aa"):
+    with pytest.raises(InputError, match="wcag-2.5.8"):
         select_rulesets(["wcag3"])

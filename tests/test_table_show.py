@@ -63,13 +63,13 @@ def screens(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
 
 
 # Open findings per rule that the thresholds above give, and the totals the summary must count.
-EXPECTED = {"wcag22-aa/target-size": 2, "android-guideline/touch-size": 4, "android-guideline/touch-spacing": 2}
+EXPECTED = {"wcag-2.5.8/size-24": 2, "android-guidance/size-48": 4, "android-guidance/gap-8": 2}
 
 
 def _by_rule(table: str) -> dict[str, tuple[str, int, int]]:
     """The "findings by rule" block as {rule id: (severity, open, waived)}."""
     block = table.split("findings by rule", 1)[1]
-    rows = re.findall(r"^\s*(\d+)\s+(\d+)\s+(error|warning|info)\s+(\S+/\S+)\s*$", block, re.MULTILINE)
+    rows = re.findall(r"^\s*(\d+)\s+(\d+)\s+(error|warning|note)\s+(\S+/\S+)\s*$", block, re.MULTILINE)
     return {r: (sev, int(o), int(w)) for o, w, sev, r in rows}
 
 
@@ -89,12 +89,12 @@ def test_table_counts_every_rule_and_ends_with_the_overview(screens: Path, capsy
     by_rule = _by_rule(out)
     assert {r: o for r, (_, o, _) in by_rule.items()} == EXPECTED
     assert {r: s for r, (s, _, _) in by_rule.items()} == {
-        "wcag22-aa/target-size": "error", "android-guideline/touch-size": "warning",
-        "android-guideline/touch-spacing": "warning"}
+        "wcag-2.5.8/size-24": "error", "android-guidance/size-48": "warning",
+        "android-guidance/gap-8": "warning"}
     lines = out.rstrip("\n").splitlines()
     overview = next(k for k, line in enumerate(lines) if line.startswith("findings by rule"))
     assert SUMMARY.search(" ".join(lines[overview + 1 + len(EXPECTED) + 1:]))  # the summary line closes it
-    assert "open findings: 2 error, 6 warning, 0 info" in " ".join(out.split())
+    assert "open findings: 2 error, 6 warning, 0 note" in " ".join(out.split())
     assert all(len(line) <= 80 for line in lines)
 
 
@@ -105,24 +105,24 @@ def test_show_error_lists_only_errors_and_screens_that_have_them(screens: Path,
     assert main(["check", "screens", "--width", "80", "--show", "error"]) == 1
     shown = capsys.readouterr().out
     assert _titles(shown) == ["plot_tools.xml"]  # the notes screen has warnings only
-    assert "ERROR wcag22-aa/target-size" in shown and "WARNING" not in shown
-    assert {r: o for r, (_, o, _) in _by_rule(shown).items()} == {"wcag22-aa/target-size": 2}
+    assert "error wcag-2.5.8/size-24" in shown and "warning android" not in shown
+    assert {r: o for r, (_, o, _) in _by_rule(shown).items()} == {"wcag-2.5.8/size-24": 2}
     # The totals still count everything: the same summary line as without --show.
     assert SUMMARY.search(" ".join(shown.split())).group(0) == SUMMARY.search(" ".join(everything.split())).group(0)
     assert main(["check", "screens", "--width", "80", "--show", "warning"]) == 1
     assert _titles(capsys.readouterr().out) == ["plot_notes.xml", "plot_tools.xml"]
 
 
-def test_show_warning_hides_info(screens: Path, capsys: pytest.CaptureFixture[str]) -> None:
-    # motor-mm's reduced-precision rule is info (20 mm, README "Rule sets"); at 420 ppi the 56 dp
+def test_show_warning_hides_notes(screens: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    # motor-mm's reduced-precision rule is a note (20 mm, README "Rule sets"); at 420 ppi the 56 dp
     # button is 147 px = 8.9 mm (147 / 420 * 25.4), so it fails it.
-    args = ["check", "screens", "--width", "80", "--ppi", "420", "-r", "wcag22-aa,android-guideline,motor-mm"]
+    args = ["check", "screens", "--width", "80", "--ppi", "420", "-r", "wcag-2.5.8,android-guidance,motor-mm"]
     assert main(args) == 1
     everything = capsys.readouterr().out
-    assert "INFO motor-mm/reduced-precision" in everything
+    assert "note motor-mm/reduced-precision" in everything
     assert main([*args, "--show", "warning"]) == 1
     shown = capsys.readouterr().out
-    assert "INFO" not in shown and "WARNING" in shown
+    assert "note motor-mm" not in shown and "warning android-guidance" in shown
     assert "motor-mm/reduced-precision" not in _by_rule(shown)
 
 
@@ -131,7 +131,7 @@ def test_show_with_an_unknown_level_is_a_usage_error(screens: Path, capsys: pyte
                                                      level: str) -> None:
     assert main(["check", "screens", "--show", level]) == 2
     captured = capsys.readouterr()
-    assert "expected one of: info, warning, error" in captured.err and captured.out == ""
+    assert "expected one of: note, warning, error" in captured.err and captured.out == ""
 
 
 # ---- findings by rule: ids whole at 80 columns --------------------------------------------------
@@ -167,7 +167,7 @@ def test_builtin_rule_ids_are_whole_at_80_columns(screens: Path, capsys: pytest.
 def test_a_long_rule_id_keeps_its_severity_and_counts_at_80_columns(screens: Path, capsys: pytest.CaptureFixture[str],
                                                                     rule: str) -> None:
     _house_rules(screens, rule)
-    main(["check", "screens", "--width", "80", "-r", "wcag22-aa,house.toml"])
+    main(["check", "screens", "--width", "80", "-r", "wcag-2.5.8,house.toml"])
     out = capsys.readouterr().out
     full = f"fernwick-allotments-house-style/{rule}"  # 61 and 72 characters
     assert full in out  # never cut
@@ -237,7 +237,7 @@ WAIVER = '''project = "fernwick-allotments"
 [[waivers]]
 screen = "screens/plot_tools.xml"
 target = "id:plus"
-rule = "wcag22-aa/*"
+rule = "wcag-2.5.8/*"
 reason = "Equivalent control: seeds per cell can also be typed in"
 author = "Accessibility review, 2026-11"
 expires = 2027-03-31
@@ -250,21 +250,21 @@ def test_waived_findings_are_marked_with_reason_author_and_expiry(screens: Path,
     assert main(["check", "screens", "--width", "80", "--today", "2026-12-01"]) == 1  # Fewer seeds still fails
     out = capsys.readouterr().out
     flat = " ".join(out.split())
-    assert "WAIVED wcag22-aa/target-size: 16.0 / 24 dp (error)" in flat
+    assert "waived wcag-2.5.8/size-24: 16.0 / 24 dp (error)" in flat
     assert ("waived: Equivalent control: seeds per cell can also be typed in "
             "(Accessibility review, 2026-11, until 2027-03-31)") in " ".join(_right(out).split())
     plus = out[out.index("#2 More seeds"):]
     assert "ERROR" not in plus.split("───")[0]  # its own block: waived, not open
-    assert _by_rule(out)["wcag22-aa/target-size"] == ("error", 1, 1)
-    assert "open findings: 1 error, 6 warning, 0 info" in flat
+    assert _by_rule(out)["wcag-2.5.8/size-24"] == ("error", 1, 1)
+    assert "open findings: 1 error, 6 warning, 0 note" in flat
     # --show error still lists the waived error, so a reviewer sees what was waived and why.
     assert main(["check", "screens", "--width", "80", "--today", "2026-12-01", "--show", "error"]) == 1
-    assert "WAIVED wcag22-aa/target-size" in capsys.readouterr().out
+    assert "waived wcag-2.5.8/size-24" in capsys.readouterr().out
 
 
 def test_an_expired_waiver_counts_again_and_says_so(screens: Path, capsys: pytest.CaptureFixture[str]) -> None:
     (screens / "tapgauge.toml").write_text(WAIVER)
     assert main(["check", "screens", "--width", "80", "--today", "2027-04-01"]) == 1
     flat = " ".join(capsys.readouterr().out.split())
-    assert "WAIVED" not in flat and "expired on 2027-03-31" in flat
-    assert "open findings: 2 error, 6 warning, 0 info" in flat
+    assert "waived wcag" not in flat and "expired on 2027-03-31" in flat
+    assert "open findings: 2 error, 6 warning, 0 note" in flat

@@ -63,7 +63,7 @@ def _record(labels: list[str], message: str) -> dict[str, Any]:
                    "xdpi": None, "ydpi": None, "ppi_source": None},
         "rulesets": [], "reach": None, "notices": ["区画の境界線が二重に記録されています。最初のものを使いました。"],
         "targets": targets,
-        "summary": {"targets": len(targets), "pass": 0, "fail": len(targets), "exempt": 0, "unmeasurable": 0,
+        "summary": {"targets": len(targets), "pass": 0, "fail": len(targets), "exempt": 0, "partial": 0,
                     "unchecked": 0},
     }
 
@@ -103,7 +103,7 @@ def test_continued_lines_keep_their_hanging_indent() -> None:
     messages: list[str] = []
     in_message = False
     for _, r in _block(lines):
-        if r.startswith("WARNING"):
+        if r.startswith("warning "):
             in_message = False  # a finding line (it may continue unindented) ...
         elif r.startswith("  "):
             in_message = True  # ... then its message, two cells in

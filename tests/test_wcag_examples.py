@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from conftest import check_boxes
 
-AA = ["wcag22-aa"]
+AA = ["wcag-2.5.8"]
 
 
 def statuses(boxes: list[tuple[int, int, int, int]]) -> list[str]:

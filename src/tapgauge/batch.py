@@ -23,12 +23,13 @@ from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.difficulty import WIDTH_MODELS
 from tapgauge.jsontext import dumps
 from tapgauge.measure import MeasureOptions
-from tapgauge.model import DeviceHints, InputError, Severity
+from tapgauge.model import OLD_SEVERITY_WORDS, DeviceHints, InputError, Severity
 from tapgauge.pipeline import Settings, default_jobs, iter_results, record_one
 from tapgauge.profiles import DEFAULT_PROFILES, apply_params, parse_start, select_profiles
 from tapgauge.readers import ReadOptions
 from tapgauge.readers.classes import default_class_map, load_class_map
 from tapgauge.readers.marked import DEFAULT_MARKER, parse_marker
+from tapgauge.renames import current, notice
 from tapgauge.report.output import atomic_text, write_atomic
 from tapgauge.report.records import EXIT_ERROR, Report
 from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
@@ -161,7 +162,15 @@ def prepare(rules: str | None, density: str | None, scale: str | None, ppi: str 
             raise ValueError(f"--jobs {jobs}: expected 1 or more worker processes")
         config = load_config(Path.cwd())
         level = Severity.parse(fail_level) if fail_level else (config.fail_level or Severity.ERROR)
-        chosen = select_rulesets(rules.split(",") if rules else list(config.rules or DEFAULT_RULESETS))
+        if fail_level and fail_level.strip().lower() in OLD_SEVERITY_WORDS:
+            say(f"--fail-level {fail_level}: the severity is now called {Severity.parse(fail_level).label!r}; "
+                "the old word is read in this version only")
+        ids = [x.strip() for x in rules.split(",")] if rules else list(config.rules or DEFAULT_RULESETS)
+        for old in ids:
+            said = notice(old, "--rules: rule set")
+            if said:
+                say(said)
+        chosen = select_rulesets([current(x) for x in ids])
         read = read_options(config, classes, marker, scope)
         scoring = make_scoring(config, profiles, params, start, width_model)
         waivers = Waivers(config.waivers, config.base, parse_day(today))
@@ -171,6 +180,8 @@ def prepare(rules: str | None, density: str | None, scale: str | None, ppi: str 
     except (InputError, ValueError) as exc:
         say(str(exc))
         return EXIT_ERROR
+    for said in config.notices:
+        say(said)
     return Run(settings, config, level, jobs or default_jobs())
 
 

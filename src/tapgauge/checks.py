@@ -234,7 +234,7 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
         fs = tuple(sorted(mine, key=lambda f: (-f.severity, f.rule_id)) if len(mine) > 1 else mine)
         status, reason = "pass", ""
         if fs:
-            status = "unmeasurable" if m.clipped_by[pos] else "fail"
+            status = "partial" if m.clipped_by[pos] else "fail"
             reason = m.clipped_by[pos] and f"{m.clipped_by[pos]}: its full size is unknown"
         results.append(TargetResult(target, status, reason, size_unit, size_mm, fs, tuple(notes.get(pos, []))))
     return ScreenResult(m.screen, m.device, tuple(results), tuple(notices), tuple(applied))

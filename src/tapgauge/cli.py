@@ -82,7 +82,7 @@ FocusableOpt = Annotated[Optional[bool], typer.Option(
     "--include-focusable/--clickable-only",
     help="Also take as targets Android nodes that are focusable but not clickable and iOS 'Other' elements with a label.")]
 FailLevelOpt = Annotated[Optional[str], typer.Option(
-    metavar="LEVEL", help="Lowest severity that fails the run: error, warning or info. Default: error.")]
+    metavar="LEVEL", help="Lowest severity that fails the run: error, warning or note. Default: error.")]
 QuietOpt = Annotated[bool, typer.Option(
     "--quiet", "-q", help="No summary line on stderr (errors are still printed).")]
 JobsOpt = Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")]
@@ -133,7 +133,7 @@ def check(
     app_package: AppPackageOpt = None,
     include_focusable: FocusableOpt = None,
     show: Annotated[Optional[str], typer.Option(
-        metavar="LEVEL", help="List in the table only findings at or above this severity (error, warning, info); "
+        metavar="LEVEL", help="List in the table only findings at or above this severity (error, warning, note); "
         "screens with none are left out. Totals still count everything.")] = None,
     quiet: QuietOpt = False,
 ) -> None:
@@ -471,26 +471,29 @@ def capture_cmd(
 
 
 @app.command("rules")
-def list_rules() -> None:
+def list_rules(
+    width: Annotated[Optional[int], typer.Option(help="Width in columns (default: the terminal's, or 80).")] = None,
+) -> None:
     """List the built-in rule sets, their rules and published sources."""
-    console = Console(highlight=False)
+    from tapgauge.report.table import _wrap as wrap  # wraps by display width, with a hanging indent
+
+    cols = width or Console().width
+    lines: list[str] = []
     for rs in builtin_rulesets().values():
         default = " (default)" if rs.id in DEFAULT_RULESETS else ""
-        console.print(f"[bold]{rs.id}[/bold]{default}: {rs.title}", markup=True)
-        console.print(f"  platforms: {', '.join(rs.platforms)}", markup=False)
-        console.print(f"  source: {rs.source}", markup=False)
-        console.print(f"  {rs.url}", markup=False)
-        table = Table(show_edge=False, pad_edge=False, box=None, padding=(0, 2, 0, 2))
-        for col in ("rule id", "kind", "threshold", "severity"):
-            table.add_column(col)
+        lines += wrap(f"{rs.id}{default}: {rs.title}", cols, "  ")
+        lines += wrap(f"  platforms: {', '.join(rs.platforms)}", cols, "    ")
+        lines += wrap(f"  source: {rs.source}", cols, "    ")
+        lines += wrap(f"  {rs.url}", cols, "    ")
         for r in rs.rules:
             threshold = ", ".join(
                 f"miss <= {v:.0%}" if k == "max_miss" else f"{k} {v}" if isinstance(v, str) else f"{k} {v:g} {r.unit}"
                 for k, v in r.params if not isinstance(v, bool))
             extra = " + spacing exception" if dict(r.params).get("spacing_exception") else ""
-            table.add_row(r.id, r.kind, threshold + extra, r.severity.label)
-        console.print(table)
-        console.print()
+            lines.append(f"  {r.id}")  # whole on its own line, whatever the width: ids are copied into waivers
+            lines += wrap(f"      {r.severity.label}, {r.kind}: {threshold}{extra}", cols, "      ")
+        lines.append("")
+    typer.echo("\n".join(lines))
 
 
 # Placeholders in --help: plain words for what a value is (the library's default names the Python type).

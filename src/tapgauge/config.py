@@ -18,6 +18,7 @@ from tapgauge.device import parse_density, parse_ppi, parse_scale
 from tapgauge.model import DeviceHints, InputError, Severity
 from tapgauge.readers.classes import ClassMap, class_map_from
 from tapgauge.readers.marked import parse_marker
+from tapgauge.renames import current, notice
 from tapgauge.textfile import load_toml, read_text
 
 CONFIG_NAME = "tapgauge.toml"
@@ -58,7 +59,7 @@ class Waiver:
 
     screen: str  # glob on the screen path relative to the config folder
     target: str  # "id:...", "label:..." or "class:..."
-    rule: str  # glob on rule ids, e.g. "wcag22-aa/target-size" or "wcag22-aa/*"
+    rule: str  # glob on rule ids, e.g. "wcag-2.5.8/size-24" or "wcag-2.5.8/*"
     reason: str
     author: str
     expires: dt.date | None
@@ -90,6 +91,7 @@ class Config:
     waivers: tuple[Waiver, ...] = ()
     gate: GateSettings = GateSettings()
     raw: dict[str, Any] = field(default_factory=dict)
+    notices: tuple[str, ...] = ()  # old ids it used, read under their new names
 
     @property
     def base(self) -> Path:
@@ -133,6 +135,7 @@ class _Reader:
 
     def __init__(self, path: Path, text: str) -> None:
         self.path, self.text = path, text
+        self.notices: list[str] = []  # old ids read under their new names
 
     def line(self, key: str, nth: int = 0) -> int | None:
         hits = list(re.finditer(rf"^\s*{re.escape(key)}\s*=", self.text, re.MULTILINE))
@@ -200,7 +203,8 @@ def load_config(start: Path) -> Config:
         raise r.bad("project", "must be a non-empty string naming the project (baselines carry it)")
     rules = r.strings(table, "rules")
     if rules is not None:
-        rules = tuple(str(path.parent / x) if x.endswith(".toml") else x for x in rules)
+        r.notices += [n for x in rules if (n := notice(x, f"{path}:{r.line('rules') or '?'}: rule set"))]
+        rules = tuple(str(path.parent / x) if x.endswith(".toml") else current(x) for x in rules)
     profiles = r.strings(table, "profiles")
     if profiles is not None:
         profiles = tuple(str(path.parent / x) if x.endswith(".toml") else x for x in profiles)
@@ -237,12 +241,13 @@ def load_config(start: Path) -> Config:
             raise r.bad("match", "each [[devices]] needs match = \"PATTERN\" (relative to this file)", n)
         hints = r.device({k: v for k, v in entry.items() if k != "match"}, "devices", nth=n)
         patterns.append(DevicePattern(entry["match"], hints))
+    waivers = _waivers(r, table.get("waivers", []))  # before the notices are taken: it adds to them
     return Config(
         path=path, project=project, rules=rules, fail_level=fail_level, profiles=profiles,
         marker=str(marker) if marker is not None else None, classes=classes,
         all_windows=table.get("all_windows"), app_package=app_package, include_focusable=table.get("include_focusable"),
         devices=DeviceDefaults(path.parent, tuple(patterns), fallback),
-        waivers=_waivers(r, table.get("waivers", [])), gate=_gate(r, table.get("gate", {})), raw=table,
+        waivers=waivers, gate=_gate(r, table.get("gate", {})), raw=table, notices=tuple(r.notices),
     )
 
 
@@ -265,8 +270,11 @@ def _waivers(r: _Reader, raw: Any) -> tuple[Waiver, ...]:
         expires = w.get("expires")
         if expires is not None and not (isinstance(expires, dt.date) and not isinstance(expires, dt.datetime)):
             raise r.bad("expires", "must be a TOML date such as 2027-03-31 (no quotes)", n)
-        out.append(Waiver(w["screen"], w["target"], w["rule"], w["reason"].strip(), w["author"].strip(), expires,
-                          r.line("screen", n)))
+        said = notice(w["rule"], f"{r.path}:{r.line('rule', n) or '?'}: waiver rule")
+        if said:
+            r.notices.append(said)
+        out.append(Waiver(w["screen"], w["target"], current(w["rule"]), w["reason"].strip(), w["author"].strip(),
+                          expires, r.line("screen", n)))
     return tuple(out)
 
 

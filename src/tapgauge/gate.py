@@ -101,7 +101,7 @@ def write_baseline(out: TextIO, report: Report, screen_id: Callable[[dict[str, A
             "format": BASELINE_FORMAT, "version": BASELINE_VERSION, "project": project,
             "tool": {"name": "tapgauge", "version": __version__},
             "fail_level": report.fail_level,
-            "failing_from": Severity.INFO.label,  # "failing" lists open findings of every severity
+            "failing_from": Severity.NOTE.label,  # "failing" lists open findings of every severity
             "rulesets": [r["id"] for r in report.rulesets],
             "profiles": [p["id"] for p in report.profiles],
             "screens": screens,

@@ -32,8 +32,13 @@ class InputError(Exception):
         return (InputError, (self.path, self.message, self.line))
 
 
+OLD_SEVERITY_WORDS = {"info": "note"}  # read for one version after the rename (0.2); never written
+
+
 class Severity(IntEnum):
-    INFO = 1
+    """SARIF 2.1.0's open vocabulary for how much a finding matters (section 3.27.10)."""
+
+    NOTE = 1
     WARNING = 2
     ERROR = 3
 
@@ -43,8 +48,9 @@ class Severity(IntEnum):
 
     @classmethod
     def parse(cls, text: str) -> Severity:
+        word = text.strip().lower()
         try:
-            return cls[text.strip().upper()]
+            return cls[OLD_SEVERITY_WORDS.get(word, word).upper()]
         except KeyError:
             names = ", ".join(s.label for s in cls)
             raise ValueError(f"unknown severity {text!r} (expected one of: {names})") from None
@@ -209,8 +215,8 @@ class Difficulty(NamedTuple):
 
 class TargetResult(NamedTuple):
     target: Target
-    status: str  # pass | fail | exempt | unmeasurable | unchecked
-    reason: str  # why unchecked/unmeasurable, "" otherwise
+    status: str  # pass | fail | exempt | partial | unchecked
+    reason: str  # why unchecked/partial, "" otherwise
     size_unit: tuple[float, float]  # width, height in the platform unit
     size_mm: tuple[float, float] | None
     findings: tuple[Finding, ...]
@@ -229,4 +235,4 @@ class ScreenResult:
     reach_unit: str = ""  # unit of Difficulty.width and .distance: "mm", or dp/pt without a ppi
 
 
-STATUSES = ("pass", "fail", "exempt", "unmeasurable", "unchecked")
+STATUSES = ("pass", "fail", "exempt", "partial", "unchecked")

@@ -17,7 +17,7 @@ from tapgauge.model import InputError, Rule, RuleSet, Severity
 from tapgauge.ruledata import rules_dir
 from tapgauge.textfile import load_toml
 
-DEFAULT_RULESETS = ("wcag22-aa", "android-guideline", "apple-guideline")
+DEFAULT_RULESETS = ("wcag-2.5.8", "android-guidance", "apple-hig")
 UNITS = ("dp", "pt", "mm")
 _ID = re.compile(r"^[a-z0-9][a-z0-9.-]*$")
 _SET_KEYS = {"id": str, "title": str, "source": str, "url": str, "platforms": list}

@@ -4,7 +4,7 @@ Element names are the element types (XCUIElementTypeButton, ...); frames are x, 
 width, height in points, possibly fractional; attributes that are nil are left out;
 the tree may sit inside an extra wrapper element. Frames are the elements' full
 frames, not clipped to their scroll view, so a half-scrolled cell still has its true
-size: nothing here is "unmeasurable" for clipping.
+size: nothing here is "partial" for clipping.
 """
 
 from __future__ import annotations

@@ -100,7 +100,7 @@ def write_gate_table(record: dict[str, Any], width: int | None = None, color: bo
     console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color, highlight=False)
     for b in blocks(record):
         head = Text()
-        head.append(f"{b.verdict.upper():<7}", style=_STYLE[b.verdict])
+        head.append(f"{b.verdict:<7}", style=_STYLE[b.verdict])
         head.append(f"{b.screen}" + (f": {b.name}" if b.name and b.causes != (b.name,) else ""), style="bold")
         console.print(head)
         for line in b.causes:

@@ -24,7 +24,7 @@ from tapgauge.report.verdict import summary_line
 OVERLAY_WIDTH = 400  # px: pictures are drawn small so a report of hundreds of screens stays light
 CROP_SIZE = 96  # px: the longer side of a target's crop
 PROFILE_MARKS = (("#0072B2", "circle"), ("#D55E00", "square"), ("#009E73", "diamond"), ("#CC79A7", "triangle"))
-STATUS_WORDS = {"pass": "pass", "fail": "fail", "unmeasurable": "unmeasurable", "exempt": "exempt (waived)",
+STATUS_WORDS = {"pass": "pass", "fail": "fail", "partial": "partial", "exempt": "exempt (waived)",
                 "unchecked": "unchecked"}
 
 CSS = """
@@ -50,8 +50,8 @@ thead th { background: var(--band); }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
 .badge { display: inline-block; padding: 0 6px; border-radius: 3px; font-weight: 600; border: 1px solid currentColor; }
 .s-fail { color: #a23c00; } .s-pass { color: #005a8c; } .s-exempt { color: #00684c; }
-.s-unmeasurable { color: #8a3466; } .s-unchecked { color: var(--muted); }
-.sev-error { font-weight: 700; } .sev-info { color: var(--muted); }
+.s-partial { color: #8a3466; } .s-unchecked { color: var(--muted); }
+.sev-error { font-weight: 700; } .sev-note { color: var(--muted); }
 #filters fieldset { display: inline-block; border: 1px solid var(--line); margin: 0 12px 8px 0; padding: 6px 10px; }
 #filters label { margin-right: 10px; white-space: nowrap; }
 article.screen { border-top: 2px solid var(--ink); padding-top: 12px; margin-top: 22px; }
@@ -142,7 +142,7 @@ def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, st
         fx = fy = small.width / screen["width"] if screen["width"] else 1.0
     crops: dict[int, str] = {}
     for t in screen["targets"]:
-        if t["status"] not in ("fail", "unmeasurable"):
+        if t["status"] not in ("fail", "partial"):
             continue
         l, top, r, b = t["bounds"][0] * fx, t["bounds"][1] * fy, t["bounds"][2] * fx, t["bounds"][3] * fy
         pad = max(12.0, 0.3 * max(r - l, b - top))
@@ -231,7 +231,7 @@ def _count_findings(report: Report) -> tuple[int, Counter[str], Counter[str]]:
                 total += 1
                 if f["waiver"]:
                     waived[f["rule"]] += 1
-                elif t["status"] in ("fail", "unmeasurable"):
+                elif t["status"] in ("fail", "partial"):
                     open_[f["rule"]] += 1
     return total, open_, waived
 
@@ -241,7 +241,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
     s = report.summary
     n_findings, rule_counts, waived = _count_findings(report)
     rulesets = [rs["id"] for rs in report.rulesets]
-    statuses = ("fail", "unmeasurable", "exempt")
+    statuses = ("fail", "partial", "exempt")
     h: list[str] = [
         "<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
         '<meta name="viewport" content="width=device-width, initial-scale=1">',
@@ -250,7 +250,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
         "<header>", "<h1>Touch target report</h1>",
         '<ul class="totals">'
         f"<li>{s['screens']} screens</li><li>{s['targets']} targets</li><li>{s['pass']} pass</li>"
-        f"<li>{s['fail']} fail</li><li>{s['unmeasurable']} unmeasurable</li><li>{s['exempt']} exempt</li>"
+        f"<li>{s['fail']} fail</li><li>{s['partial']} partial</li><li>{s['exempt']} exempt</li>"
         f"<li>{s['unchecked']} unchecked</li><li>{n_findings} findings</li></ul>",
         f'<p class="verdict"><strong>{escape(summary_line(s, report.fail_level))}.</strong></p>',
         '<p class="note">Measured by tapgauge from the screens listed below. These figures support, and do not '
@@ -262,7 +262,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
     # Summary by screen and by rule.
     h += ['<section aria-labelledby="h-summary">', '<h2 id="h-summary">Summary</h2>',
           "<table><caption>By screen</caption><thead><tr>"
-          + "".join(f'<th scope="col">{c}</th>' for c in ("Screen", "Targets", "Pass", "Fail", "Unmeasurable",
+          + "".join(f'<th scope="col">{c}</th>' for c in ("Screen", "Targets", "Pass", "Fail", "Partial",
                                                            "Exempt", "Unchecked", "Findings"))
           + "</tr></thead><tbody>"]
     out.write("\n".join(h) + "\n")
@@ -270,7 +270,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
         title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
         c = scr["summary"]
         out.write(f'<tr><th scope="row"><a href="#s-{k}">{escape(title)}</a></th>'
-                  + "".join(f'<td class="num">{c[x]}</td>' for x in ("targets", "pass", "fail", "unmeasurable",
+                  + "".join(f'<td class="num">{c[x]}</td>' for x in ("targets", "pass", "fail", "partial",
                                                                     "exempt", "unchecked"))
                   + f'<td class="num">{sum(len(t["findings"]) for t in scr["targets"])}</td></tr>\n')
     h = ["</tbody></table>"]
@@ -329,14 +329,14 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
 def _screen_html(k: int, scr: dict[str, Any], report: Report, rows: list[dict[str, str]]) -> str:
     title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
     d = scr["device"]
-    failing = [t for t in scr["targets"] if t["status"] in ("fail", "unmeasurable")]
+    failing = [t for t in scr["targets"] if t["status"] in ("fail", "partial")]
     overlay, crops = _pictures(scr, report)
     device = f"{scr['platform']}, {scr['width']:g} x {scr['height']:g} {scr['coordinates']}, " + (
         f"{d['density_dpi']:g} dpi" if d["density_dpi"] else f"scale {d['scale']:g}" if d["scale"] else "points")
     if d["xdpi"]:
         device += ", physical size known"
     alt = (f"Screen {Path(scr['path']).name} with its {len(scr['targets'])} targets outlined: "
-           f"{len(failing)} failing or unmeasurable, marked in thick vermilion with '!' or dashed pink with '?'; "
+           f"{len(failing)} failing or partial, marked in thick vermilion with '!' or dashed pink with '?'; "
            "passing targets in thin blue; minimum squares dashed; spacing circles in light blue.")
     out = [f'<article class="screen" id="s-{k}" data-screen="{escape(title)}">', f"<h3>{escape(title)}</h3>",
            f'<p class="device">{escape(device)}</p>', '<div class="pair">',

@@ -3,7 +3,7 @@
 A case fails when the target has open (unwaived) findings at or above the run's fail
 level, so the failure count is the summary's count of failing targets and agrees with
 the exit code. Findings below the level leave the case passed and are listed in its
-output. A case is skipped when its target was not compared: unchecked, unmeasurable,
+output. A case is skipped when its target was not compared: unchecked, partial,
 or every finding waived. Unreadable inputs, and a run that compared nothing, are
 errors. The root element carries the totals, so this writer reads a spooled report twice.
 """
@@ -23,8 +23,8 @@ def _outcome(t: dict[str, Any], level: Severity) -> tuple[str, Any]:
     """One test case's result: ("skipped", why), ("failure", findings at the level) or ("passed", findings below)."""
     if t["status"] == "unchecked":
         return "skipped", f"unchecked: {t['reason']}"
-    if t["status"] == "unmeasurable":
-        return "skipped", f"unmeasurable: {t['reason']}"
+    if t["status"] == "partial":
+        return "skipped", f"partial: {t['reason']}"
     if t["status"] == "exempt":
         return "skipped", f"exempt: waived: {t['findings'][0]['waiver']['reason']}"
     failing = open_at(t, level)

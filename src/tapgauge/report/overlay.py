@@ -39,7 +39,7 @@ class Mark:
 MARKS = {
     "pass": Mark((0, 114, 178), 2, (), "", "pass: solid blue"),
     "fail": Mark((213, 94, 0), 5, (), "!", "fail: thick solid vermilion, tag '!'"),
-    "unmeasurable": Mark((204, 121, 167), 3, (10, 6), "?", "unmeasurable: dashed pink, tag '?'"),
+    "partial": Mark((204, 121, 167), 3, (10, 6), "?", "partial: dashed pink, tag '?'"),
     "unchecked": Mark((110, 110, 110), 2, (3, 5), "-", "unchecked: dotted grey, tag '-'"),
     "exempt": Mark((0, 158, 115), 3, (12, 4, 3, 4), "=", "exempt: dash-dot green, tag '='"),
 }
@@ -206,7 +206,7 @@ def render(screen: dict[str, Any], report: Report, image: Image.Image | None,
     spacing = _spacing_rules(report)
     size_rules = _size_rules(report)
     device = screen["device"]
-    order = sorted(screen["targets"], key=lambda t: ["unchecked", "pass", "exempt", "unmeasurable", "fail"].index(t["status"]))
+    order = sorted(screen["targets"], key=lambda t: ["unchecked", "pass", "exempt", "partial", "fail"].index(t["status"]))
     for t in order:
         l, top, r, b = t["bounds"]
         box = (l * fx, top * fy, r * fx, b * fy)
@@ -216,7 +216,7 @@ def render(screen: dict[str, Any], report: Report, image: Image.Image | None,
             if failed or any(n.startswith(rule_id) for n in t["notes"]):
                 dx, dy = _to_coords(size, "dp", device)
                 _circle(draw, cx, cy, dx / 2 * fx, dy / 2 * fy, CIRCLE, s, dashed=failed)
-        if t["status"] in ("fail", "unmeasurable"):
+        if t["status"] in ("fail", "partial"):
             sized = [f for f in t["findings"] if f["rule"] in size_rules and (f["unit"] != "mm" or device["xdpi"])]
             if sized:
                 # The square of the most severe finding (findings come sorted most severe first).
@@ -249,7 +249,7 @@ def _with_legend(base: Image.Image, screen: dict[str, Any], s: int, notes: tuple
     font = _font(12 * s)
     rows = [f"{screen['path']}" + (f" :: {screen['name']}" if screen["name"] else "")]
     counts = screen["summary"]
-    rows.append(", ".join(f"{counts[k]} {k}" for k in ("pass", "fail", "unmeasurable", "unchecked", "exempt") if counts[k]))
+    rows.append(", ".join(f"{counts[k]} {k}" for k in ("pass", "fail", "partial", "unchecked", "exempt") if counts[k]))
     for note in notes:  # alignment notes are long and matter: wrapped to the picture, never cut off
         rows += _fit_text(note, font, base.width - 16 * s)
     line_h = 18 * s

@@ -170,7 +170,7 @@ def screen_totals(rec: dict[str, Any]) -> Totals:
 def open_at(t: dict[str, Any], level: Severity) -> list[dict[str, Any]]:
     """A target's open findings at or above the fail level: what fails a run, and a JUnit case.
 
-    Only a failing target has them: an unmeasurable one was not measured reliably
+    Only a failing target has them: a partial one (only partly in view) was not measured reliably
     enough to fail, and an exempt one has every finding waived.
     """
     if t["status"] != "fail":

@@ -1,8 +1,8 @@
 """SARIF 2.1.0 (OASIS) for code-scanning dashboards.
 
-One result per finding on a failing, unmeasurable or exempt target. Levels come from
-the rule's severity in SARIF's own words (error -> "error", warning -> "warning",
-info -> "note"; SARIF 2.1.0 section 3.27.10). A finding on a target that could not be
+One result per finding on a failing, partial or exempt target. Levels are the
+rule's severity, whose words are SARIF's own (error, warning, note; SARIF 2.1.0 section
+3.27.10). A finding on a target that could not be
 measured reliably is `kind: "review"` with level "none" (section 3.27.9: a result that is
 not a failure has no other level): a person must look, but it fails nothing. Waived
 findings carry an external suppression with the waiver's reason. The invocation
@@ -23,7 +23,7 @@ from tapgauge.jsontext import write_streamed
 from tapgauge.report.records import Report
 from tapgauge.report.verdict import verdict_text
 
-LEVELS = {"error": "error", "warning": "warning", "info": "note"}
+LEVELS = {"error": "error", "warning": "warning", "note": "note"}  # the same words, by design
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
 
 
@@ -39,14 +39,14 @@ def _results(report: Report, index: dict[str, int], artifact: Callable[[str], in
         sid = f"{s['path']}::{s['name']}" if s["name"] else s["path"]
         k = _image_scale(s)
         for t in s["targets"]:
-            if t["status"] not in ("fail", "unmeasurable", "exempt"):
+            if t["status"] not in ("fail", "partial", "exempt"):
                 continue
             for f in t["findings"]:
                 region: dict[str, Any] = {"startLine": t["line"]} if t["line"] else {}
                 location = {"physicalLocation": {"artifactLocation": {"uri": s["path"], "index": artifact(s["path"])},
                                                  **({"region": region} if region else {})},
                             "logicalLocations": [{"name": f"#{t['ordinal']} {t['name']}", "kind": "element"}]}
-                review = t["status"] == "unmeasurable"
+                review = t["status"] == "partial"
                 result: dict[str, Any] = {
                     "ruleId": f["rule"],
                     "ruleIndex": index[f["rule"]],

@@ -20,7 +20,7 @@ from tapgauge.model import SEVERITY_BY_LABEL
 from tapgauge.report.records import Report
 from tapgauge.report.verdict import summary_line
 
-_SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
+_SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "note": "cyan"}
 
 
 def _num(v: float) -> str:
@@ -157,10 +157,10 @@ def _shown(f: dict[str, Any], show: int) -> bool:
 
 
 def _screen_rows(s: dict[str, Any], width: int, color: bool, show: int = 0) -> list[str]:
-    """Failing, unmeasurable and waived targets as a two-column block: the target, then its findings
+    """Failing, partial and waived targets as a two-column block: the target, then its findings
     (only those at or above `show`, a Severity value; 0 shows all)."""
     unit = s["device"]["unit"]
-    rows = [t for t in s["targets"] if t["status"] in ("fail", "unmeasurable", "exempt")
+    rows = [t for t in s["targets"] if t["status"] in ("fail", "partial", "exempt")
             and any(_shown(f, show) for f in t["findings"])]
     if not rows:
         return []
@@ -170,14 +170,14 @@ def _screen_rows(s: dict[str, Any], width: int, color: bool, show: int = 0) -> l
                 (f"{_num(t['size']['width'])} x {_num(t['size']['height'])} {unit}", "dim")]
         if t["size_mm"] is not None:
             left.append((f"{_num(t['size_mm']['width'])} x {_num(t['size_mm']['height'])} mm", "dim"))
-        if t["status"] == "unmeasurable":
-            left.append(("unmeasurable: clipped", "magenta"))
+        if t["status"] == "partial":
+            left.append(("partial: may reach out of view", "magenta"))
         right = []
         for f in t["findings"]:
             if not _shown(f, show):
                 continue
             w = f["waiver"]
-            word, style = ("WAIVED", "dim") if w else (f["severity"].upper(), _SEVERITY_STYLE[f["severity"]])
+            word, style = ("waived", "dim") if w else (f["severity"], _SEVERITY_STYLE[f["severity"]])
             right.append((f"{word} {f['rule']}: {_num(f['measured'])} / {f['required']:g} {f['unit']}"
                           + (f" ({f['severity']})" if w else ""), style))
             right.append((f"  {f['message']}", "dim"))
@@ -291,7 +291,7 @@ def write_table(report: Report, out: TextIO, width: int | None = None, color: bo
                 console.print(hard)
         counts = s["summary"]
         reasons = Counter(t["reason"].split(" as #")[0] for t in s["targets"] if t["status"] == "unchecked")
-        line = f"{counts['pass']} pass, {counts['fail']} fail, {counts['unmeasurable']} unmeasurable"
+        line = f"{counts['pass']} pass, {counts['fail']} fail, {counts['partial']} partial"
         if counts["exempt"]:
             line += f", {counts['exempt']} exempt (waived)"
         if counts["unchecked"]:

@@ -34,7 +34,7 @@ def summary_line(s: dict[str, Any], fail_level: str) -> str:
     f = s["findings"]
     return (
         f"{_plural(s['screens'], 'screen')}, {_plural(s['targets'], 'target')}: {s['pass']} pass, {s['fail']} fail, "
-        f"{s['unmeasurable']} unmeasurable, {s['exempt']} exempt, {s['unchecked']} unchecked; open findings: "
-        f"{f['error']} error, {f['warning']} warning, {f['info']} info; {s['errors']} unreadable; "
+        f"{s['partial']} partial, {s['exempt']} exempt, {s['unchecked']} unchecked; open findings: "
+        f"{f['error']} error, {f['warning']} warning, {f['note']} note; {s['errors']} unreadable; "
         + verdict_text(s, fail_level)
     )
