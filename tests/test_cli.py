@@ -26,7 +26,7 @@ def in_repo(monkeypatch: pytest.MonkeyPatch) -> Path:
 
 
 def _schema() -> dict:
-    return json.loads(resources.files("tapgauge").joinpath("schema/report-v1.schema.json").read_text())
+    return json.loads(resources.files("tapgauge").joinpath("schema/report-v2.schema.json").read_text())
 
 
 def run_json(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, dict]:

@@ -261,7 +261,7 @@ def test_ios_record_keeps_points_per_inch_and_the_scale_source(tmp_path: Path,
                                                                capsys: pytest.CaptureFixture[str]) -> None:
     # 460 pixels per inch at 3 pixels per point is 460 / 3 points per inch (arithmetic).
     _, report, _ = _json([str(_ios(tmp_path, "ppi: 460\n"))], capsys)
-    schema = json.loads(resources.files("tapgauge").joinpath("schema/report-v1.schema.json").read_text())
+    schema = json.loads(resources.files("tapgauge").joinpath("schema/report-v2.schema.json").read_text())
     jsonschema.validate(report, schema)
     device = report["screens"][0]["device"]
     assert device["xdpi"] == pytest.approx(460 / 3) and device["scale"] == 3

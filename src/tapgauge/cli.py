@@ -290,6 +290,9 @@ def gate_cmd(
             f"gate against this project's own baseline, or pass --renamed-from {shlex.quote(str(recorded))} "
             "if the project was renamed")
         raise typer.Exit(EXIT_ERROR)
+    if header["version"] == 1:
+        say(f"{baseline}: written by tapgauge 0.1; read with its rule ids under their new names, and without the "
+            "approach that tells a move from a loss (every slower reach counts); re-record it to drop this notice")
     overrides = {k: v for k, v in {"size_tolerance": size_tolerance, "miss_tolerance": miss_tolerance,
                                    "time_tolerance_ms": time_tolerance, "missing": missing,
                                    "moved": moved}.items() if v is not None}
@@ -298,7 +301,7 @@ def gate_cmd(
         with interruptible(), progress() as tick:
             report = run.report(paths, tick)
             verdict = gate(report, screen_namer(paths), baseline, _replace(run.config.gate, **overrides), run.level,
-                           one_root=len(paths) == 1)
+                           one_root=len(paths) == 1, version=header["version"])
     except InputError as exc:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
@@ -320,9 +323,10 @@ def gate_cmd(
     raise typer.Exit(code or record["summary"]["exit_code"])
 
 
-@app.command("flow")
-def flow_cmd(
-    flow: Annotated[Path, typer.Argument(help="A flow file: 'from', 'screen' and 'tap' lines (see README).")],
+@app.command("journey")
+def journey_cmd(
+    journey: Annotated[Path, typer.Argument(
+        help="A journey file: 'start', 'screen' and 'touch' lines (see README).")],
     profiles: ProfilesOpt = None,
     param: ParamOpt = None,
     density: DensityOpt = None,
@@ -332,20 +336,29 @@ def flow_cmd(
     fmt: RecordFormatOpt = "table",
     output: RecordOutputOpt = None,
 ) -> None:
-    """Predict the pointing time and misses of a task: the targets it taps, in order."""
-    from tapgauge.flows import parse_flow, run_flow
-    from tapgauge.report.table import write_flow_table
+    """Predict the pointing time and misses of a task: the targets it touches, in order."""
+    from tapgauge.journeys import parse_journey, run_journey
+    from tapgauge.report.table import write_journey_table
 
     try:
         table_or_json(fmt)
         config = load_config(Path.cwd())
         scoring = make_scoring(config, profiles, param or [], "centre", width_model)
-        record = run_flow(parse_flow(flow), list(scoring.profiles), common_device(density, scale, ppi),
-                          config.devices, read_options(config), width_model)
+        record = run_journey(parse_journey(journey), list(scoring.profiles), common_device(density, scale, ppi),
+                             config.devices, read_options(config), width_model)
     except (InputError, ValueError) as exc:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
-    raise typer.Exit(emit_record(record, fmt, output, write_flow_table))
+    raise typer.Exit(emit_record(record, fmt, output, write_journey_table))
+
+
+@app.command("flow", hidden=True, add_help_option=False,
+             context_settings={"allow_extra_args": True, "ignore_unknown_options": True})
+def renamed_flow_cmd() -> None:
+    """Renamed to `tapgauge journey`; kept one version so old scripts fail with the new name."""
+    say("`tapgauge flow` is renamed to `tapgauge journey`; a .journey file has 'start', 'screen' and "
+        "'touch' lines (see README)")
+    raise typer.Exit(EXIT_ERROR)
 
 
 @app.command("compare")
@@ -502,7 +515,7 @@ METAVARS = {"density": "DPI", "scale": "SCALE", "ppi": "PPI", "rules": "RULES", 
             "param": "PROFILE.KEY=VALUE", "start": "START", "width_model": "MODEL", "today": "DATE", "jobs": "N",
             "app_package": "PACKAGE", "baseline": "FILE", "size_tolerance": "DP", "miss_tolerance": "P",
             "time_tolerance": "MS", "missing": "report|fail", "moved": "report|fail", "name": "NAME", "form": "FORM",
-            "chart": "FILE", "serial": "SERIAL", "out": "FOLDER", "trials": "TRIALS", "flow": "FILE", "a": "A",
+            "chart": "FILE", "serial": "SERIAL", "out": "FOLDER", "trials": "TRIALS", "journey": "FILE", "a": "A",
             "b": "B", "paths": "PATHS"}
 
 

@@ -52,10 +52,10 @@ def _figures(screens: list[ScreenResult], profile: str) -> dict[str, Any]:
                 if d.profile == profile:
                     n += 1
                     times += d.time_ms
-                    if d.hit is None:
+                    if d.miss is None:
                         has_miss = False
                     else:
-                        misses += 1 - d.hit
+                        misses += d.miss
     return {"targets": n, "mean_time_ms": round(times / n, 1) if n else None,
             "mean_miss": round(misses / n, 4) if n and has_miss else None}
 
@@ -99,8 +99,8 @@ def _differences(sides: list[tuple[str, ScreenResult, ScreenResult]], profiles: 
                 db = next((d for d in tb.difficulty if d.profile == p), None) if tb else None
                 row["by_profile"].append({
                     "profile": p,
-                    "miss_A": None if da is None or da.hit is None else round(1 - da.hit, 4),
-                    "miss_B": None if db is None or db.hit is None else round(1 - db.hit, 4),
+                    "miss_A": None if da is None else da.miss,
+                    "miss_B": None if db is None else db.miss,
                     "time_A": None if da is None else da.time_ms, "time_B": None if db is None else db.time_ms,
                 })
             rows.append(row)

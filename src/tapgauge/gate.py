@@ -24,10 +24,12 @@ from tapgauge.config import GateSettings, relative_to_base
 from tapgauge.identity import fingerprint
 from tapgauge.jsontext import write_streamed
 from tapgauge.model import SEVERITY_BY_LABEL, InputError, Severity
+from tapgauge.renames import current
 from tapgauge.report.records import Report
 
 BASELINE_FORMAT = "tapgauge-baseline"
-BASELINE_VERSION = 1
+BASELINE_VERSION = 2
+READS_VERSIONS = (1, 2)  # version 1 (tapgauge 0.1) is read with its rule ids under their new names
 
 
 def _failing(t: dict[str, Any]) -> list[str]:
@@ -49,13 +51,14 @@ def baseline_entry(s: dict[str, Any], sid: str) -> dict[str, Any]:
             "failing": _failing(t), "why": {f["rule"]: f["message"] for f in t["findings"] if not f["waiver"]},
             "size": [t["size"]["width"], t["size"]["height"]], "unit": unit,
             "size_mm": None if t["size_mm"] is None else [t["size_mm"]["width"], t["size_mm"]["height"]],
-            "difficulty": {d["profile"]: {"time_ms": d["time_ms"], "miss": d["miss_probability"],
-                                          "distance": d["distance"], "width": d["width"]}
+            "difficulty": {d["profile"]: {"time_ms": d["time_ms"], "miss": d["miss_probability"]}
                            for d in t["difficulty"]},
+            "approach": None if t["approach"] is None else {"distance": t["approach"]["distance"],
+                                                            "width": t["approach"]["width"]},
         })
     entry: dict[str, Any] = {"targets": sorted(targets, key=lambda x: x["key"])}
     if s["reach"]:
-        entry["reach_unit"] = s["reach"]["unit"]
+        entry["reach_unit"] = s["reach"]["approach_unit"]
     entry["path"] = s["path"]  # where the screen was read from in this run (not stored in a baseline)
     return entry
 
@@ -151,9 +154,9 @@ def check_baseline(path: Path) -> dict[str, Any]:
     header = read_header(path)
     if header.get("format") != BASELINE_FORMAT:
         raise InputError(path, f"not a tapgauge baseline (expected \"format\": \"{BASELINE_FORMAT}\")")
-    if header.get("version") != BASELINE_VERSION:
-        raise InputError(path, f"baseline version {header.get('version')!r}; this tapgauge reads version "
-                               f"{BASELINE_VERSION}: re-record it")
+    if header.get("version") not in READS_VERSIONS:
+        raise InputError(path, f"baseline version {header.get('version')!r}; this tapgauge reads versions "
+                               f"{', '.join(map(str, READS_VERSIONS))}: re-record it with `tapgauge baseline`")
     if not isinstance(header.get("project"), str):
         raise InputError(path, "baseline is damaged: it names no project; re-record it")
     return header
@@ -179,7 +182,16 @@ def _target_problem(t: Any) -> str:
             isinstance(d, dict) and _is_number(d.get("time_ms")) and (d.get("miss") is None or _is_number(d["miss"]))
             for d in diff.values()):
         return "has 'difficulty' that is not profile -> {time_ms, miss}"
+    approach = t.get("approach")
+    if approach is not None and not (isinstance(approach, dict) and _is_number(approach.get("distance"))
+                                     and _is_number(approach.get("width"))):
+        return "has 'approach' that is not {distance, width}"
     return ""
+
+
+def _from_version_1(t: dict[str, Any]) -> dict[str, Any]:
+    """A version-1 target entry as version 2 has it: rule ids renamed, no approach recorded."""
+    return {**t, "failing": [current(r) for r in t["failing"]], "approach": None}
 
 
 def _checked_entry(path: Path, sid: str, entry: Any) -> dict[str, Any]:
@@ -192,11 +204,14 @@ def _checked_entry(path: Path, sid: str, entry: Any) -> dict[str, Any]:
     return entry
 
 
-def baseline_screens(path: Path, fh: IO[bytes]) -> Iterator[tuple[str, dict[str, Any]]]:
-    """(screen id, entry) from a baseline file, one at a time, each checked."""
+def baseline_screens(path: Path, fh: IO[bytes], version: int = BASELINE_VERSION) -> Iterator[tuple[str, dict[str, Any]]]:
+    """(screen id, entry) from a baseline file, one at a time, each checked (and brought up to date)."""
     try:
         for sid, entry in ijson.kvitems(fh, "screens", use_float=True):
-            yield sid, _checked_entry(path, sid, entry)
+            entry = _checked_entry(path, sid, entry)
+            if version == 1:
+                entry = {**entry, "targets": [_from_version_1(t) for t in entry["targets"]]}
+            yield sid, entry
     except ijson.JSONError as exc:
         raise InputError(path, f"baseline is not valid JSON ({_json_error(exc)}); re-record it") from None
 
@@ -272,7 +287,7 @@ def check_level(header: dict[str, Any], path: Path, level: Severity) -> None:
 
 
 def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], path: Path,
-         settings: GateSettings, level: Severity, one_root: bool = False) -> Verdict:
+         settings: GateSettings, level: Severity, one_root: bool = False, version: int = BASELINE_VERSION) -> Verdict:
     """The changes of a report against the baseline at `path`, screen by screen, at fail level `level`.
 
     The run and the baseline are read side by side: a baseline is written in run
@@ -303,7 +318,7 @@ def gate(report: Report, screen_id: Callable[[dict[str, Any]], str], path: Path,
         moved.extend(m)
 
     with path.open("rb") as fh:
-        stored = baseline_screens(path, fh)
+        stored = baseline_screens(path, fh, version)
         for sid, entry in _entries(report, screen_id, one_root):
             if sid in waiting_base:
                 compare(sid, entry, waiting_base.pop(sid))
@@ -340,12 +355,12 @@ def _size(v: list[float]) -> str:
     return f"{v[0]:g} x {v[1]:g}"
 
 
-def _own_time(old: dict[str, Any], shrink: float, line: tuple[float, float] | None) -> float | None:
+def _own_time(old: dict[str, Any] | None, shrink: float, line: tuple[float, float] | None) -> float | None:
     """Predicted time with the target where it was, reached the way it was (the baseline's distance and
     approach), at its size now: what the target itself lost, with a move taken out. The width along
     the old approach scales with the target's size; `shrink` is the smaller of its width and height
     ratios (new / old), so a target narrowed on either axis is never let off."""
-    if line is None or old.get("distance") is None or old.get("width") is None or old["width"] * shrink <= 0:
+    if line is None or old is None or old["width"] * shrink <= 0:
         return None
     a, b = line
     return a + b * math.log2(old["distance"] / (old["width"] * shrink) + 1)
@@ -399,14 +414,14 @@ def compare_screen(sid: str, new_screen: dict[str, Any], old_screen: dict[str, A
                 elif d["miss"] < o["miss"] - settings.miss_tolerance:
                     better.append(change("easier", f"{profile}: miss {o['miss']:.0%} -> {d['miss']:.0%}"))
             if d["time_ms"] > o["time_ms"] + settings.time_tolerance_ms:
-                own = _own_time(o, shrink, scale.lines.get(profile))
+                own = _own_time(b.get("approach"), shrink, scale.lines.get(profile))
                 if own is not None and own <= o["time_ms"] + settings.time_tolerance_ms + REROUNDING_MS:
                     slower.append((profile, o["time_ms"], d["time_ms"], own))
                 else:
                     worse.append(change("harder", f"{profile}: time {o['time_ms']:.0f} -> {d['time_ms']:.0f} ms"
                                         + (f" ({own:.0f} ms at its old distance)" if own is not None else "")))
         if slower:
-            o, d = next(iter(b["difficulty"].values())), next(iter(t["difficulty"].values()))
+            o, d = b["approach"], t["approach"]
             times = "; ".join(f"{p} {old:.0f} -> {now:.0f} ms ({own:.0f} at its old distance)"
                               for p, old, now, own in slower)
             moved.append(change("moved", f"moved farther from the start point ({o['distance']:.1f} -> "

@@ -201,16 +201,20 @@ class Finding(NamedTuple):
     waiver: tuple[str, str, str | None] | None = None  # (reason, author, expires) when waived
 
 
-class Difficulty(NamedTuple):
-    """A target's predicted pointing difficulty for one profile, from the screen's start point."""
+class Approach(NamedTuple):
+    """How a target is reached from the screen's start point: the same for every profile."""
 
-    profile: str
     width: float  # along the approach (or as the width model says), in ScreenResult.reach_unit
     distance: float  # start to the target's centre, same unit
-    id_bits: float
+    id_bits: float  # log2(distance / width + 1)
+
+
+class Difficulty(NamedTuple):
+    """A target's predicted pointing time and miss chance for one profile."""
+
+    profile: str
     time_ms: float
-    hit: float | None  # probability a centred aim lands inside; None without physical size
-    miss: float | None = None  # 1 - hit, rounded like hit (4 decimals)
+    miss: float | None  # probability a centred aim lands outside; None without physical size
 
 
 class TargetResult(NamedTuple):
@@ -222,6 +226,7 @@ class TargetResult(NamedTuple):
     findings: tuple[Finding, ...]
     notes: tuple[str, ...] = ()  # e.g. passed by the spacing exception
     difficulty: tuple[Difficulty, ...] = ()
+    approach: Approach | None = None
 
 
 @dataclass(frozen=True)
@@ -232,7 +237,7 @@ class ScreenResult:
     notices: tuple[str, ...]
     rulesets: tuple[str, ...]  # ids of the rule sets applied to this screen
     start: tuple[str, float, float] | None = None  # reach start: name, x, y in the platform unit
-    reach_unit: str = ""  # unit of Difficulty.width and .distance: "mm", or dp/pt without a ppi
+    reach_unit: str = ""  # unit of Approach.width and .distance: "mm", or dp/pt without a ppi
 
 
 STATUSES = ("pass", "fail", "exempt", "partial", "unchecked")

@@ -6,15 +6,16 @@ model can give hit probabilities), else in the platform unit (ID and time only).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 from itertools import repeat
 
 import numpy as np
 
-from tapgauge.difficulty import predict
+from tapgauge.difficulty import hit_probability, movement_time, predict
 from tapgauge.geometry import as_boxes
 from tapgauge.measure import to_unit
-from tapgauge.model import Difficulty, ScreenResult, TargetResult
+from tapgauge.model import Approach, Difficulty, ScreenResult, TargetResult
 from tapgauge.profiles import Profile, start_points
 
 
@@ -26,15 +27,12 @@ def start_in_coords(sr: ScreenResult, start: str, xy: tuple[float, float] | None
     return xy[0] * k, xy[1] * k
 
 
-def _hit_and_miss(hit: np.ndarray) -> tuple[list[float | None], list[float | None]]:
-    """Hit and miss probabilities rounded to 4 decimals; None where unknown (no physical size)."""
-    h = np.round(hit, 4)
-    if np.isnan(h).all():
-        return [None] * len(h), [None] * len(h)
-    known = ~np.isnan(h)
-    hits, misses = h.tolist(), np.round(1 - h, 4).tolist()
-    return ([v if k else None for v, k in zip(hits, known.tolist())],
-            [v if k else None for v, k in zip(misses, known.tolist())])
+def _misses(hit: np.ndarray) -> list[float | None]:
+    """Miss probabilities rounded to 4 decimals; None where unknown (no physical size)."""
+    miss = np.round(1 - hit, 4)
+    if np.isnan(miss).all():
+        return [None] * len(miss)
+    return [None if math.isnan(v) else v for v in miss.tolist()]
 
 
 def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tuple[float, float] | None,
@@ -50,24 +48,27 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
     boxes = as_boxes([sr.targets[k].target.bounds for k in scored])
     reach = to_unit(boxes, device, unit)
     mm = reach if unit == "mm" else None
-    per_profile = [
-        predict(reach, (float(start_reach[0]), float(start_reach[1])), p.intercept_ms, p.slope_ms_per_bit,
-                mm, p.alpha, p.sigma_a_mm, width_model)
-        for p in profiles
-    ]
-    # Round whole arrays once: per-element round() dominated this stage on large batches.
-    columns = [
-        (np.round(pred.width, 4).tolist(), np.round(pred.distance, 4).tolist(), np.round(pred.id_bits, 4).tolist(),
-         np.round(pred.time_ms, 2).tolist(), *_hit_and_miss(pred.hit))
-        for pred in per_profile
-    ]
-    # Every profile's Difficulty records built column-wise, then dealt out per target by zip.
-    per_target = zip(*(map(Difficulty, repeat(p.id), *column) for p, column in zip(profiles, columns)))
+    origin = (float(start_reach[0]), float(start_reach[1]))
+    # The approach (width, distance, ID) is the profiles' common ground: computed once; a profile
+    # adds only its line (time) and its spread (miss).
+    geometry = predict(reach, origin, 0.0, 0.0, None, 0.0, 0.0, width_model)
+    approaches = list(map(Approach, np.round(geometry.width, 4).tolist(), np.round(geometry.distance, 4).tolist(),
+                          np.round(geometry.id_bits, 4).tolist()))
+    columns = []
+    for p in profiles:
+        time = np.round(movement_time(geometry.id_bits, p.intercept_ms, p.slope_ms_per_bit), 2).tolist()
+        if mm is None:
+            miss: list[float | None] = [None] * len(scored)
+        else:
+            widths, heights = mm[:, 2] - mm[:, 0], mm[:, 3] - mm[:, 1]
+            miss = _misses(hit_probability(widths, heights, p.alpha, p.sigma_a_mm))
+        columns.append(list(map(Difficulty, repeat(p.id), time, miss)))
+    per_target = zip(*columns)
     targets = list(sr.targets)
-    for k, difficulty in zip(scored, per_target):
+    for k, difficulty, approach in zip(scored, per_target, approaches):
         t = targets[k]  # built directly: _replace costs more than the rest of this loop
         targets[k] = TargetResult(t.target, t.status, t.reason, t.size_unit, t.size_mm, t.findings, t.notes,
-                                  difficulty)
+                                  difficulty, approach)
     return replace(sr, targets=tuple(targets), start=(start, round(float(start_unit[0]), 2), round(float(start_unit[1]), 2)),
                    reach_unit="mm" if unit == "mm" else device.unit)
 

@@ -161,7 +161,7 @@ def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, st
 def _chart(screen: dict[str, Any], report: Report) -> str:
     """Inline SVG: predicted time against ID for this screen's targets, with each profile's line."""
     profiles = report.profiles
-    points = [(p["id"], d["id_bits"], d["time_ms"]) for t in screen["targets"] for d in t["difficulty"]
+    points = [(p["id"], t["approach"]["id_bits"], d["time_ms"]) for t in screen["targets"] for d in t["difficulty"]
               for p in profiles if p["id"] == d["profile"]]
     if not points:
         return ""

@@ -30,10 +30,11 @@ from tapgauge.model import (
     TargetResult,
 )
 from tapgauge.profiles import Profile
+from tapgauge.report.verdict import DISCLAIMER
 from tapgauge.waivers import Waivers, outcomes, waiver_records
 
 REPORT_FORMAT = "tapgauge-report"
-REPORT_VERSION = 1
+REPORT_VERSION = 2
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
@@ -97,12 +98,9 @@ def target_record(tr: TargetResult, key: str) -> dict[str, Any]:
         "reason": tr.reason,
         "findings": [_finding_record(f) for f in tr.findings],
         "notes": list(tr.notes),
-        "difficulty": [
-            {"profile": d.profile, "width": d.width, "distance": d.distance, "id_bits": d.id_bits,
-             "time_ms": d.time_ms, "hit_probability": d.hit,
-             "miss_probability": d.miss}
-            for d in tr.difficulty
-        ],
+        "approach": None if tr.approach is None else {
+            "width": tr.approach.width, "distance": tr.approach.distance, "id_bits": tr.approach.id_bits},
+        "difficulty": [{"profile": d.profile, "time_ms": d.time_ms, "miss_probability": d.miss} for d in tr.difficulty],
     }
 
 
@@ -126,7 +124,7 @@ def screen_record(sr: ScreenResult) -> dict[str, Any]:
         },
         "rulesets": list(sr.rulesets),
         "reach": None if sr.start is None else {
-            "from": sr.start[0], "x": sr.start[1], "y": sr.start[2], "unit": sr.reach_unit,
+            "from": sr.start[0], "x": sr.start[1], "y": sr.start[2], "unit": d.unit, "approach_unit": sr.reach_unit,
         },
         "notices": list(sr.notices),
         "targets": targets,
@@ -333,7 +331,7 @@ class Report:
 
     def head(self) -> dict[str, Any]:
         return {"format": REPORT_FORMAT, "version": REPORT_VERSION, "tool": {"name": "tapgauge", "version": __version__},
-                "fail_level": self.fail_level, "rulesets": self.rulesets, "profiles": self.profiles}
+                "disclaimer": DISCLAIMER, "fail_level": self.fail_level, "rulesets": self.rulesets, "profiles": self.profiles}
 
     def document(self, screens: Any, final: bool) -> dict[str, Any]:
         """The report document (JSON contract) with `screens` in place of the screen list."""

@@ -225,7 +225,7 @@ def _difficulty_table(s: dict[str, Any], profiles: list[str]) -> Table | None:
 
     def hardness(t: dict[str, Any]) -> tuple[float, float]:
         d = t["difficulty"][0]
-        return (d["miss_probability"] if d["miss_probability"] is not None else 0.0, d["time_ms"])
+        return (d["miss_probability"] if d["miss_probability"] is not None else 0.0, d["time_ms"])  # first profile
 
     reach = s["reach"]
     table = Table(title=f"hardest to hit from {reach['from']} (time ms / miss %)", title_justify="left",
@@ -239,7 +239,7 @@ def _difficulty_table(s: dict[str, Any], profiles: list[str]) -> Table | None:
         for d in t["difficulty"]:
             miss = "-" if d["miss_probability"] is None else f"{d['miss_probability'] * 100:.0f}%"
             cells.append(f"{d['time_ms']:.0f} / {miss}")
-        table.add_row(f"#{t['ordinal']} {t['name']}", f"{t['difficulty'][0]['id_bits']:.2f}", *cells)
+        table.add_row(f"#{t['ordinal']} {t['name']}", f"{t['approach']['id_bits']:.2f}", *cells)
     return table
 
 
@@ -312,12 +312,13 @@ def write_table(report: Report, out: TextIO, width: int | None = None, color: bo
     console.print(Text(summary_line(report.summary, report.fail_level), style="bold"))
 
 
-def write_flow_table(record: dict[str, Any], width: int | None = None, color: bool = False) -> str:
-    """A tap sequence: one row per step, time and hit chance per profile, totals at the end."""
+def write_journey_table(record: dict[str, Any], width: int | None = None, color: bool = False) -> str:
+    """A journey: one row per touch, time and hit chance per profile, totals at the end."""
     buf = io.StringIO()
     console = Console(file=buf, width=width or 80, force_terminal=color, no_color=not color, highlight=False)
     profiles = [t["profile"] for t in record["totals"]]
-    console.print(Text(f"{record['flow']}: {len(record['steps'])} taps from {record['from']}", style="bold"))
+    console.print(Text(f"{record['journey']}: {len(record['steps'])} touches, starting at {record['start']}",
+                       style="bold"))
     table = Table(header_style="bold", pad_edge=False, show_edge=False)
     table.add_column("#", justify="right")
     table.add_column("target", overflow="fold", max_width=24)
