@@ -8,7 +8,7 @@ import pytest
 
 from tapgauge.cli import main
 
-COMMANDS = ("check", "baseline", "gate", "flow", "compare", "calibrate", "config", "capture", "rules")
+COMMANDS = ("check", "baseline", "gate", "journey", "compare", "calibrate", "config", "capture", "rules")
 
 
 @pytest.mark.parametrize("command", COMMANDS)

@@ -206,10 +206,10 @@ def test_huge_sidecars_and_bad_text_files_are_refused(tmp_path: Path, capsys: py
         fh.truncate(MAX_BYTES + 1)
     with pytest.raises(InputError, match="device sidecar is .* bytes"):
         read_screens(tmp_path / "s.xml")
-    flow = tmp_path / "t.flow"
-    flow.write_bytes(b"from centre\n\xff\xfe tap #1\n")
-    assert main(["flow", str(flow)]) == 2
-    assert "t.flow:2: flow file is not UTF-8" in capsys.readouterr().err
+    journey = tmp_path / "t.journey"
+    journey.write_bytes(b"start centre\n\xff\xfe touch #1\n")
+    assert main(["journey", str(journey)]) == 2
+    assert "t.journey:2: journey file is not UTF-8" in capsys.readouterr().err
 
 
 def test_regression_csv_with_a_bare_carriage_return(tmp_path: Path) -> None:
@@ -304,10 +304,10 @@ def test_regression_baseline_difficulty_without_time(tmp_path: Path, capsys: pyt
     assert "baseline is damaged" in capsys.readouterr().err
 
 
-# The project's own text inputs, fuzzed the same way: rule sets, profiles, configs, flows, trial logs.
+# The project's own text inputs, fuzzed the same way: rule sets, profiles, configs, journeys, trial logs.
 RULESET = (Path(__file__).resolve().parent.parent / "rules" / "rulesets" / "wcag-2.5.8.toml").read_bytes()
 PROFILE = (Path(__file__).resolve().parent.parent / "rules" / "profiles" / "typical-adult.toml").read_bytes()
-FLOW = (DEMO / "book_a_plot.flow").read_text().replace("screen android/", f"screen {DEMO}/android/").encode()
+JOURNEY = (DEMO / "book_a_plot.journey").read_text().replace("screen android/", f"screen {DEMO}/android/").encode()
 TRIALS = (Path(__file__).resolve().parent / "data" / "fitts1954_summary.csv").read_bytes()
 CONFIG = b"""project = "fernwick-allotments"
 rules = ["wcag-2.5.8", "android-guidance"]
@@ -355,11 +355,11 @@ def test_fuzzed_configs_never_crash(tmp_path: Path, capsys: pytest.CaptureFixtur
 
 @FUZZ
 @given(mutations)
-def test_fuzzed_flows_and_trial_logs_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str],
-                                                 cuts: list[tuple[int, bytes]]) -> None:
-    (tmp_path / "f.flow").write_bytes(_mutate(FLOW, cuts))
+def test_fuzzed_journeys_and_trial_logs_never_crash(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                    cuts: list[tuple[int, bytes]]) -> None:
+    (tmp_path / "f.journey").write_bytes(_mutate(JOURNEY, cuts))
     (tmp_path / "t.csv").write_bytes(_mutate(TRIALS, cuts))
-    _no_crash(["flow", str(tmp_path / "f.flow"), "-f", "json"], capsys, (0, 2))
+    _no_crash(["journey", str(tmp_path / "f.journey"), "-f", "json"], capsys, (0, 2))
     _no_crash(["calibrate", str(tmp_path / "t.csv"), "-f", "json"], capsys, (0, 2))
 
 
@@ -475,7 +475,7 @@ def test_profiles_with_values_of_the_wrong_type_never_crash(tmp_path: Path, caps
     (tmp_path / "p.toml").write_text(text)
     _no_crash(["check", str(DEMO / "android" / "plot_detail.xml"), "--profiles", str(tmp_path / "p.toml"), "-f", "json"],
               capsys, (0, 1, 2))
-    _no_crash(["flow", str(tmp_path / "missing.flow"), "--profiles", str(tmp_path / "p.toml")], capsys, (2,))
+    _no_crash(["journey", str(tmp_path / "missing.journey"), "--profiles", str(tmp_path / "p.toml")], capsys, (2,))
 
 
 @pytest.mark.parametrize("args", [

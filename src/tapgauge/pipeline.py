@@ -237,7 +237,7 @@ def iter_results(paths: list[Path], settings: Settings, jobs: int = 1,
 
 def run_check(paths: list[Path], settings: Settings, jobs: int = 1,
               progress: Callable[[int, int], None] | None = None) -> RunResult:
-    """Whole results in memory: for small runs that need the objects (compare, flows)."""
+    """Whole results in memory: for small runs that need the objects (compare, journeys)."""
     screens: list[ScreenResult] = []
     errors: list[InputError] = []
     for item in iter_results(paths, settings, jobs, progress):

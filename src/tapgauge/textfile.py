@@ -1,6 +1,6 @@
 """Reading an input file whole, bounded: one place for the size limit and the read errors.
 
-Every reader, rule, profile, config, flow and trial file goes through here, so a huge
+Every reader, rule, profile, config, journey and trial file goes through here, so a huge
 file is refused before it is read and a read failure is an InputError naming the file.
 """
 
