@@ -13,7 +13,7 @@ from typing import Any, TextIO
 
 from tapgauge.difficulty import hit_probability
 from tapgauge.report.records import Report
-from tapgauge.report.verdict import summary_line
+from tapgauge.report.verdict import DISCLAIMER, summary_line
 
 COLUMNS = (
     "screen", "target", "label", "resource_id", "class", "rule_set", "rule", "severity", "status",
@@ -157,8 +157,7 @@ def write_markdown(report: Report, out: TextIO, width: int | None = None) -> Non
     out.write("\n".join([
         "# Touch target findings", "",
         md_text(summary_line(report.summary, report.fail_level)) + ".", "",
-        "Measured by tapgauge. These figures support, and do not replace, an accessibility audit under the "
-        "law that applies and by a qualified person.", "",
+        f"Measured by tapgauge. {DISCLAIMER}", "",
         "| " + " | ".join(MD_COLUMNS) + " |",
         "|" + "|".join("---" for _ in MD_COLUMNS) + "|",
     ]) + "\n")

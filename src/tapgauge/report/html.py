@@ -19,7 +19,7 @@ from typing import Any, TextIO
 
 from tapgauge.report.findings import first_profile, rule_index, screen_rows
 from tapgauge.report.records import Report
-from tapgauge.report.verdict import summary_line
+from tapgauge.report.verdict import DISCLAIMER, summary_line
 
 OVERLAY_WIDTH = 400  # px: pictures are drawn small so a report of hundreds of screens stays light
 CROP_SIZE = 96  # px: the longer side of a target's crop
@@ -253,8 +253,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
         f"<li>{s['fail']} fail</li><li>{s['partial']} partial</li><li>{s['exempt']} exempt</li>"
         f"<li>{s['unchecked']} unchecked</li><li>{n_findings} findings</li></ul>",
         f'<p class="verdict"><strong>{escape(summary_line(s, report.fail_level))}.</strong></p>',
-        '<p class="note">Measured by tapgauge from the screens listed below. These figures support, and do not '
-        "replace, an accessibility audit under the law that applies and by a qualified person. Some WCAG "
+        f'<p class="note">Measured by tapgauge from the screens listed below. {escape(DISCLAIMER)} Some WCAG '
         "exceptions (equivalent control, inline, platform-set size, essential) need a person's judgement; "
         "they appear here as waivers with their reason.</p>",
         "</header>", "<main>",

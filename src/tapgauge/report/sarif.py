@@ -21,7 +21,7 @@ from tapgauge import __version__
 from tapgauge.identity import fingerprint
 from tapgauge.jsontext import write_streamed
 from tapgauge.report.records import Report
-from tapgauge.report.verdict import verdict_text
+from tapgauge.report.verdict import DISCLAIMER, verdict_text
 
 LEVELS = {"error": "error", "warning": "warning", "note": "note"}  # the same words, by design
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
@@ -83,8 +83,7 @@ def _driver(rules: list[dict[str, Any]]) -> dict[str, Any]:
             {"id": r["id"], "name": r["id"].replace("/", "-"),
              "shortDescription": {"text": r["summary"]},
              "fullDescription": {"text": f"{r['summary']}. Source: {r['source']}."},
-             "help": {"text": f"{r['summary']}. Source: {r['source']} ({r['url']}). tapgauge's figures support, "
-                              "and do not replace, an audit under the law that applies and by a qualified person."},
+             "help": {"text": f"{r['summary']}. Source: {r['source']} ({r['url']}). {DISCLAIMER}"},
              "helpUri": r["url"],
              "defaultConfiguration": {"level": LEVELS[r["severity"]]},
              "properties": {"kind": r["kind"], "unit": r["unit"], "params": r["params"]}}

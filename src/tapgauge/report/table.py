@@ -18,7 +18,7 @@ from rich.text import Text
 
 from tapgauge.model import SEVERITY_BY_LABEL
 from tapgauge.report.records import Report
-from tapgauge.report.verdict import summary_line
+from tapgauge.report.verdict import DISCLAIMER, summary_line
 
 _SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "note": "cyan"}
 
@@ -310,6 +310,7 @@ def write_table(report: Report, out: TextIO, width: int | None = None, color: bo
     for k, line in enumerate(_rule_lines(report, opened, waived, least)):
         console.print(Text(line, style="bold" if k < 2 else ""), soft_wrap=True)
     console.print(Text(summary_line(report.summary, report.fail_level), style="bold"))
+    console.print(Text(DISCLAIMER, style="dim"))
 
 
 def write_journey_table(record: dict[str, Any], width: int | None = None, color: bool = False) -> str:

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from typing import Any
 
+# Where a finding could bear on safety or legal compliance, every format says what the figures are for.
 DISCLAIMER = ("These figures support, and do not replace, an accessibility audit under the law that applies "
               "and by a qualified person.")
 
