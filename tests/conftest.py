@@ -22,7 +22,7 @@ def screen_of(boxes: list[tuple[int, int, int, int]], platform: str = "android")
     which one is on top is known, not presumed.
     """
     targets = tuple(
-        Target(ordinal=k, bounds=b, cls="android.widget.Button", label=f"t{k}", resource_id="", paint_rank=k + 1,
+        Target(number=k, bounds=b, cls="android.widget.Button", label=f"t{k}", resource_id="", paint_rank=k + 1,
                path=((k, True),))
         for k, b in enumerate(boxes)
     )

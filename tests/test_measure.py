@@ -21,7 +21,7 @@ def _run(targets: list[Target]) -> list[tuple[str, str]]:
 
 
 def _t(k: int, bounds: tuple[int, int, int, int], rank: int, scroll: tuple = ()) -> Target:
-    return Target(ordinal=k, bounds=bounds, cls="Button", label=f"t{k}", resource_id="", paint_rank=rank,
+    return Target(number=k, bounds=bounds, cls="Button", label=f"t{k}", resource_id="", paint_rank=rank,
                   scroll_ancestors=scroll)
 
 

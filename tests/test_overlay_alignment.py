@@ -107,7 +107,7 @@ def test_box_outside_a_larger_screenshot_is_refused(tmp_path: Path, capsys: pyte
     dump = _android_dump(tmp_path, boxes, (1080, 2000), (1080, 2340))
     _, pic, err = _check(dump, tmp_path / "ov", capsys)
     assert "cannot align the overlay with oven_timer.png: screen 1080x2000 px, picture 1080x2340 px " \
-           "(target #2 reaches outside the picture)" in " ".join(err.split())
+           "(target #3 reaches outside the picture)" in " ".join(err.split())
     assert pic.getpixel((1000, 100)) == WIREFRAME
 
 
@@ -160,7 +160,7 @@ def test_annotated_screenshot_boxes_are_its_own_pixels(tmp_path: Path, capsys: p
 
 def _record(coords: str, size: tuple[float, float], boxes: list[tuple[float, float, float, float]],
             path: str = "garden/shed.xml", image: str | None = "garden/shed.png") -> dict[str, Any]:
-    targets = [{"ordinal": k, "bounds": list(b), "status": "fail", "findings": [], "notes": []}
+    targets = [{"number": k, "bounds": list(b), "status": "fail", "findings": [], "notes": []}
                for k, b in enumerate(boxes)]
     return {"path": path, "name": "", "coordinates": coords, "width": size[0], "height": size[1], "image": image,
             "targets": targets, "device": {"coords_per_unit": 2.75, "xdpi": None, "ydpi": None},

@@ -253,7 +253,7 @@ def test_waived_findings_are_marked_with_reason_author_and_expiry(screens: Path,
     assert "waived wcag-2.5.8/size-24: 16.0 / 24 dp (error)" in flat
     assert ("waived: Equivalent control: seeds per cell can also be typed in "
             "(Accessibility review, 2026-11, until 2027-03-31)") in " ".join(_right(out).split())
-    plus = out[out.index("#2 More seeds"):]
+    plus = out[out.index("#3 More seeds"):]
     assert "ERROR" not in plus.split("───")[0]  # its own block: waived, not open
     assert _by_rule(out)["wcag-2.5.8/size-24"] == ("error", 1, 1)
     assert "open findings: 1 error, 6 warning, 0 note" in flat

@@ -52,7 +52,7 @@ def _record(labels: list[str], message: str) -> dict[str, Any]:
         finding = {"rule": "material/min-size", "severity": "warning", "measured": 32.0, "required": 48,
                    "unit": "dp", "message": message.format(label=label), "waiver": None}
         targets.append({
-            "ordinal": k, "key": f"k{k}", "line": k + 2, "class": "android.widget.Button", "label": label,
+            "number": k, "key": f"k{k}", "line": k + 2, "class": "android.widget.Button", "label": label,
             "resource_id": "", "name": label, "bounds": [0, 100 * k, 88, 100 * k + 88],
             "size": {"width": 32.0, "height": 32.0}, "size_mm": None, "status": "fail", "reason": "",
             "findings": [finding], "notes": [], "difficulty": []})
@@ -115,7 +115,7 @@ def test_continued_lines_keep_their_hanging_indent() -> None:
     # Nothing lost or doubled: the message lines, joined, are the messages.
     joined = "".join(r[2:].rstrip() for r in messages)
     assert joined.replace(" ", "") == "".join(MESSAGE.format(label=lb) for lb in LABELS).replace(" ", "")
-    # A label that wraps continues under its name, past the "#n " ordinal.
+    # A label that wraps continues under its name, past the "#n " number.
     left = [lt.rstrip() for lt, _ in _block(lines) if lt.strip()]
     first = next(k for k, t in enumerate(left) if t.startswith("#0 "))
     assert left[first + 1].startswith("   ") and not left[first + 1].startswith("    ")

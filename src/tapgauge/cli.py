@@ -86,7 +86,7 @@ FailLevelOpt = Annotated[Optional[str], typer.Option(
 QuietOpt = Annotated[bool, typer.Option(
     "--quiet", "-q", help="No summary line on stderr (errors are still printed).")]
 JobsOpt = Annotated[Optional[int], typer.Option("--jobs", "-j", help="Worker processes (default: the number of cores).")]
-# gate, flow and compare write one record, as a table or as JSON.
+# gate, journey and compare write one record, as a table or as JSON.
 RecordFormatOpt = Annotated[str, typer.Option("--format", "-f", help="table or json.")]
 RecordOutputOpt = Annotated[Optional[Path], typer.Option("--output", "-o", help="Write here (atomically) instead of stdout.")]
 

@@ -204,10 +204,10 @@ def find_target(screen: Screen, step: Step, journey: Path) -> int:
     """Index of the one checked-or-not target the step names; errors list close matches."""
     targets = screen.targets
     if step.how == "index":
-        k = int(step.value)
-        if k < len(targets):
-            return k
-        raise InputError(journey, f"{screen.path.name} has targets #0 to #{len(targets) - 1}; there is no #{k}",
+        n = int(step.value)  # numbers as reports show them, from 1
+        if 1 <= n <= len(targets):
+            return n - 1
+        raise InputError(journey, f"{screen.path.name} has targets #1 to #{len(targets)}; there is no #{n}",
                          step.line)
     if step.how == "id":
         names = [_short_id(t) for t in targets]
@@ -218,7 +218,7 @@ def find_target(screen: Screen, step: Step, journey: Path) -> int:
     if len(hits) == 1:
         return hits[0]
     if len(hits) > 1:
-        which = ", ".join(f"#{targets[k].ordinal}" for k in hits)
+        which = ", ".join(f"#{targets[k].number}" for k in hits)
         raise InputError(journey, f"{step.how} {step.value!r} matches several targets on {screen.path.name} "
                                   f"({which}); name one by number", step.line)
     close = difflib.get_close_matches(step.value, [n for n in names if n], n=4, cutoff=0.5)
@@ -311,7 +311,7 @@ def run_journey(journey: Journey, profiles: list[Profile], flags: DeviceHints, c
             if hit is not None:
                 totals[p.id]["expected_misses"] += 1 - hit
                 totals[p.id]["all_hit"] *= hit
-        steps.append({"line": step.line, "screen": entry.screen.path.as_posix(), "target": target.ordinal,
+        steps.append({"line": step.line, "screen": entry.screen.path.as_posix(), "target": target.number,
                       "name": target.name, "selector": selector_text(step.how, step.value), "predictions": per})
         here = np.array([(box[0, 0] + box[0, 2]) / 2, (box[0, 1] + box[0, 3]) / 2])
     return {

@@ -86,7 +86,7 @@ class MeasuredScreen:
     def labels(self) -> list[str]:
         """How messages name each checked target ("#3 'Save'"), made once: findings name neighbours often."""
         if len(self._labels) != len(self.checked):
-            self._labels[:] = [f"#{t.ordinal} '{t.name}'" for t in map(self.screen.targets.__getitem__, self.checked)]
+            self._labels[:] = [f"#{t.number} '{t.name}'" for t in map(self.screen.targets.__getitem__, self.checked)]
         return self._labels
 
 
@@ -199,7 +199,7 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
     for k, t in enumerate(targets):
         if k not in unchecked and top_by_box[t.bounds] != k:
             on_top = targets[top_by_box[t.bounds]]
-            unchecked[k] = f"same bounds as #{on_top.ordinal} '{on_top.name}', which is drawn over it"
+            unchecked[k] = f"same bounds as #{on_top.number} '{on_top.name}', which is drawn over it"
     candidates = [k for k in range(len(targets)) if k not in unchecked]
     unchecked.update(_covered_containers(targets, candidates, device))
     checked = tuple(k for k in candidates if k not in unchecked)
@@ -255,6 +255,6 @@ def _covered_containers(targets: tuple[Target, ...], candidates: list[int], devi
         side, _ = largest_free_square(np.array(container.bounds, dtype=float),
                                       as_boxes([targets[d].bounds for d in inner]))
         if side / device.coords_per_unit < COVERED_BELOW:
-            names = ", ".join(f"#{targets[d].ordinal}" for d in inner[:4]) + (" ..." if len(inner) > 4 else "")
+            names = ", ".join(f"#{targets[d].number}" for d in inner[:4]) + (" ..." if len(inner) > 4 else "")
             out[k] = f"covered by its own targets ({names}): not a target of its own"
     return out

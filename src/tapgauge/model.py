@@ -65,7 +65,7 @@ class Target(NamedTuple):
     A NamedTuple, like the other per-target records below: one is built per target.
     """
 
-    ordinal: int  # position among this screen's targets, document order
+    number: int  # the target's number as every report shows it: 1, 2, ... in document order
     bounds: Box  # in the screen's coordinates
     cls: str
     label: str  # visible text or accessibility description, may be ""

@@ -195,11 +195,11 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
     if not nodes:
         raise InputError(path, "no view nodes found; expected <node bounds=...> elements under <hierarchy>", root.sourceline)
     boxes = _boxes(raws, nodes, path)
-    if walk.reordered:  # document order gives stable ordinals whatever the paint order was
+    if walk.reordered:  # document order gives stable numbers whatever the paint order was
         doc_index = {el: k for k, el in enumerate(root.iter())}
         found.sort(key=lambda item: doc_index[item[0]])
     targets = []
-    for k, (el, rank, visible, scrollers, tree, window, (start, stop)) in enumerate(found):
+    for k, (el, rank, visible, scrollers, tree, window, (start, stop)) in enumerate(found, start=1):
         get = el.get
         label = (get("text") or get("content-desc") or "").strip()
         targets.append(Target(

@@ -45,7 +45,7 @@ def _screen(path: Path, image: Path, size: tuple[int, int], raws: list[Raw], cla
                                    f"{w}x{h} image", line)
         if not classes.is_target(cls, path, line):
             continue
-        targets.append(Target(ordinal=len(targets), bounds=(l, t, r, b), cls=cls, label=label, resource_id="",
+        targets.append(Target(number=len(targets) + 1, bounds=(l, t, r, b), cls=cls, label=label, resource_id="",
                               paint_rank=len(targets) + 1, line=line))
     return Screen(path=path, platform="", width=w, height=h, rotation=0, targets=tuple(targets), hints=hints,
                   coords="px", image=image, name=name)

@@ -134,7 +134,7 @@ def read_ios(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...], i
         raise InputError(path, "iOS element tree has no frames; expected x, y, width and height attributes "
                                "(in points) on the XCUIElementType* elements", root.sourceline)
     frame = walk.app_frame or (0.0, 0.0, walk.extent[0], walk.extent[1])
-    targets = tuple(Target(ordinal=k, **fields) for k, fields in enumerate(walk.found))
+    targets = tuple(Target(number=k, **fields) for k, fields in enumerate(walk.found, start=1))
     return Screen(path=path, platform="ios", width=frame[2], height=frame[3], rotation=0, targets=targets,
                   hints=hints, coords="pt", image=image, windows=(Window(frame, "", "", None), *walk.windows),
                   notices=_others_notice(walk.others, include_focusable))

@@ -150,7 +150,7 @@ def read_marked(path: Path, hue: float, hints: tuple[DeviceHints, ...]) -> Scree
                                "draw outlined or filled rectangles in the marker colour, or pass --marker")
     h, w = rgb.shape[:2]  # type: ignore[attr-defined]
     targets = tuple(
-        Target(ordinal=k, bounds=b, cls="marked box", label=f"box {k + 1}", resource_id="", paint_rank=k + 1)
+        Target(number=k + 1, bounds=b, cls="marked box", label=f"box {k + 1}", resource_id="", paint_rank=k + 1)
         for k, b in enumerate(boxes)
     )
     return Screen(path=path, platform="", width=w, height=h, rotation=0, targets=targets, hints=hints,

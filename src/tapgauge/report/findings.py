@@ -93,7 +93,7 @@ def screen_rows(s: dict[str, Any], rules: dict[str, dict[str, Any]], profile: st
         for f in t["findings"]:
             w = f["waiver"]
             rows.append({
-                "screen": screen, "target": f"#{t['ordinal']}", "label": t["label"],
+                "screen": screen, "target": f"#{t['number']}", "label": t["label"],
                 "resource_id": t["resource_id"], "class": t["class"],
                 "rule_set": f["rule"].split("/", 1)[0], "rule": f["rule"], "severity": f["severity"],
                 "status": t["status"], "measured": _num(f["measured"], 2), "required": _num(f["required"], 2),

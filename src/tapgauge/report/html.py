@@ -121,7 +121,7 @@ def _data_uri(img: Any, fmt: str = "JPEG", quality: int = 72) -> str:
 
 
 def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, str]]:
-    """The scaled overlay as a data URI, and a crop per failing target (by ordinal)."""
+    """The scaled overlay as a data URI, and a crop per failing target (by number)."""
     from PIL import Image
 
     from tapgauge.report.overlay import align, draw_overlay
@@ -154,7 +154,7 @@ def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, st
         k = CROP_SIZE / max(crop.width, crop.height)
         if k < 1:
             crop = crop.resize((max(1, round(crop.width * k)), max(1, round(crop.height * k))), Image.Resampling.LANCZOS)
-        crops[t["ordinal"]] = _data_uri(crop, "JPEG", quality=80)
+        crops[t["number"]] = _data_uri(crop, "JPEG", quality=80)
     return _data_uri(small, "PNG"), crops
 
 
@@ -349,8 +349,8 @@ def _screen_html(k: int, scr: dict[str, Any], report: Report, rows: list[dict[st
                                                                     "Status", "Predicted miss", "Fix or waiver"))
                    + "</tr></thead><tbody>")
         for row in rows:
-            ordinal = int(row["target"].lstrip("#"))
-            crop = crops.get(ordinal)
+            number = int(row["target"].lstrip("#"))
+            crop = crops.get(number)
             crop_html = (f'<img class="crop" loading="lazy" decoding="async" src="{crop}" alt="Close-up of target {escape(row["target"])} '
                          f'{escape(row["label"] or row["class"])}">' if crop else "")
             status = "exempt" if row["waiver"] else row["status"]

@@ -48,7 +48,7 @@ def _suite(s: dict[str, Any], level: Severity) -> etree._Element:
     title = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
     suite = etree.Element("testsuite", name=title)
     for t in s["targets"]:
-        case = etree.SubElement(suite, "testcase", name=f"#{t['ordinal']} {t['name']}",
+        case = etree.SubElement(suite, "testcase", name=f"#{t['number']} {t['name']}",
                                 classname=title.replace("/", "."))
         kind, detail = _outcome(t, level)
         if kind == "skipped":

@@ -159,7 +159,7 @@ def align(screen: dict[str, Any], picture: tuple[int, int]) -> Alignment:
     if abs(rx - ry) <= AGREE * max(rx, ry):
         k = (rx + ry) / 2
         return Alignment(k, k)
-    why = (f"target #{outside[0]['ordinal']} reaches outside the picture" if outside
+    why = (f"target #{outside[0]['number']} reaches outside the picture" if outside
            else f"scaled {rx:.3g}x across but {ry:.3g}x down")
     return Alignment(1.0, 1.0, refusal=f"cannot align the overlay with {shot}: {sizes} ({why}); "
                                        "wireframe drawn instead")
@@ -225,7 +225,7 @@ def render(screen: dict[str, Any], report: Report, image: Image.Image | None,
                 _rect(draw, (cx - sx * fx / 2, cy - sy * fy / 2, cx + sx * fx / 2, cy + sy * fy / 2), SQUARE, s, (6 * s, 4 * s))
         mark = MARKS[t["status"]]
         _rect(draw, box, mark.colour, mark.width * s, tuple(d * s for d in mark.dash))
-        tag = f"#{t['ordinal']}{(' ' + mark.glyph) if mark.glyph else ''}"
+        tag = f"#{t['number']}{(' ' + mark.glyph) if mark.glyph else ''}"
         tw = draw.textlength(tag, font=font)
         ty = box[1] - 13 * s if box[1] >= 13 * s else box[3]
         draw.rectangle([box[0], ty, box[0] + tw + 4 * s, ty + 13 * s], fill=mark.colour)

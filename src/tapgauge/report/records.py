@@ -84,7 +84,7 @@ def _finding_record(f: Finding) -> dict[str, Any]:
 def target_record(tr: TargetResult, key: str) -> dict[str, Any]:
     t = tr.target
     return {
-        "ordinal": t.ordinal,
+        "number": t.number,
         "key": key,
         "line": t.line,
         "class": t.cls,

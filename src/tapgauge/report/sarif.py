@@ -45,14 +45,14 @@ def _results(report: Report, index: dict[str, int], artifact: Callable[[str], in
                 region: dict[str, Any] = {"startLine": t["line"]} if t["line"] else {}
                 location = {"physicalLocation": {"artifactLocation": {"uri": s["path"], "index": artifact(s["path"])},
                                                  **({"region": region} if region else {})},
-                            "logicalLocations": [{"name": f"#{t['ordinal']} {t['name']}", "kind": "element"}]}
+                            "logicalLocations": [{"name": f"#{t['number']} {t['name']}", "kind": "element"}]}
                 review = t["status"] == "partial"
                 result: dict[str, Any] = {
                     "ruleId": f["rule"],
                     "ruleIndex": index[f["rule"]],
                     "kind": "review" if review else "fail",
                     "level": "none" if review else LEVELS[f["severity"]],
-                    "message": {"text": f"#{t['ordinal']} {t['name']}: {f['message']} "
+                    "message": {"text": f"#{t['number']} {t['name']}: {f['message']} "
                                         f"(found {f['measured']:g}, needs {f['required']:g} {f['unit']})"},
                     "locations": [location],
                     "partialFingerprints": {"tapgaugeTarget/v1": fingerprint(sid, t["key"] + "/" + f["rule"])},
@@ -70,7 +70,7 @@ def _results(report: Report, index: dict[str, int], artifact: Callable[[str], in
                         "description": {"text": "screenshot with the target's rectangle"},
                         "artifactLocation": {"uri": s["image"], "index": artifact(s["image"])},
                         "rectangles": [{"left": left, "top": top, "right": right, "bottom": bottom,
-                                        "message": {"text": f"#{t['ordinal']} {t['name']}"}}],
+                                        "message": {"text": f"#{t['number']} {t['name']}"}}],
                     }]
                 yield result
 

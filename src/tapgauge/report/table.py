@@ -166,7 +166,7 @@ def _screen_rows(s: dict[str, Any], width: int, color: bool, show: int = 0) -> l
         return []
     cells: list[tuple[list[tuple[str, str]], list[tuple[str, str]]]] = []
     for t in rows:
-        left = [(f"#{t['ordinal']} {t['name']}", ""),
+        left = [(f"#{t['number']} {t['name']}", ""),
                 (f"{_num(t['size']['width'])} x {_num(t['size']['height'])} {unit}", "dim")]
         if t["size_mm"] is not None:
             left.append((f"{_num(t['size_mm']['width'])} x {_num(t['size_mm']['height'])} mm", "dim"))
@@ -195,7 +195,7 @@ def _screen_rows(s: dict[str, Any], width: int, color: bool, show: int = 0) -> l
     for n, (left, right) in enumerate(cells):
         if n:
             out.append("─" * lw + "─┼─" + "─" * rw)
-        hang = " " * min(lw // 3, cell_len(f"#{rows[n]['ordinal']} "))  # a long name continues under itself
+        hang = " " * min(lw // 3, cell_len(f"#{rows[n]['number']} "))  # a long name continues under itself
         lines_l = [(line, style) for text, style in left for line in _wrap(text, lw, hang)]
         lines_r: list[tuple[str, str]] = []
         for text, style in right:
@@ -239,7 +239,7 @@ def _difficulty_table(s: dict[str, Any], profiles: list[str]) -> Table | None:
         for d in t["difficulty"]:
             miss = "-" if d["miss_probability"] is None else f"{d['miss_probability'] * 100:.0f}%"
             cells.append(f"{d['time_ms']:.0f} / {miss}")
-        table.add_row(f"#{t['ordinal']} {t['name']}", f"{t['approach']['id_bits']:.2f}", *cells)
+        table.add_row(f"#{t['number']} {t['name']}", f"{t['approach']['id_bits']:.2f}", *cells)
     return table
 
 
