@@ -1,6 +1,10 @@
 """The Android window dump reader: the format of `adb shell uiautomator dump`.
 
-Format facts from REFERENCES.md section 5 (AOSP AccessibilityNodeInfoDumper, published).
+Format facts from AOSP's AccessibilityNodeInfoDumper (platform/frameworks/base,
+cmds/uiautomator/library/core-src/com/android/uiautomator/core/; re-read): a `hierarchy` root
+with `rotation`, nested `node` elements with string attributes, `NAF` on clickable nodes with
+no text or description, `bounds` from Rect.toShortString. The newer dumpers' visible-to-user
+and drawing-order attributes: from memory.
 """
 
 from __future__ import annotations
@@ -136,7 +140,7 @@ def test_discover_walks_folders_in_order_and_skips_sidecars(tmp_path: Path) -> N
 
 
 # --- The one-pass reader against the plain definition of paint order, visibility and scrolling ---
-# The definitions (REFERENCES.md section 5; drawing-order is AccessibilityNodeInfo's
+# The definitions (AOSP AccessibilityNodeInfoDumper, as above; drawing-order is AccessibilityNodeInfo's
 # getDrawingOrder, from memory): children paint in ascending drawing-order, ties and
 # unnumbered children in document order; a node is visible when it and every view node
 # above it are visible to the user; scroll ancestors are the scrollable view nodes above.

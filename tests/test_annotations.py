@@ -1,9 +1,12 @@
 """Box annotations: every format lands on the same hand-worked pixel box.
 
 The hand-worked box: pixels 10..39 across and 20..49 down on a 100 x 80 image, that
-is [10, 20, 40, 50) right/bottom exclusive. Each format's convention (REFERENCES.md
-section 5, published): VOC 1-based inclusive indices; COCO [x, y, w, h]; YOLO
-normalised centre and size.
+is [10, 20, 40, 50) right/bottom exclusive. Each format's convention: VOC 1-based inclusive
+indices (Everingham & Winn, "The PASCAL Visual Object Classes Challenge 2012 Development Kit",
+annotation section; from memory); COCO [x, y, w, h] (cocodataset.org, "Data format", object
+detection: structure re-read, the bbox order from memory); YOLO normalised centre and size,
+`class x_center y_center width height` (Ultralytics YOLOv5 wiki, "Train Custom Data", section
+"Create labels"; re-read as its maintainers quote it).
 """
 
 from __future__ import annotations

@@ -20,13 +20,14 @@ FITTS = DATA / "fitts1954_summary.csv"
 
 def test_fitts_form_reproduces_the_published_regression() -> None:
     # MacKenzie, Handbook of HCI (2018), for Fitts's 1954 stylus data: MT = 12.8 + 94.7 ID,
-    # r = .9831 (REFERENCES.md section 4: published value recalled, reproduced by computation).
+    # r = .9831 (the published value from memory, not re-read; reproduced here by computation).
     fit = calibrate(FITTS, "fitts")
     assert (round(fit.intercept_ms, 1), round(fit.slope_ms_per_bit, 1), round(fit.r, 4)) == (12.8, 94.7, 0.9831)
 
 
 def test_shannon_form_matches_scipy() -> None:
-    # Oracle: scipy.stats.linregress on the same 16 cells; REFERENCES.md gives 27.7 + 111.5 ID, r = .9936 (computed).
+    # Oracle: scipy.stats.linregress on the same 16 cells; 27.7 + 111.5 ID, r = .9936 is our own computation
+    # on them (no published figure).
     fit = calibrate(FITTS, "shannon")
     ids = [i for i, _ in fit.points]
     times = [t for _, t in fit.points]
@@ -42,7 +43,9 @@ TRIAL_HEAD = "participant,start_x,start_y,target_x,target_y,width,touch_x,touch_
 def test_effective_width_and_mean_of_means_by_hand(tmp_path: Path) -> None:
     # Touches on the task axis (x) only, so dx is the touch's x offset: hand-checkable.
     # ISO 9241-9 effective width: We = 4.133 * SD (n - 1); throughput = mean over participants of
-    # mean over conditions of IDe / MT (REFERENCES.md section 4; "mean of means" from memory).
+    # mean over conditions of IDe / MT (ISO 9241-9:2000; Soukoreff & MacKenzie, "Towards a standard for
+    # pointing device evaluation", Int. J. Human-Computer Studies 61(6), 2004, pp. 751-789: abstract
+    # re-read, the formulas and "mean of means" from memory).
     data = {  # (participant, amplitude, width): (touch x offsets, times)
         ("p1", 40, 5): ([-1.0, 0.5, 1.5], [400, 420, 410]),
         ("p1", 80, 5): ([-2.0, 0.0, 1.0], [520, 500, 510]),

@@ -1,7 +1,8 @@
 """`tapgauge capture` against a stand-in adb that prints recorded real-format outputs.
 
-The recordings follow the formats in REFERENCES.md section 2 (AOSP wm and dumpsys
-wording, published); their values are our demo device's.
+The recordings follow AOSP's own wording: WindowManagerShellCommand's `Physical density: N` /
+`Override density: N` (re-read; `wm size` lines from memory) and DisplayDeviceInfo.toString's
+`density N, X x Y dpi` in `dumpsys display` (re-read); their values are our demo device's.
 """
 
 from __future__ import annotations

@@ -1,9 +1,10 @@
 """Density and physical size: the Android formulas and real `adb shell` output formats.
 
-Sources (REFERENCES.md section 2, published): Android Developers "Support different
+Sources (published; re-read unless marked): Android Developers "Support different
 pixel densities" (px = dp * densityDpi / 160); android.util.DisplayMetrics (buckets,
-xdpi/ydpi); AOSP WindowManagerShellCommand (`wm density`, `wm size` wording);
-AOSP DisplayInfo / DisplayDeviceInfo toString (`dumpsys display` wording).
+xdpi/ydpi, "the exact physical pixels per inch" per axis); AOSP WindowManagerShellCommand
+(`wm density` wording re-read, `wm size` from memory); AOSP DisplayDeviceInfo.toString
+(`density N, X x Y dpi` in `dumpsys display`; DisplayInfo.toString from memory).
 """
 
 from __future__ import annotations

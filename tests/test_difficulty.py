@@ -68,8 +68,10 @@ def test_hit_probability_matches_monte_carlo() -> None:
 
 
 @pytest.mark.parametrize(("profile", "mean_distance_mm", "observed_miss"), [
-    # Sultana & Moffatt, ACM TACCESS 2019 -- SECOND-HAND (a review's summary, REFERENCES.md
-    # section 3): mean touch distance 1.92 / 3.36 mm; errors at 4.88 mm targets 24.9% / 62.4%.
+    # Sultana & Moffatt, "Effects of Aging on Small Target Selection with Touch Input", ACM TACCESS
+    # 2019, doi:10.1145/3300178 -- SECOND-HAND (re-read in a published review's summary of the paper,
+    # www.a11ybob.com/writing/reviews, not in the paper itself): mean touch distance 1.92 / 3.36 mm;
+    # errors at 4.88 mm targets 24.9% / 62.4%.
     ("typical-adult", 1.92, 0.249),
     ("older-adult", 3.36, 0.624),
 ])

@@ -1,7 +1,10 @@
 """iOS element trees: points, scales, and which element types are targets.
 
-Format facts: REFERENCES.md section 5 (published). Points to pixels: Apple's
-UIScreen.scale documentation, pixels = points x scale, scale 1, 2 or 3 (published).
+Format facts: element names are Apple's XCUIElementType values (Apple Developer
+documentation, XCUIAutomation, "XCUIElement.ElementType"; re-read); the tree is the page source
+of W3C WebDriver "Get Page Source" with type, name, label, value, enabled, visible, accessible,
+x, y, width, height attributes in points (attribute set from memory). Points to pixels: Apple's
+UIScreen.scale documentation, pixels = points x scale, scale 1, 2 or 3 (published; re-read).
 """
 
 from __future__ import annotations

@@ -1,8 +1,9 @@
 """WCAG 2.2 SC 2.5.8 worked examples, run through the whole measure + check path.
 
-Source: W3C, "Understanding SC 2.5.8 Target Size (Minimum)", its figures and text
-(REFERENCES.md section 1, tagged published). At 160 dpi one dp is one pixel, so the
-CSS-pixel examples apply unchanged (WCAG2ICT maps the CSS px to dp).
+Source: W3C WAI, "Understanding SC 2.5.8: Target Size (Minimum)" (WCAG 2.2 Understanding
+documents), its figures and text (published; the criterion and its spacing rule re-read, the
+worked figures from memory). At 160 dpi one dp is one pixel, so the
+CSS-pixel examples apply unchanged (W3C, WCAG2ICT Group Note, maps the CSS px to dp: from memory).
 """
 
 from __future__ import annotations
