@@ -57,7 +57,12 @@ def _check(path: Path, out: Path, capsys: pytest.CaptureFixture[str]) -> tuple[d
 
 
 def _edge(pic: Image.Image, x: float, y: float) -> tuple[int, int, int]:
-    """The colour just inside a box's top-left corner (the fail outline is 5 px at 1x)."""
+    """FAIL when the fail colour shows just inside the point, as inside a failing box's top-left
+    corner: the corner bracket's colour lies inside its dark edge (1-2 px), a few pixels in;
+    else the colour just inside the point."""
+    for k in range(1, 8):
+        if pic.getpixel((round(x) + k, round(y) + k)) == FAIL:
+            return FAIL
     return pic.getpixel((round(x) + 1, round(y) + 1))
 
 
@@ -83,7 +88,7 @@ def test_half_size_screenshot_is_scaled_uniformly(tmp_path: Path, capsys: pytest
     assert (screen["width"], screen["height"]) == (1080, 2340) and pic.width == 540
     for l, t, _, _ in SMALL:
         assert _edge(pic, l / 2, t / 2) == FAIL
-        assert _edge(pic, l / 2 + 12, t / 2 + 12) != FAIL  # inside the halved 44 px box: not a 2x line
+        assert _edge(pic, l / 2 + 12, t / 2 + 12) != FAIL  # inside the halved 44 px box: not a 2x corner
     assert err == ""
 
 

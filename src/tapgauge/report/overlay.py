@@ -1,84 +1,458 @@
 """Overlay pictures: each screen's screenshot (or a plain wireframe) with every target marked.
 
-Status is shown three ways at once, so no one depends on colour: a colour from the
-Okabe-Ito palette (chosen to stay distinct for common colour-vision deficiencies),
-a line style, and a glyph in the target's tag. Failing targets also get the
-minimum square they must hold, dashed and centred on them; targets the WCAG
-spacing rule looked at get their spacing circle. A legend band explains it all.
+The marks speak one language: corners mean a finding, frames mean none.
+
+- fail: heavy orange corners edged in black, the sides left open so the control stays readable;
+- partial: lighter yellow corners, edged in black, on a dashed yellow frame;
+- pass: a thin solid blue frame; exempt: a dash-dot green frame; unchecked: a dotted grey frame.
+
+Status is never told by colour alone: each mark has its own shape or line style, and each
+target's tag carries its number, a swatch of its colour and a status sign ('!', '?', '=', '-').
+The colours are Okabe-Ito's (chosen to stay apart under the common colour-vision
+deficiencies); none is near the magenta or red of a tester's marker pen. Failing and partial
+targets also get the minimum square their worst size rule asks for, dashed black on white and
+centred on them; targets the WCAG spacing rule looked at get their sky-blue spacing circle.
+
+Tags are ink on white, sized for the picture as it will be shown (`text_scale`), and placed by
+`place_tags` so that they cover neither each other nor any target: beside their box where
+there is room, else moved aside with a thin leader line. A legend under the picture, wrapped
+to its width, explains it all.
+
+On a marked screenshot (boxes found by their marker colour in the picture itself) the tester's
+marker strokes are greyed out first (`knock_back_markers`), so they cannot hide or pass for ours.
 
 Boxes go onto the screenshot only where its pixels can be told from the dump (see `align`);
 otherwise the overlay is a wireframe and says why, rather than stretching boxes to fit.
+`png_bytes` makes a small palette PNG of an overlay that keeps every mark colour exact.
 """
 
 from __future__ import annotations
 
+import functools
 import io
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, NamedTuple
 
+import numpy as np
 from PIL import Image, ImageDraw, ImageFont
 
 from tapgauge.device import MM_PER_INCH
+from tapgauge.readers.marked import FAINT_HUE_TOLERANCE, FAINT_SATURATION, MIN_SATURATION, MIN_VALUE
 from tapgauge.report.output import write_atomic
 from tapgauge.report.records import Report
 
 RGB = tuple[int, int, int]
+Rect = tuple[float, float, float, float]  # left, top, right, bottom (right and bottom exclusive)
+Point = tuple[float, float]
+
+INK = (20, 20, 20)
+PAPER = (255, 255, 255)
+WIREFRAME = (244, 244, 242)  # the background when no screenshot is used
 
 
 @dataclass(frozen=True)
 class Mark:
-    colour: RGB
-    width: int  # line width at 1x
-    dash: tuple[int, ...]  # on/off lengths at 1x; () = solid
-    glyph: str
-    words: str
+    colour: RGB  # Okabe-Ito
+    width: int  # side line width at 1x; 0 = no sides, the corners alone
+    dash: tuple[int, ...]  # on/off lengths of the sides at 1x; () = solid
+    glyph: str  # the status sign in the tag
+    words: str  # the legend's line
+    corner: int = 0  # corner bracket thickness at 1x; 0 = no corners (no finding)
+    edge: RGB | None = None  # a dark edge around light colours, so they show on pale screens
 
 
+# Okabe and Ito, "Color Universal Design (CUD): how to make figures and presentations that are
+# friendly to colorblind people" (2002; from memory): orange #E69F00, yellow #F0E442, blue #0072B2,
+# bluish green #009E73, sky blue #56B4E9. Their vermilion and reddish purple are left out: they sit
+# near a red or magenta marker pen's hue, and the purple drifts towards the vermilion in a small
+# palette. The grey is darker than the usual mid grey, to stay apart from the green for deuteranopes.
 MARKS = {
-    "pass": Mark((0, 114, 178), 2, (), "", "pass: solid blue"),
-    "fail": Mark((213, 94, 0), 5, (), "!", "fail: thick solid vermilion, tag '!'"),
-    "partial": Mark((204, 121, 167), 3, (10, 6), "?", "partial: dashed pink, tag '?'"),
-    "unchecked": Mark((110, 110, 110), 2, (3, 5), "-", "unchecked: dotted grey, tag '-'"),
-    "exempt": Mark((0, 158, 115), 3, (12, 4, 3, 4), "=", "exempt: dash-dot green, tag '='"),
+    "pass": Mark((0, 114, 178), 2, (), "", "pass: thin solid blue frame"),
+    "fail": Mark((230, 159, 0), 0, (), "!", "fail: heavy orange corners edged in black, sides open; sign\u00a0'!'",
+                 corner=4, edge=INK),
+    "partial": Mark((240, 228, 66), 1, (8, 5), "?", "partial: yellow corners on a dashed yellow frame; sign\u00a0'?'",
+                    corner=2, edge=INK),
+    "unchecked": Mark((90, 90, 90), 2, (2, 4), "-", "unchecked: dotted grey frame; sign\u00a0'-'"),
+    "exempt": Mark((0, 158, 115), 2, (12, 4, 3, 4), "=", "exempt: dash-dot green frame; sign\u00a0'='"),
 }
-SQUARE = (213, 94, 0)
-CIRCLE = (86, 180, 233)
-INK = (20, 20, 20)
-PAPER = (255, 255, 255)
+SQUARE = INK  # the minimum square: ink dashes on a white line, seen on dark and light screens alike
+CIRCLE = (86, 180, 233)  # Okabe-Ito sky blue
+# Every colour a mark is drawn in: `png_bytes` keeps these exact.
+MARK_COLOURS: tuple[RGB, ...] = tuple(dict.fromkeys(
+    [m.colour for m in MARKS.values()] + [m.edge for m in MARKS.values() if m.edge]
+    + [SQUARE, CIRCLE, INK, PAPER, WIREFRAME]))
+DRAW_ORDER = ("unchecked", "pass", "exempt", "partial", "fail")  # the most telling on top
+TAG_ORDER = ("fail", "partial", "exempt", "pass", "unchecked")  # the most telling get the best spots
 
 
+@functools.lru_cache(maxsize=32)
 def _font(size: int) -> ImageFont.ImageFont | ImageFont.FreeTypeFont:
     return ImageFont.load_default(size=size)
 
 
-def _dashed_line(draw: ImageDraw.ImageDraw, a: tuple[float, float], b: tuple[float, float], colour: RGB,
-                 width: int, dash: tuple[int, ...]) -> None:
+# ----------------------------------------------------------------------------- tag placement
+
+
+class TagSpot(NamedTuple):
+    rect: Rect
+    leader: tuple[Point, Point] | None  # tag end, box end; None when the tag sits beside its box
+
+
+def _overlap_areas(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Overlap area of every rectangle in `a` (n, 4) with every one in `b` (m, 4): (n, m)."""
+    w = np.minimum(a[:, None, 2], b[None, :, 2]) - np.maximum(a[:, None, 0], b[None, :, 0])
+    h = np.minimum(a[:, None, 3], b[None, :, 3]) - np.maximum(a[:, None, 1], b[None, :, 1])
+    return np.clip(w, 0, None) * np.clip(h, 0, None)
+
+
+def _gaps(rects: np.ndarray, box: Rect) -> np.ndarray:
+    """Distance from each rectangle (n, 4) to `box` (0 where they touch or overlap)."""
+    dx = np.maximum(0.0, np.maximum(box[0] - rects[:, 2], rects[:, 0] - box[2]))
+    dy = np.maximum(0.0, np.maximum(box[1] - rects[:, 3], rects[:, 1] - box[3]))
+    return np.hypot(dx, dy)
+
+
+def _nearest(a: np.ndarray, b: np.ndarray, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
+    """On one axis, the closest pair of points between each [a, b] and [lo, hi]."""
+    mid = (np.maximum(a, lo) + np.minimum(b, hi)) / 2
+    near = np.where(b <= lo, b, np.where(a >= hi, a, mid))
+    far = np.where(b <= lo, lo, np.where(a >= hi, hi, mid))
+    return near, far
+
+
+def _leaders(rects: np.ndarray, box: Rect) -> tuple[np.ndarray, np.ndarray]:
+    """The shortest line from each rectangle's edge (n, 4) to the box's edge: start and end points (n, 2)."""
+    tx, bx = _nearest(rects[:, 0], rects[:, 2], box[0], box[2])
+    ty, by = _nearest(rects[:, 1], rects[:, 3], box[1], box[3])
+    return np.column_stack([tx, ty]), np.column_stack([bx, by])
+
+
+def leader_line(tag: Rect, box: Rect) -> tuple[Point, Point]:
+    """The shortest straight line from a tag's edge to its box's edge."""
+    a, b = _leaders(np.array([tag], dtype=float), box)
+    return (float(a[0, 0]), float(a[0, 1])), (float(b[0, 0]), float(b[0, 1]))
+
+
+def _crossings(p0: np.ndarray, p1: np.ndarray, rects: np.ndarray) -> np.ndarray:
+    """Whether each segment p0->p1 (n, 2) passes through the inside of each rectangle (m, 4): (n, m).
+    Liang and Barsky's clipping: the part of the segment inside is t in [t0, t1]."""
+    if not len(p0) or not len(rects):
+        return np.zeros((len(p0), len(rects)), dtype=bool)
+    d = (p1 - p0)[:, None, :]
+    o = p0[:, None, :]
+    lo, hi = rects[None, :, :2], rects[None, :, 2:]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ta, tb = (lo - o) / d, (hi - o) / d
+    enter = np.where(d == 0, np.where((o > lo) & (o < hi), -np.inf, np.inf), np.minimum(ta, tb))
+    leave = np.where(d == 0, np.where((o > lo) & (o < hi), np.inf, -np.inf), np.maximum(ta, tb))
+    t0 = np.maximum(enter.max(axis=2), 0.0)
+    t1 = np.minimum(leave.min(axis=2), 1.0)
+    return t1 - t0 > 1e-9
+
+
+def _segments_cross(p0: np.ndarray, p1: np.ndarray, lines: np.ndarray) -> np.ndarray:
+    """Whether each segment p0->p1 (n, 2) properly crosses each line (m, 4: x0, y0, x1, y1): (n, m)."""
+    if not len(p0) or not len(lines):
+        return np.zeros((len(p0), len(lines)), dtype=bool)
+    q0, q1 = lines[None, :, :2], lines[None, :, 2:]
+    a, b = p0[:, None, :], p1[:, None, :]
+
+    def side(o: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
+        return np.sign((u[..., 0] - o[..., 0]) * (v[..., 1] - o[..., 1])
+                       - (u[..., 1] - o[..., 1]) * (v[..., 0] - o[..., 0]))
+
+    return (side(a, b, q0) * side(a, b, q1) < 0) & (side(q0, q1, a) * side(q0, q1, b) < 0)
+
+
+def place_tags(boxes: Sequence[Rect], sizes: Sequence[tuple[float, float]], area: tuple[float, float],
+               gap: float = 2.0, clear: float = 0.0) -> list[TagSpot]:
+    """Where each box's tag goes, boxes taken in the order given (put the most telling first).
+
+    A tag of sizes[i] (width, height) goes just above, below, left or right of boxes[i]
+    where that spot covers no target's box (each grown by `clear`, the marks' reach), no tag
+    placed before it (kept `gap` apart) and no leader line drawn before it. Else it goes to the
+    nearest such spot within 8 tag heights, with a leader line from tag to box that, where it
+    can, crosses no tag, no earlier leader and no other box; a box four times the tag's size
+    may instead hold its tag in its own right-hand corner. Only when nothing near is free of
+    tags and boxes is the whole picture searched. Every tag lies inside `area` (width, height).
+    A box that holds another (a row round its buttons) is no obstacle to the inner box's tag.
+    """
+    width, height = area
+    obstacles = np.array([(l - clear, t - clear, r + clear, b + clear) for l, t, r, b in boxes],
+                         dtype=float).reshape(-1, 4)
+    placed = np.zeros((0, 4))
+    lines = np.zeros((0, 4))  # leaders drawn so far: x0, y0, x1, y1
+    spots: list[TagSpot] = []
+    for i, (box, (tw, th)) in enumerate(zip(boxes, sizes)):
+        tw, th = min(tw, width), min(th, height)
+        l, t, r, b = box
+        g = gap + clear
+        # A box holding this one (a list row round its buttons) is no obstacle: the tag may sit on
+        # it, beside its own box, as the box itself does.
+        holds = ((obstacles[:, 0] <= l) & (obstacles[:, 1] <= t) & (obstacles[:, 2] >= r) & (obstacles[:, 3] >= b))
+        holds[i] = True
+        others = obstacles[~holds]
+        beside = [(l, t - g - th), (r - tw, t - g - th), (l, b + g), (r - tw, b + g),
+                  (l - g - tw, t), (r + g, t), (l - g - tw, b - th), (r + g, b - th)]
+        # Inside its own box's right-hand corners: the last resort before covering or crossing
+        # another box, for a box four times the tag or more (rows stacked edge to edge); a row's
+        # words mostly start on the left.
+        roomy = 4 * tw * th <= (r - l) * (b - t) and tw + 2 * g <= r - l and th + 2 * g <= b - t
+        inside = [(r - g - tw, t + g), (r - g - tw, b - g - th), (l + g, t + g), (l + g, b - g - th)] if roomy else []
+        look = _Look(box, tw, th, g, obstacles[i], others, placed, lines, gap, area, roomy)
+        best = look.best(np.array(beside, dtype=float))
+        if best.cost[:7] != (0,) * 7:  # not beside the box: the nearest free spot around it
+            best = min(best, look.best(_grid(box, tw, th, 8 * th, max(th / 2, 1.0)), rank=1))
+        if inside and best.cost[:7] != (0,) * 7:  # (before a spot pushed inside by the picture's edge)
+            best = min(best, look.best(np.array(inside, dtype=float), rank=-1))
+        if best.cost[:3] != (0,) * 3:  # every spot near covers a tag or a box: anywhere in the picture
+            whole = (0.0, 0.0, float(width), float(height))
+            best = min(best, look.best(_grid(whole, tw, th, 0.0, max(th / 2, 1.0)), rank=1))
+        spots.append(TagSpot(best.rect, best.leader))
+        placed = np.vstack([placed, [best.rect]])
+        if best.leader:
+            lines = np.vstack([lines, [[*best.leader[0], *best.leader[1]]]])
+    return spots
+
+
+class _Spot(NamedTuple):
+    # other tags' area covered, other boxes' area covered, its own box's area covered unless the
+    # box is roomy, tags crossed (this tag over an earlier leader, its leader through an earlier
+    # tag), earlier leaders its leader crosses, other boxes its leader crosses, its own box's
+    # area covered, distance from the box, then the kind of spot: inside the own box's corners
+    # (-1), listed beside it (0), searched for (1)
+    cost: tuple[float, ...]
+    rect: Rect
+    leader: tuple[Point, Point] | None
+
+
+@dataclass(frozen=True)
+class _Look:
+    """What one tag's spots are judged against."""
+
+    box: Rect
+    tw: float
+    th: float
+    g: float  # a tag this close to its box needs no leader
+    own: np.ndarray  # this tag's box, grown by the marks' reach
+    others: np.ndarray  # every other box, grown alike
+    placed: np.ndarray
+    lines: np.ndarray
+    gap: float
+    area: tuple[float, float]
+    roomy: bool  # a tag may cover a corner of its own box, rather than lead across another
+
+    def best(self, corners: np.ndarray, rank: int = 0) -> _Spot:
+        """The best of `corners` (top-left points, clamped into the picture), by `_Spot.cost`."""
+        x = np.clip(corners[:, 0], 0, max(0.0, self.area[0] - self.tw))
+        y = np.clip(corners[:, 1], 0, max(0.0, self.area[1] - self.th))
+        rects = np.column_stack([x, y, x + self.tw, y + self.th])
+        n = len(rects)
+        grown = rects + np.array([-self.gap, -self.gap, self.gap, self.gap])
+        on_tags = _overlap_areas(grown, self.placed).sum(axis=1) if len(self.placed) else np.zeros(n)
+        # A tag over an earlier leader hides it; a leader through an earlier tag is lost under it.
+        seg = self.lines
+        over_lines = (_crossings(seg[:, :2], seg[:, 2:], grown).sum(axis=0) if len(seg) else np.zeros(n))
+        on_boxes = _overlap_areas(rects, self.others).sum(axis=1) if len(self.others) else np.zeros(n)
+        on_own = _overlap_areas(rects, self.own[None, :])[:, 0]
+        dist = _gaps(rects, self.box)
+        moved = dist > self.g + 0.5
+        a, z = _leaders(rects, self.box)
+        lead_tags = np.where(moved, _crossings(a, z, _grown(self.placed, self.gap)).sum(axis=1), 0)
+        lead_lines = np.where(moved, _segments_cross(a, z, seg).sum(axis=1), 0)
+        lead_boxes = np.where(moved, _crossings(a, z, self.others).sum(axis=1), 0)
+        crossed = over_lines + lead_tags
+        on_small = on_own * (not self.roomy)
+        keys = (on_tags, on_boxes, on_small, crossed, lead_lines, lead_boxes, on_own, dist)
+        k = int(np.lexsort((np.arange(n), *keys[::-1]))[0])
+        rect = tuple(float(v) for v in rects[k])
+        leader = ((float(a[k, 0]), float(a[k, 1])), (float(z[k, 0]), float(z[k, 1]))) if moved[k] else None
+        return _Spot((*(float(v[k]) for v in keys), rank), rect, leader)  # type: ignore[arg-type]
+
+
+def _grown(placed: np.ndarray, gap: float) -> np.ndarray:
+    return placed + np.array([-gap, -gap, gap, gap]) if len(placed) else placed
+
+
+def _grid(box: Rect, tw: float, th: float, reach: float, step: float) -> np.ndarray:
+    xs = np.arange(box[0] - reach - tw, box[2] + reach + step / 2, step)
+    ys = np.arange(box[1] - reach - th, box[3] + reach + step / 2, step)
+    gx, gy = np.meshgrid(xs, ys)
+    return np.column_stack([gx.ravel(), gy.ravel()])
+
+
+# ----------------------------------------------------------------------------- marker strokes
+
+
+def _hsv(rgb: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Hue in degrees, saturation and value in 0..1 (the usual hexcone model, as colorsys)."""
+    c = rgb.astype(np.float32) / 255
+    mx, mn = c.max(axis=-1), c.min(axis=-1)
+    d = mx - mn
+    safe = np.where(d == 0, 1, d)
+    r, g, b = c[..., 0], c[..., 1], c[..., 2]
+    h = np.where(mx == r, (g - b) / safe % 6, np.where(mx == g, (b - r) / safe + 2, (r - g) / safe + 4)) * 60
+    h = np.where(d == 0, 0, h)
+    s = np.where(mx == 0, 0, d / np.where(mx == 0, 1, mx))
+    return h, s, mx
+
+
+def _regions(boxes: Sequence[Rect], reach: int, shape: tuple[int, ...]) -> list[tuple[slice, slice]]:
+    h, w = shape[:2]
+    out = []
+    for l, t, r, b in boxes:
+        x0, y0 = max(0, math.floor(l) - reach), max(0, math.floor(t) - reach)
+        x1, y1 = min(w, math.ceil(r) + reach), min(h, math.ceil(b) + reach)
+        if x1 > x0 and y1 > y0:
+            out.append((slice(y0, y1), slice(x0, x1)))
+    return out
+
+
+def _hue_peaks(rgb: np.ndarray, boxes: Sequence[Rect], reach: int, count: int = 3) -> list[float]:
+    """The commonest 10-degree bands (their middles) of the strongly coloured pixels around the boxes."""
+    hues = []
+    for rows, cols in _regions(boxes, reach, rgb.shape):
+        h, s, v = _hsv(rgb[rows, cols])
+        hues.append(h[(s >= MIN_SATURATION) & (v >= MIN_VALUE)])
+    found = np.concatenate(hues) if hues else np.zeros(0)
+    counts = np.bincount((found // 10).astype(int) % 36, minlength=36)
+    return [(int(k) + 0.5) * 10 for k in np.argsort(-counts, kind="stable")[:count] if counts[k]]
+
+
+def marker_hue(rgb: np.ndarray, boxes: Sequence[Rect], reach: int = 12) -> float | None:
+    """The marker hue (degrees) with which the marked-box reader finds exactly `boxes` in the
+    picture; None when none does. The screen record does not say which marker colour was used,
+    so the named colours are tried (the default first), then the commonest strong hues around
+    the boxes (for a '#rrggbb' marker)."""
+    from tapgauge.readers.marked import DEFAULT_MARKER, MARKER_HUES, find_boxes
+
+    wanted = sorted(tuple(round(v) for v in b) for b in boxes)
+    tried = [MARKER_HUES[DEFAULT_MARKER], *MARKER_HUES.values(), *_hue_peaks(rgb, boxes, reach)]
+    for hue in dict.fromkeys(tried):
+        if sorted(find_boxes(rgb, hue)) == wanted:
+            return hue
+    return None
+
+
+def knock_back_markers(rgb: np.ndarray, boxes: Sequence[Rect], reach: int = 12) -> tuple[np.ndarray, int]:
+    """The picture with the tester's marker strokes around and inside `boxes` turned pale grey,
+    and how many pixels changed. Pixels near the strokes' hue and saturated (as the marked-box
+    reader's faint band counts them) keep their lightness order but lose their colour."""
+    hue = marker_hue(rgb, boxes, reach)
+    out = rgb.copy()
+    if hue is None:
+        return out, 0
+    changed = 0
+    for rows, cols in _regions(boxes, reach, rgb.shape):
+        part = out[rows, cols]
+        h, s, v = _hsv(part)
+        dh = np.abs((h - hue + 180) % 360 - 180)
+        mask = (dh <= FAINT_HUE_TOLERANCE) & (s >= FAINT_SATURATION) & (v >= MIN_VALUE)
+        if not mask.any():
+            continue
+        grey = part[mask].astype(np.float32) @ np.array([0.299, 0.587, 0.114], dtype=np.float32)
+        part[mask] = np.round(255 - (255 - grey) * 0.3)[:, None].astype(np.uint8)  # pale grey: a ghost of the pen
+        changed += int(mask.sum())
+    return out, changed
+
+
+# ----------------------------------------------------------------------------- drawing
+
+
+def _fill(draw: ImageDraw.ImageDraw, rect: Rect, colour: RGB) -> None:
+    l, t, r, b = (round(v) for v in rect)
+    if r > l and b > t:
+        draw.rectangle([l, t, r - 1, b - 1], fill=colour)
+
+
+def _segments(a: Point, b: Point, dash: tuple[int, ...]) -> list[tuple[Point, Point]]:
     if not dash:
-        draw.line([a, b], fill=colour, width=width)
-        return
+        return [(a, b)]
     length = math.dist(a, b)
     if length == 0:
-        return
+        return []
     ux, uy = (b[0] - a[0]) / length, (b[1] - a[1]) / length
+    out = []
     pos, k, on = 0.0, 0, True
     while pos < length:
-        step = dash[k % len(dash)]
-        end = min(pos + step, length)
+        end = min(pos + dash[k % len(dash)], length)
         if on:
-            draw.line([(a[0] + ux * pos, a[1] + uy * pos), (a[0] + ux * end, a[1] + uy * end)], fill=colour, width=width)
+            out.append(((a[0] + ux * pos, a[1] + uy * pos), (a[0] + ux * end, a[1] + uy * end)))
         pos, k, on = end, k + 1, not on
+    return out
 
 
-def _rect(draw: ImageDraw.ImageDraw, box: tuple[float, float, float, float], colour: RGB, width: int,
-          dash: tuple[int, ...]) -> None:
+def _line(draw: ImageDraw.ImageDraw, a: Point, b: Point, colour: RGB, width: int, dash: tuple[int, ...] = (),
+          edge: RGB | None = None, edge_width: int = 0) -> None:
+    """A line, dashed or not, with an optional edge of `edge_width` either side of each dash."""
+    parts = _segments(a, b, dash)
+    if edge is not None:
+        for p, q in parts:
+            draw.line([p, q], fill=edge, width=width + 2 * edge_width)
+    for p, q in parts:
+        draw.line([p, q], fill=colour, width=width)
+
+
+def _frame(draw: ImageDraw.ImageDraw, box: Rect, colour: RGB, width: int, dash: tuple[int, ...],
+           edge: RGB | None = None, edge_width: int = 0) -> None:
+    """A frame just inside `box`, so neighbouring boxes' frames never merge."""
     l, t, r, b = box
-    if not dash:
+    if not dash and edge is None:
         draw.rectangle([l, t, max(l, r - 1), max(t, b - 1)], outline=colour, width=width)
         return
+    k = width / 2 + edge_width  # the line's middle, so the whole line (and its edge) is inside
+    l, t, r, b = l + k, t + k, max(l + k, r - k), max(t + k, b - k)
     for a, z in (((l, t), (r, t)), ((r, t), (r, b)), ((r, b), (l, b)), ((l, b), (l, t))):
-        _dashed_line(draw, a, z, colour, width, dash)
+        _line(draw, a, z, colour, width, dash, edge, edge_width)
+
+
+def corner_arms(box: Rect, thickness: float, scale: float) -> tuple[float, float]:
+    """How far each corner bracket reaches along the top and the side: at most 30% of the side,
+    so every side's middle stays open, and on long sides no further than a short side needs."""
+    w, h = box[2] - box[0], box[3] - box[1]
+    cap = max(0.35 * min(w, h), 14 * scale, 3 * thickness)
+    return min(0.3 * w, cap), min(0.3 * h, cap)
+
+
+def _corners(draw: ImageDraw.ImageDraw, box: Rect, colour: RGB, thickness: int, edge: RGB | None,
+             edge_width: int, scale: float) -> None:
+    """Four L-shaped brackets inside the box's corners, each edged, the sides between left open."""
+    l, t, r, b = box
+    e = edge_width if edge is not None else 0
+    ax, ay = corner_arms(box, thickness, scale)
+    thick = max(1.0, min(float(thickness), min(ax, ay) / 2.5 - e))  # an L, not a blob, on a small box
+    arms = []
+    for cx, sx in ((l, 1), (r, -1)):
+        for cy, sy in ((t, 1), (b, -1)):
+            x0, y0 = cx + sx * e, cy + sy * e
+            across = (x0, y0, x0 + sx * (ax - e), y0 + sy * thick)
+            down = (x0, y0, x0 + sx * thick, y0 + sy * (ay - e))
+            arms += [across, down]
+    arms = [(min(a, c), min(b_, d), max(a, c), max(b_, d)) for a, b_, c, d in arms]
+    if edge is not None:
+        for a in arms:
+            _fill(draw, (a[0] - e, a[1] - e, a[2] + e, a[3] + e), edge)
+    for a in arms:
+        _fill(draw, a, colour)
+
+
+def _mark(draw: ImageDraw.ImageDraw, box: Rect, mark: Mark, px: Any, scale: float) -> None:
+    edge_width = px(1) if mark.edge is not None else 0
+    if mark.width:
+        _frame(draw, box, mark.colour, px(mark.width), tuple(px(d) for d in mark.dash), mark.edge, edge_width)
+    if mark.corner:
+        _corners(draw, box, mark.colour, px(mark.corner), mark.edge, edge_width, scale)
+
+
+def _square(draw: ImageDraw.ImageDraw, box: Rect, px: Any) -> None:
+    """The minimum square: ink dashes on a white line (a rule's tick marks, seen on any screen)."""
+    l, t, r, b = box
+    for a, z in (((l, t), (r, t)), ((r, t), (r, b)), ((r, b), (l, b)), ((l, b), (l, t))):
+        _line(draw, a, z, PAPER, px(1))
+        _line(draw, a, z, SQUARE, px(1), (px(6), px(4)))
 
 
 def _circle(draw: ImageDraw.ImageDraw, cx: float, cy: float, rx: float, ry: float, colour: RGB, width: int,
@@ -126,6 +500,10 @@ def _size(v: float) -> str:
     return f"{v:g}"
 
 
+def _is_marked(screen: dict[str, Any]) -> bool:
+    return screen["image"] is not None and screen["image"] == screen["path"]
+
+
 def align(screen: dict[str, Any], picture: tuple[int, int]) -> Alignment:
     """Where a screen record's boxes fall on a picture of `picture` (width, height) pixels.
 
@@ -139,7 +517,7 @@ def align(screen: dict[str, Any], picture: tuple[int, int]) -> Alignment:
     unit = screen["coordinates"]
     shot = Path(screen["image"]).name if screen["image"] else "screenshot"
     sizes = f"screen {_size(w)}x{_size(h)} {unit}, picture {pw}x{ph} px"
-    if screen["image"] is not None and screen["image"] == screen["path"]:
+    if _is_marked(screen):
         return Alignment(1.0, 1.0)  # a marked screenshot: the boxes were found in this very picture
     if w <= 0 or h <= 0:
         return Alignment(1.0, 1.0, refusal=f"cannot align the overlay with {shot}: {sizes} "
@@ -171,22 +549,85 @@ def _inside(bounds: list[float], pw: int, ph: int) -> bool:
 
 
 def draw_overlay(screen: dict[str, Any], report: Report, image: Image.Image | None,
-                 max_width: int | None = None) -> Image.Image:
+                 max_width: int | None = None, text_scale: float = 1.0) -> Image.Image:
     """The overlay of one screen record as a new picture (the screenshot is not changed)."""
-    return render(screen, report, image, max_width)[0]
+    return render(screen, report, image, max_width, text_scale)[0]
+
+
+@dataclass(frozen=True)
+class Scale:
+    """Sizes on one picture: `unit` grows with the picture's width, `text_scale` with how small
+    it will be shown; text and line widths take both."""
+
+    unit: int
+    text_scale: float
+
+    @property
+    def k(self) -> float:
+        return self.unit * self.text_scale
+
+    def px(self, v: float) -> int:
+        return max(1, round(v * self.k))
+
+
+def picture_scale(width: int, text_scale: float = 1.0) -> Scale:
+    return Scale(max(1, round(width / 540)), text_scale)
+
+
+TAG_TEXT = 12  # px at 1x: the tags' and legend's text
+
+
+def tag_text(number: int, status: str) -> str:
+    glyph = MARKS[status].glyph
+    return f"#{number}" + (f" {glyph}" if glyph else "")
+
+
+def tag_size(text: str, sc: Scale) -> tuple[float, float]:
+    """A tag's width and height: a colour swatch, then the text, inside a margin."""
+    font = _font(sc.px(TAG_TEXT))
+    pad = sc.px(3)
+    swatch = sc.px(8)
+    return pad + swatch + pad + font.getlength(text) + pad, float(sc.px(TAG_TEXT) + 2 * pad)
+
+
+def _tag(draw: ImageDraw.ImageDraw, rect: Rect, text: str, mark: Mark, sc: Scale) -> None:
+    l, t, r, b = rect
+    font = _font(sc.px(TAG_TEXT))
+    pad, swatch, line = sc.px(3), sc.px(8), sc.px(1)
+    _fill(draw, rect, INK)
+    _fill(draw, (l + line, t + line, r - line, b - line), PAPER)
+    mid = (t + b) / 2
+    sw = (l + pad, mid - swatch / 2, l + pad + swatch, mid + swatch / 2)
+    _fill(draw, (sw[0] - line, sw[1] - line, sw[2] + line, sw[3] + line), INK)
+    _fill(draw, sw, mark.colour)
+    draw.text((l + pad + swatch + pad, mid), text, fill=INK, font=font, anchor="lm")
+
+
+def _leader(draw: ImageDraw.ImageDraw, line: tuple[Point, Point], sc: Scale) -> None:
+    a, b = line
+    draw.line([a, b], fill=PAPER, width=sc.px(3))  # a white halo: the ink line shows on dark screens
+    draw.line([a, b], fill=INK, width=sc.px(1))
+    d = sc.px(2)
+    draw.ellipse([b[0] - d, b[1] - d, b[0] + d, b[1] + d], fill=INK)
 
 
 def render(screen: dict[str, Any], report: Report, image: Image.Image | None,
-           max_width: int | None = None) -> tuple[Image.Image, Alignment | None]:
+           max_width: int | None = None, text_scale: float = 1.0) -> tuple[Image.Image, Alignment | None]:
     """The overlay of one screen record, and how it sits on the screenshot (None without one).
 
     With max_width the picture is drawn at most that wide (cheaper than drawing big and shrinking).
-    A refused alignment is drawn as a wireframe, its reason in the legend.
+    `text_scale` multiplies text and line widths, for a picture shown smaller than it is drawn
+    (drawn 720 px wide and shown at 360: 2). A refused alignment is drawn as a wireframe, its
+    reason in the legend.
     """
     w, h = float(screen["width"]), float(screen["height"])
     fit = None if image is None else align(screen, image.size)
+    knocked = 0
     if image is not None and fit is not None and fit.on_picture:
         picture = image.convert("RGB")
+        if _is_marked(screen):
+            rgb, knocked = knock_back_markers(np.asarray(picture), [tuple(t["bounds"]) for t in screen["targets"]])
+            picture = Image.fromarray(rgb)
         fx, fy = fit.fx, fit.fy
         if max_width and picture.width > max_width:
             full = picture.size
@@ -198,79 +639,167 @@ def render(screen: dict[str, Any], report: Report, image: Image.Image | None,
         k = 2.0 if screen["coordinates"] == "pt" else 1.0
         if max_width:
             k = min(k, max_width / max(w, 1.0))
-        base = Image.new("RGB", (max(1, round(w * k)), max(1, round(h * k))), (244, 244, 242))
+        base = Image.new("RGB", (max(1, round(w * k)), max(1, round(h * k))), WIREFRAME)
         fx = fy = k
-    s = max(1, round(base.width / 540))  # line widths and text grow with the picture
+    sc = picture_scale(base.width, text_scale)
     draw = ImageDraw.Draw(base)
-    font = _font(11 * s)
     spacing = _spacing_rules(report)
     size_rules = _size_rules(report)
     device = screen["device"]
-    order = sorted(screen["targets"], key=lambda t: ["unchecked", "pass", "exempt", "partial", "fail"].index(t["status"]))
-    for t in order:
-        l, top, r, b = t["bounds"]
-        box = (l * fx, top * fy, r * fx, b * fy)
+    boxes = {t["number"]: (t["bounds"][0] * fx, t["bounds"][1] * fy, t["bounds"][2] * fx, t["bounds"][3] * fy)
+             for t in screen["targets"]}
+    order = sorted(screen["targets"], key=lambda t: DRAW_ORDER.index(t["status"]))
+    for t in order:  # the guides first, so no mark is hidden under another target's guide
+        box = boxes[t["number"]]
         cx, cy = (box[0] + box[2]) / 2, (box[1] + box[3]) / 2
         for rule_id, size in spacing.items():
             failed = any(f["rule"] == rule_id for f in t["findings"])
             if failed or any(n.startswith(rule_id) for n in t["notes"]):
                 dx, dy = _to_coords(size, "dp", device)
-                _circle(draw, cx, cy, dx / 2 * fx, dy / 2 * fy, CIRCLE, s, dashed=failed)
+                _circle(draw, cx, cy, dx / 2 * fx, dy / 2 * fy, CIRCLE, sc.px(1), dashed=failed)
         if t["status"] in ("fail", "partial"):
             sized = [f for f in t["findings"] if f["rule"] in size_rules and (f["unit"] != "mm" or device["xdpi"])]
             if sized:
                 # The square of the most severe finding (findings come sorted most severe first).
                 worst = sized[0]
                 sx, sy = _to_coords(worst["required"], worst["unit"], device)
-                _rect(draw, (cx - sx * fx / 2, cy - sy * fy / 2, cx + sx * fx / 2, cy + sy * fy / 2), SQUARE, s, (6 * s, 4 * s))
-        mark = MARKS[t["status"]]
-        _rect(draw, box, mark.colour, mark.width * s, tuple(d * s for d in mark.dash))
-        tag = f"#{t['number']}{(' ' + mark.glyph) if mark.glyph else ''}"
-        tw = draw.textlength(tag, font=font)
-        ty = box[1] - 13 * s if box[1] >= 13 * s else box[3]
-        draw.rectangle([box[0], ty, box[0] + tw + 4 * s, ty + 13 * s], fill=mark.colour)
-        draw.text((box[0] + 2 * s, ty + 1 * s), tag, fill=PAPER, font=font)
+                _square(draw, (cx - sx * fx / 2, cy - sy * fy / 2, cx + sx * fx / 2, cy + sy * fy / 2), sc.px)
+    for t in order:
+        _mark(draw, boxes[t["number"]], MARKS[t["status"]], sc.px, sc.k)
+    tagged = sorted(screen["targets"], key=lambda t: (TAG_ORDER.index(t["status"]), t["number"]))
+    texts = [tag_text(t["number"], t["status"]) for t in tagged]
+    spots = place_tags([boxes[t["number"]] for t in tagged], [tag_size(x, sc) for x in texts], base.size,
+                       gap=sc.px(2), clear=sc.px(1))
+    for spot in spots:
+        if spot.leader:
+            _leader(draw, spot.leader, sc)
+    for t, text, spot in zip(tagged, texts, spots):
+        _tag(draw, spot.rect, text, MARKS[t["status"]], sc)
     notes = (fit.note or fit.refusal,) if fit is not None and (fit.note or fit.refusal) else ()
-    return _with_legend(base, screen, s, notes), fit
+    if knocked:
+        notes += ("the marker boxes drawn on this screenshot are greyed out, so they cannot be taken for these marks",)
+    return _with_legend(base, screen, sc, notes), fit
 
 
-def _fit_text(text: str, font: ImageFont.ImageFont | ImageFont.FreeTypeFont, width: float) -> list[str]:
-    """`text` in lines no wider than `width` pixels, broken at spaces (a long word stays whole)."""
+# ----------------------------------------------------------------------------- legend
+
+
+NBSP = "\u00a0"
+
+
+def _split_word(word: str, font: ImageFont.ImageFont | ImageFont.FreeTypeFont, width: float) -> list[str]:
+    """A word too long for a line, broken after a '/' where it can be, else between letters."""
+    out: list[str] = []
+    while word and font.getlength(word) > width:
+        cut = max(1, max((k + 1 for k in range(len(word)) if word[k] in "/\\_-" and font.getlength(word[:k + 1])
+                          <= width), default=0))
+        if cut == 1 or font.getlength(word[:cut]) > width:
+            cut = 1
+            while cut < len(word) and font.getlength(word[:cut + 1]) <= width:
+                cut += 1
+        out.append(word[:cut])
+        word = word[cut:]
+    return out + ([word] if word else [])
+
+
+def fit_text(text: str, font: ImageFont.ImageFont | ImageFont.FreeTypeFont, width: float) -> list[str]:
+    """`text` in lines no wider than `width` pixels, broken at spaces (a longer word broken too)."""
     lines: list[str] = []
     for word in text.split(" "):
+        word = word.replace(NBSP, " ")  # a no-break space holds words together; drawn as a space
         if lines and font.getlength(lines[-1] + " " + word) <= width:
             lines[-1] += " " + word
-        else:
-            lines.append(word)
-    return lines
+            continue
+        lines += _split_word(word, font, width)
+    return lines or [""]
 
 
-def _with_legend(base: Image.Image, screen: dict[str, Any], s: int, notes: tuple[str, ...] = ()) -> Image.Image:
-    font = _font(12 * s)
-    rows = [f"{screen['path']}" + (f" :: {screen['name']}" if screen["name"] else "")]
+class LegendRow(NamedTuple):
+    swatch: str  # a status, "square", "circle", "tag" or "" for plain text
+    text: str
+
+
+def legend_rows(screen: dict[str, Any], notes: tuple[str, ...] = ()) -> list[LegendRow]:
     counts = screen["summary"]
-    rows.append(", ".join(f"{counts[k]} {k}" for k in ("pass", "fail", "partial", "unchecked", "exempt") if counts[k]))
-    for note in notes:  # alignment notes are long and matter: wrapped to the picture, never cut off
-        rows += _fit_text(note, font, base.width - 16 * s)
-    line_h = 18 * s
-    height = line_h * (len(rows) + len(MARKS) + 2) + 8 * s
-    out = Image.new("RGB", (base.width, base.height + height), PAPER)
+    rows = [LegendRow("", f"{screen['path']}" + (f" :: {screen['name']}" if screen["name"] else "")),
+            LegendRow("", ", ".join(f"{counts[k]} {k}" for k in ("pass", "fail", "partial", "unchecked", "exempt")
+                                    if counts[k]))]
+    rows += [LegendRow("", note) for note in notes]
+    rows += [LegendRow(status, mark.words) for status, mark in MARKS.items()]
+    rows += [LegendRow("square", "dashed black-and-white square: the minimum size the target must hold"),
+             LegendRow("circle", "sky-blue circle: WCAG 2.5.8 spacing circle (dashed where it hits another target)"),
+             LegendRow("tag", "tag: target number, status colour and sign; a line leads to a tag set aside")]
+    return rows
+
+
+def _with_legend(base: Image.Image, screen: dict[str, Any], sc: Scale, notes: tuple[str, ...] = ()) -> Image.Image:
+    font = _font(sc.px(TAG_TEXT))
+    margin, indent, line_h = sc.px(8), sc.px(52), sc.px(17)
+    laid: list[tuple[str, list[str]]] = []
+    for row in legend_rows(screen, notes):
+        x = indent if row.swatch else margin
+        laid.append((row.swatch, fit_text(row.text, font, max(1, base.width - x - margin))))
+    swatch_h = sc.px(22)  # a row with a sample mark is taller than a line of text: the mark must read
+    heights = [max(len(lines) * line_h, swatch_h if swatch else 0) for swatch, lines in laid]
+    out = Image.new("RGB", (base.width, base.height + sum(heights) + 2 * margin), PAPER)
     out.paste(base, (0, 0))
     draw = ImageDraw.Draw(out)
-    y = base.height + 6 * s
-    for text in rows:
-        draw.text((8 * s, y), text, fill=INK, font=font)
-        y += line_h
-    for mark in MARKS.values():
-        _rect(draw, (8 * s, y + 3 * s, 44 * s, y + 14 * s), mark.colour, mark.width * s, tuple(d * s for d in mark.dash))
-        draw.text((52 * s, y), mark.words, fill=INK, font=font)
-        y += line_h
-    _rect(draw, (8 * s, y + 3 * s, 44 * s, y + 14 * s), SQUARE, s, (6 * s, 4 * s))
-    draw.text((52 * s, y), "dashed square: the minimum size the target must hold", fill=INK, font=font)
-    y += line_h
-    _circle(draw, 26 * s, y + 8 * s, 8 * s, 6 * s, CIRCLE, s, dashed=False)
-    draw.text((52 * s, y), "circle: WCAG 2.5.8 spacing circle (dashed where it hits another target)", fill=INK, font=font)
+    y = base.height + margin
+    for (swatch, lines), row_h in zip(laid, heights):
+        if swatch:
+            _legend_swatch(draw, swatch, (margin, y + sc.px(1), indent - sc.px(8), y + swatch_h - sc.px(3)), sc)
+        top = y + (swatch_h - len(lines) * line_h) / 2 if swatch and len(lines) * line_h < swatch_h else y
+        for k, text in enumerate(lines):
+            draw.text((indent if swatch else margin, top + k * line_h), text, fill=INK, font=font)
+        y += row_h
     return out
+
+
+def _legend_swatch(draw: ImageDraw.ImageDraw, kind: str, box: Rect, sc: Scale) -> None:
+    if kind in MARKS:
+        _mark(draw, box, MARKS[kind], sc.px, sc.k / 3)
+    elif kind == "square":
+        _square(draw, box, sc.px)
+    elif kind == "circle":
+        cy, ry = (box[1] + box[3]) / 2, (box[3] - box[1]) / 2
+        _circle(draw, (box[0] + box[2]) / 2, cy, ry * 1.4, ry, CIRCLE, sc.px(1), dashed=False)
+    elif kind == "tag":
+        text = "#n"
+        tw, th = tag_size(text, sc)
+        _tag(draw, (box[0], (box[1] + box[3] - th) / 2, box[0] + tw, (box[1] + box[3] + th) / 2), text,
+             MARKS["pass"], sc)
+
+
+# ----------------------------------------------------------------------------- files
+
+
+def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
+    """A palette PNG of `img` in at most `colours` colours, every mark colour kept exact.
+
+    The marks' colours (MARK_COLOURS) take palette places of their own; the picture's other
+    colours share the rest (Pillow's median cut). Each distinct colour then takes its nearest
+    entry, measured exactly (Pillow's own mapping works at reduced precision and can move a
+    mark's pixels to a neighbouring entry), with no dithering: a mark's pixels keep its colour.
+    """
+    rgb = img.convert("RGB")
+    rest = max(1, colours - len(MARK_COLOURS))
+    others = rgb.quantize(rest, dither=Image.Dither.NONE).getpalette() or []
+    found = [tuple(others[k:k + 3]) for k in range(0, min(len(others), 3 * rest), 3)]
+    entries = list(dict.fromkeys([*MARK_COLOURS, *found]))[:max(colours, len(MARK_COLOURS))]
+    arr = np.asarray(rgb).reshape(-1, 3).astype(np.int64)
+    packed = (arr[:, 0] << 16) | (arr[:, 1] << 8) | arr[:, 2]
+    distinct, where = np.unique(packed, return_inverse=True)
+    cols = np.stack([(distinct >> 16) & 255, (distinct >> 8) & 255, distinct & 255], axis=1)
+    palette = np.array(entries, dtype=np.int64)
+    nearest = np.empty(len(cols), dtype=np.uint8)
+    for start in range(0, len(cols), 8192):  # in slices: a photo-like picture has many colours
+        part = cols[start:start + 8192]
+        nearest[start:start + 8192] = ((part[:, None, :] - palette[None, :, :]) ** 2).sum(axis=2).argmin(axis=1)
+    out = Image.fromarray(nearest[where.reshape(-1)].reshape(rgb.height, rgb.width), "P")
+    out.putpalette([v for c in entries for v in c])
+    buf = io.BytesIO()
+    out.save(buf, "PNG", optimize=True)
+    return buf.getvalue()
 
 
 def overlay_name(screen: dict[str, Any]) -> Path:
@@ -287,7 +816,7 @@ class Written(NamedTuple):
     notice: str  # what the user should hear about this picture (on stderr); "" when all went well
 
 
-def write_overlay(screen: dict[str, Any], report: Report, folder: Path) -> Written:
+def write_overlay(screen: dict[str, Any], report: Report, folder: Path, text_scale: float = 1.0) -> Written:
     """A screen's overlay under `folder`, written atomically; the screenshot is let go at once."""
     image = None
     notice = ""
@@ -299,7 +828,7 @@ def write_overlay(screen: dict[str, Any], report: Report, folder: Path) -> Writt
             # The reader already vetted it; a file that vanished or changed since falls back to wireframe.
             image = None
             notice = f"cannot read the screenshot {screen['image']} ({exc}); wireframe drawn instead"
-    picture, fit = render(screen, report, image)
+    picture, fit = render(screen, report, image, text_scale=text_scale)
     if fit is not None and fit.refusal:
         notice = fit.refusal
     path = folder / overlay_name(screen)
