@@ -16,14 +16,15 @@ from typing import Any
 
 import numpy as np
 import pytest
+from conftest import DEMO, REPO
 from PIL import Image, ImageDraw
 from shapely.geometry import LineString, Point, box
 
-from conftest import DEMO, REPO
 from tapgauge.batch import prepare
 from tapgauge.cli import main
 from tapgauge.model import Severity
 from tapgauge.readers.marked import MARKER_HUES, find_boxes
+from tapgauge.report.markers import knock_back_markers
 from tapgauge.report.overlay import (
     CIRCLE,
     INK,
@@ -32,16 +33,15 @@ from tapgauge.report.overlay import (
     PAPER,
     SQUARE,
     draw_overlay,
-    knock_back_markers,
     overlay_name,
     picture_scale,
-    place_tags,
     png_bytes,
     render,
     tag_size,
     tag_text,
 )
 from tapgauge.report.records import Report
+from tapgauge.report.tags import place_tags
 
 FAIL = MARKS["fail"].colour
 

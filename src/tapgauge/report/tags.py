@@ -1,0 +1,204 @@
+"""Where each target's tag goes on an overlay: beside its box where there is room, else moved
+aside with a leader line, never over another tag or any target, never past the picture's edge.
+
+Pure geometry on numpy arrays (boxes in, tag rectangles out), so it is tested without drawing.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import NamedTuple
+
+import numpy as np
+
+Rect = tuple[float, float, float, float]  # left, top, right, bottom (right and bottom exclusive)
+Point = tuple[float, float]
+
+
+class TagSpot(NamedTuple):
+    rect: Rect
+    leader: tuple[Point, Point] | None  # tag end, box end; None when the tag sits beside its box
+
+
+def _overlap_areas(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Overlap area of every rectangle in `a` (n, 4) with every one in `b` (m, 4): (n, m)."""
+    w = np.minimum(a[:, None, 2], b[None, :, 2]) - np.maximum(a[:, None, 0], b[None, :, 0])
+    h = np.minimum(a[:, None, 3], b[None, :, 3]) - np.maximum(a[:, None, 1], b[None, :, 1])
+    return np.clip(w, 0, None) * np.clip(h, 0, None)
+
+
+def _gaps(rects: np.ndarray, box: Rect) -> np.ndarray:
+    """Distance from each rectangle (n, 4) to `box` (0 where they touch or overlap)."""
+    dx = np.maximum(0.0, np.maximum(box[0] - rects[:, 2], rects[:, 0] - box[2]))
+    dy = np.maximum(0.0, np.maximum(box[1] - rects[:, 3], rects[:, 1] - box[3]))
+    return np.hypot(dx, dy)
+
+
+def _nearest(a: np.ndarray, b: np.ndarray, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
+    """On one axis, the closest pair of points between each [a, b] and [lo, hi]."""
+    mid = (np.maximum(a, lo) + np.minimum(b, hi)) / 2
+    near = np.where(b <= lo, b, np.where(a >= hi, a, mid))
+    far = np.where(b <= lo, lo, np.where(a >= hi, hi, mid))
+    return near, far
+
+
+def _leaders(rects: np.ndarray, box: Rect) -> tuple[np.ndarray, np.ndarray]:
+    """The shortest line from each rectangle's edge (n, 4) to the box's edge: start and end points (n, 2)."""
+    tx, bx = _nearest(rects[:, 0], rects[:, 2], box[0], box[2])
+    ty, by = _nearest(rects[:, 1], rects[:, 3], box[1], box[3])
+    return np.column_stack([tx, ty]), np.column_stack([bx, by])
+
+
+def leader_line(tag: Rect, box: Rect) -> tuple[Point, Point]:
+    """The shortest straight line from a tag's edge to its box's edge."""
+    a, b = _leaders(np.array([tag], dtype=float), box)
+    return (float(a[0, 0]), float(a[0, 1])), (float(b[0, 0]), float(b[0, 1]))
+
+
+def _crossings(p0: np.ndarray, p1: np.ndarray, rects: np.ndarray) -> np.ndarray:
+    """Whether each segment p0->p1 (n, 2) passes through the inside of each rectangle (m, 4): (n, m).
+    Liang and Barsky's clipping: the part of the segment inside is t in [t0, t1]."""
+    if not len(p0) or not len(rects):
+        return np.zeros((len(p0), len(rects)), dtype=bool)
+    d = (p1 - p0)[:, None, :]
+    o = p0[:, None, :]
+    lo, hi = rects[None, :, :2], rects[None, :, 2:]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ta, tb = (lo - o) / d, (hi - o) / d
+    enter = np.where(d == 0, np.where((o > lo) & (o < hi), -np.inf, np.inf), np.minimum(ta, tb))
+    leave = np.where(d == 0, np.where((o > lo) & (o < hi), np.inf, -np.inf), np.maximum(ta, tb))
+    t0 = np.maximum(enter.max(axis=2), 0.0)
+    t1 = np.minimum(leave.min(axis=2), 1.0)
+    return t1 - t0 > 1e-9
+
+
+def _segments_cross(p0: np.ndarray, p1: np.ndarray, lines: np.ndarray) -> np.ndarray:
+    """Whether each segment p0->p1 (n, 2) properly crosses each line (m, 4: x0, y0, x1, y1): (n, m)."""
+    if not len(p0) or not len(lines):
+        return np.zeros((len(p0), len(lines)), dtype=bool)
+    q0, q1 = lines[None, :, :2], lines[None, :, 2:]
+    a, b = p0[:, None, :], p1[:, None, :]
+
+    def side(o: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
+        return np.sign((u[..., 0] - o[..., 0]) * (v[..., 1] - o[..., 1])
+                       - (u[..., 1] - o[..., 1]) * (v[..., 0] - o[..., 0]))
+
+    return (side(a, b, q0) * side(a, b, q1) < 0) & (side(q0, q1, a) * side(q0, q1, b) < 0)
+
+
+def place_tags(boxes: Sequence[Rect], sizes: Sequence[tuple[float, float]], area: tuple[float, float],
+               gap: float = 2.0, clear: float = 0.0) -> list[TagSpot]:
+    """Where each box's tag goes, boxes taken in the order given (put the most telling first).
+
+    A tag of sizes[i] (width, height) goes just above, below, left or right of boxes[i]
+    where that spot covers no target's box (each grown by `clear`, the marks' reach), no tag
+    placed before it (kept `gap` apart) and no leader line drawn before it. Else it goes to the
+    nearest such spot within 8 tag heights, with a leader line from tag to box that, where it
+    can, crosses no tag, no earlier leader and no other box; a box four times the tag's size
+    may instead hold its tag in its own right-hand corner. Only when nothing near is free of
+    tags and boxes is the whole picture searched. Every tag lies inside `area` (width, height).
+    A box that holds another (a row round its buttons) is no obstacle to the inner box's tag.
+    """
+    width, height = area
+    obstacles = np.array([(l - clear, t - clear, r + clear, b + clear) for l, t, r, b in boxes],
+                         dtype=float).reshape(-1, 4)
+    placed = np.zeros((0, 4))
+    lines = np.zeros((0, 4))  # leaders drawn so far: x0, y0, x1, y1
+    spots: list[TagSpot] = []
+    for i, (box, (tw, th)) in enumerate(zip(boxes, sizes)):
+        tw, th = min(tw, width), min(th, height)
+        l, t, r, b = box
+        g = gap + clear
+        # A box holding this one (a list row round its buttons) is no obstacle: the tag may sit on
+        # it, beside its own box, as the box itself does.
+        holds = ((obstacles[:, 0] <= l) & (obstacles[:, 1] <= t) & (obstacles[:, 2] >= r) & (obstacles[:, 3] >= b))
+        holds[i] = True
+        others = obstacles[~holds]
+        beside = [(l, t - g - th), (r - tw, t - g - th), (l, b + g), (r - tw, b + g),
+                  (l - g - tw, t), (r + g, t), (l - g - tw, b - th), (r + g, b - th)]
+        # Inside its own box's right-hand corners: the last resort before covering or crossing
+        # another box, for a box four times the tag or more (rows stacked edge to edge); a row's
+        # words mostly start on the left.
+        roomy = 4 * tw * th <= (r - l) * (b - t) and tw + 2 * g <= r - l and th + 2 * g <= b - t
+        inside = [(r - g - tw, t + g), (r - g - tw, b - g - th), (l + g, t + g), (l + g, b - g - th)] if roomy else []
+        look = _Look(box, tw, th, g, obstacles[i], others, placed, lines, gap, area, roomy)
+        best = look.best(np.array(beside, dtype=float))
+        if best.cost[:7] != (0,) * 7:  # not beside the box: the nearest free spot around it
+            best = min(best, look.best(_grid(box, tw, th, 8 * th, max(th / 2, 1.0)), rank=1))
+        if inside and best.cost[:7] != (0,) * 7:  # (before a spot pushed inside by the picture's edge)
+            best = min(best, look.best(np.array(inside, dtype=float), rank=-1))
+        if best.cost[:3] != (0,) * 3:  # every spot near covers a tag or a box: anywhere in the picture
+            whole = (0.0, 0.0, float(width), float(height))
+            best = min(best, look.best(_grid(whole, tw, th, 0.0, max(th / 2, 1.0)), rank=1))
+        spots.append(TagSpot(best.rect, best.leader))
+        placed = np.vstack([placed, [best.rect]])
+        if best.leader:
+            lines = np.vstack([lines, [[*best.leader[0], *best.leader[1]]]])
+    return spots
+
+
+class _Spot(NamedTuple):
+    # other tags' area covered, other boxes' area covered, its own box's area covered unless the
+    # box is roomy, tags crossed (this tag over an earlier leader, its leader through an earlier
+    # tag), earlier leaders its leader crosses, other boxes its leader crosses, its own box's
+    # area covered, distance from the box, then the kind of spot: inside the own box's corners
+    # (-1), listed beside it (0), searched for (1)
+    cost: tuple[float, ...]
+    rect: Rect
+    leader: tuple[Point, Point] | None
+
+
+@dataclass(frozen=True)
+class _Look:
+    """What one tag's spots are judged against."""
+
+    box: Rect
+    tw: float
+    th: float
+    g: float  # a tag this close to its box needs no leader
+    own: np.ndarray  # this tag's box, grown by the marks' reach
+    others: np.ndarray  # every other box, grown alike
+    placed: np.ndarray
+    lines: np.ndarray
+    gap: float
+    area: tuple[float, float]
+    roomy: bool  # a tag may cover a corner of its own box, rather than lead across another
+
+    def best(self, corners: np.ndarray, rank: int = 0) -> _Spot:
+        """The best of `corners` (top-left points, clamped into the picture), by `_Spot.cost`."""
+        x = np.clip(corners[:, 0], 0, max(0.0, self.area[0] - self.tw))
+        y = np.clip(corners[:, 1], 0, max(0.0, self.area[1] - self.th))
+        rects = np.column_stack([x, y, x + self.tw, y + self.th])
+        n = len(rects)
+        grown = rects + np.array([-self.gap, -self.gap, self.gap, self.gap])
+        on_tags = _overlap_areas(grown, self.placed).sum(axis=1) if len(self.placed) else np.zeros(n)
+        # A tag over an earlier leader hides it; a leader through an earlier tag is lost under it.
+        seg = self.lines
+        over_lines = (_crossings(seg[:, :2], seg[:, 2:], grown).sum(axis=0) if len(seg) else np.zeros(n))
+        on_boxes = _overlap_areas(rects, self.others).sum(axis=1) if len(self.others) else np.zeros(n)
+        on_own = _overlap_areas(rects, self.own[None, :])[:, 0]
+        dist = _gaps(rects, self.box)
+        moved = dist > self.g + 0.5
+        a, z = _leaders(rects, self.box)
+        lead_tags = np.where(moved, _crossings(a, z, _grown(self.placed, self.gap)).sum(axis=1), 0)
+        lead_lines = np.where(moved, _segments_cross(a, z, seg).sum(axis=1), 0)
+        lead_boxes = np.where(moved, _crossings(a, z, self.others).sum(axis=1), 0)
+        crossed = over_lines + lead_tags
+        on_small = on_own * (not self.roomy)
+        keys = (on_tags, on_boxes, on_small, crossed, lead_lines, lead_boxes, on_own, dist)
+        k = int(np.lexsort((np.arange(n), *keys[::-1]))[0])
+        rect = tuple(float(v) for v in rects[k])
+        leader = ((float(a[k, 0]), float(a[k, 1])), (float(z[k, 0]), float(z[k, 1]))) if moved[k] else None
+        return _Spot((*(float(v[k]) for v in keys), rank), rect, leader)  # type: ignore[arg-type]
+
+
+def _grown(placed: np.ndarray, gap: float) -> np.ndarray:
+    return placed + np.array([-gap, -gap, gap, gap]) if len(placed) else placed
+
+
+def _grid(box: Rect, tw: float, th: float, reach: float, step: float) -> np.ndarray:
+    xs = np.arange(box[0] - reach - tw, box[2] + reach + step / 2, step)
+    ys = np.arange(box[1] - reach - th, box[3] + reach + step / 2, step)
+    gx, gy = np.meshgrid(xs, ys)
+    return np.column_stack([gx.ravel(), gy.ravel()])
