@@ -51,7 +51,10 @@ def test_every_finding_appears_once_and_links_resolve(demo_html: tuple[Path, dic
     path, report = demo_html
     doc = lxml_html.fromstring(path.read_bytes())
     findings = sum(len(t["findings"]) for s in report["screens"] for t in s["targets"])
-    assert len(doc.xpath("//tr[@data-ruleset]")) == findings
+    assert len(doc.xpath("//li[@data-ruleset]")) == findings
+    # One row per target with its findings stacked inside it (no finding repeats its target).
+    with_findings = sum(1 for s in report["screens"] for t in s["targets"] if t["findings"])
+    assert len(doc.xpath("//tr[contains(@class, 'target')]")) == with_findings
     ids = set(doc.xpath("//@id"))
     for href in doc.xpath("//a/@href"):
         if href.startswith("#"):
@@ -89,7 +92,9 @@ def test_the_report_passes_its_own_basics(demo_html: tuple[Path, dict]) -> None:
     for name in ("ink", "muted", "accent"):
         assert _contrast(colours[name], colours["paper"]) >= 4.5, name
         assert _contrast(colours[name], colours["band"]) >= 4.5, name
-    for status_colour in re.findall(r"\.s-[a-z]+ \{ color: (#[0-9a-f]{6}); \}", CSS):
+    found = re.findall(r"\.[sv]-[a-z]+ \{ color: (#[0-9a-f]{6}); \}", CSS)
+    assert len(found) >= 7  # four status colours (unchecked is the muted ink) and three severities
+    for status_colour in found:
         assert _contrast(status_colour, colours["paper"]) >= 4.5
 
 

@@ -152,13 +152,18 @@ MD_COLUMNS = ("screen", "target", "label", "rule", "severity", "status", "measur
               "width_mm", "height_mm", "miss_probability", "waiver", "fix")
 
 
+def _md_heading(column: str, profile: str) -> str:
+    """A column's heading; the miss column names the profile its predictions are for."""
+    return f"miss_probability ({md_text(profile)})" if column == "miss_probability" and profile else column
+
+
 def write_markdown(report: Report, out: TextIO, width: int | None = None) -> None:
     """Totals first, so it is given a spooled report (its screens are read twice)."""
     out.write("\n".join([
         "# Touch target findings", "",
         md_text(summary_line(report.summary, report.fail_level)) + ".", "",
         f"Measured by tapgauge. {DISCLAIMER}", "",
-        "| " + " | ".join(MD_COLUMNS) + " |",
+        "| " + " | ".join(_md_heading(c, first_profile(report)) for c in MD_COLUMNS) + " |",
         "|" + "|".join("---" for _ in MD_COLUMNS) + "|",
     ]) + "\n")
     for row in finding_rows(report):

@@ -1,10 +1,12 @@
 """A self-contained HTML report for auditors: one file, no network, no external assets.
 
-Summary by screen and by rule, each screen's overlay picture beside its findings, a
-small crop of each failing target, filters (rule set, status, screen) that work from
-the file alone, a chart of predicted time against index of difficulty, and the
-published source of every rule. Print-friendly; headings, table headers, alt text,
-labelled controls and high-contrast text, so the report passes its own basics.
+Summary by screen and by rule; per screen its overlay picture beside one row per target
+(the target, a crop, its findings stacked with their severity, fix or waiver, and its
+predicted misses with their caveat); a chart of predicted miss against size in mm per
+profile with the rule minimums; filters (rule set, status, screen) that work from the
+file alone; and the published source of every rule. Nothing scrolls sideways at 1024 px
+and up; printed, each screen starts an A4 page and its picture is never split. Headings,
+table headers, alt text, labelled controls and high-contrast text: it passes its own basics.
 """
 
 from __future__ import annotations
@@ -17,15 +19,18 @@ from html import escape
 from pathlib import Path
 from typing import Any, TextIO
 
+from tapgauge.device import MM_PER_INCH
 from tapgauge.report.findings import first_profile, rule_index, screen_rows
 from tapgauge.report.records import Report
 from tapgauge.report.verdict import DISCLAIMER, summary_line
 
-OVERLAY_WIDTH = 400  # px: pictures are drawn small so a report of hundreds of screens stays light
+OVERLAY_WIDTH = 720  # px drawn; shown at half that (OVERLAY_SHOWN) with text drawn twice as large, so
+OVERLAY_SHOWN = 360  # tags read at about 12 px; "Enlarge" shows the picture at its drawn size
 CROP_SIZE = 96  # px: the longer side of a target's crop
-PROFILE_MARKS = (("#0072B2", "circle"), ("#D55E00", "square"), ("#009E73", "diamond"), ("#CC79A7", "triangle"))
 STATUS_WORDS = {"pass": "pass", "fail": "fail", "partial": "partial", "exempt": "exempt (waived)",
                 "unchecked": "unchecked"}
+MISS_CAVEAT = ("Predicted misses are model estimates for comparing designs and people, not a promise of how a "
+               "person will do; the figure in brackets is relative to the typical adult.")
 
 CSS = """
 :root { --ink: #1a1a1a; --muted: #4a4a4a; --line: #c9c9c9; --paper: #ffffff; --band: #f2f4f1; --accent: #0b5394; }
@@ -43,37 +48,78 @@ a:focus, input:focus, select:focus, button:focus { outline: 3px solid #e69f00; o
 .note { background: var(--band); border-left: 4px solid var(--ink); padding: 8px 12px; }
 .totals { display: flex; flex-wrap: wrap; gap: 8px 18px; padding: 0; list-style: none; }
 .totals li { font-weight: 600; }
-table { border-collapse: collapse; width: 100%; margin: 6px 0 14px; }
+table { border-collapse: collapse; width: 100%; margin: 6px 0 14px; table-layout: fixed; }
 caption { text-align: left; font-weight: 600; padding: 4px 0; }
-th, td { border: 1px solid var(--line); padding: 4px 6px; text-align: left; vertical-align: top; }
-thead th { background: var(--band); }
-td.num { text-align: right; font-variant-numeric: tabular-nums; }
+th, td { border: 1px solid var(--line); padding: 4px 6px; text-align: left; vertical-align: top;
+         overflow-wrap: anywhere; }
+thead th { background: var(--band); font-size: 0.88rem; overflow-wrap: normal; hyphens: manual; }
+.id { display: inline-block; max-width: 100%; overflow-wrap: anywhere; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+.nowrap, .badge { white-space: nowrap; }
 .badge { display: inline-block; padding: 0 6px; border-radius: 3px; font-weight: 600; border: 1px solid currentColor; }
 .s-fail { color: #a23c00; } .s-pass { color: #005a8c; } .s-exempt { color: #00684c; }
 .s-partial { color: #8a3466; } .s-unchecked { color: var(--muted); }
-.sev-error { font-weight: 700; } .sev-note { color: var(--muted); }
+.v-error { color: #a3000b; } .v-warning { color: #6b4e00; } .v-note { color: #4a4a4a; }
+.badge.v-error { font-weight: 700; } .badge.v-note { font-weight: 500; border-style: dashed; }
 #filters fieldset { display: inline-block; border: 1px solid var(--line); margin: 0 12px 8px 0; padding: 6px 10px; }
 #filters label { margin-right: 10px; white-space: nowrap; }
 article.screen { border-top: 2px solid var(--ink); padding-top: 12px; margin-top: 22px; }
 .device { color: var(--muted); margin: 0 0 8px; }
-.pair { display: grid; grid-template-columns: minmax(220px, 340px) 1fr; gap: 16px; align-items: start; }
-.pair figure { margin: 0; }
-.pair > div { min-width: 0; overflow-x: auto; }
-td, th { overflow-wrap: break-word; }
-td.num, .badge, thead th { white-space: nowrap; }
+.pair { display: grid; grid-template-columns: 360px minmax(0, 1fr); gap: 16px; align-items: start; }
+.pair figure { margin: 0; min-width: 0; }
+.pair > div { min-width: 0; }
 .pair img.overlay { width: 100%; height: auto; border: 1px solid var(--line); }
+.pair .side { min-width: 0; }
+.pair .side.zoomed { grid-column: 1 / -1; }
+.pair .side.zoomed img.overlay { width: auto; max-width: 100%; }
+button.zoom { font: inherit; margin-top: 4px; }
 figcaption { color: var(--muted); font-size: 0.9rem; }
-img.crop { max-width: 96px; height: auto; border: 1px solid var(--line); display: block; }
-.chart svg { max-width: 100%; height: auto; }
+img.crop { max-width: 96px; max-height: 96px; height: auto; border: 1px solid var(--line); display: block; margin-top: 4px; }
+table.targets col.t { width: 28%; } table.targets col.f { width: 48%; } table.targets col.m { width: 24%; }
+ul.findings, ul.misses { list-style: none; margin: 0; padding: 0; }
+ul.findings li { margin: 0 0 8px; } ul.findings li:last-child { margin-bottom: 0; }
+ul.findings .what { display: block; }
+ul.findings .how { display: block; color: var(--muted); font-size: 0.92rem; }
+.caveat { color: var(--muted); font-size: 0.9rem; }
+.charts { display: flex; flex-wrap: wrap; gap: 12px; margin-top: 10px; }
+.charts figure { margin: 0; flex: 1 1 250px; max-width: 360px; }
+.charts svg { width: 100%; height: auto; }
+.chart-key { font-size: 0.9rem; color: var(--muted); margin: 4px 0 0; }
 .empty { color: var(--muted); font-style: italic; }
 dl.sources dt { font-weight: 700; margin-top: 8px; }
-dl.sources dd { margin: 0 0 0 16px; }
-@media (max-width: 760px) { .pair { grid-template-columns: 1fr; } }
+dl.sources dd { margin: 0 0 0 16px; overflow-wrap: anywhere; }
+@media (max-width: 760px) { .pair { grid-template-columns: minmax(0, 1fr); } }
 @media print {
-  #filters, .skip { display: none !important; }
-  body { font-size: 10.5pt; } header, main { max-width: none; padding: 0; }
-  article.screen { break-inside: avoid-page; } tr { break-inside: avoid; }
-  a { color: var(--ink); } a[href^="http"]::after { content: " (" attr(href) ")"; font-size: 0.85em; }
+  @page { size: A4; margin: 10mm; }
+  #filters, .skip, button.zoom, img.crop, .caveat { display: none !important; }
+  body { font-size: 8pt; line-height: 1.3; } header, main { max-width: none; padding: 0; }
+  h2, h3, caption { break-after: avoid-page; }
+  h3 { font-size: 10.5pt; }
+  #screens { break-before: page; }
+  #screens > h2 { margin-top: 0; }
+  article.screen + article.screen { break-before: page; }
+  article.screen { border-top: none; margin-top: 0; padding-top: 0; }
+  /* Picture and charts in a narrow left column, the findings beside them: a screen fits one page. */
+  article.screen { display: grid; grid-template-columns: 50mm minmax(0, 1fr); column-gap: 4mm; align-items: start; }
+  article.screen > h3, article.screen > .device { grid-column: 1 / -1; }
+  .pair { display: contents; }
+  .pair .side { grid-column: 1; grid-row: 3; }
+  .pair .list { grid-column: 2; grid-row: 3 / span 2; }
+  article.screen > .charts { grid-column: 1; grid-row: 4; flex-direction: column; flex-wrap: nowrap; }
+  .pair figure, .charts figure, img { break-inside: avoid; }
+  .pair img.overlay { width: auto; max-width: 100%; max-height: 125mm; }
+  ul.findings li { margin-bottom: 3px; } ul.findings .how { font-size: 7.5pt; }
+  th, td { padding: 2px 4px; }
+  .charts { gap: 1mm; margin-top: 2mm; } .charts figure { flex: none; max-width: none; }
+  .charts svg { max-height: 30mm; }
+  article.screen > .chart-key { grid-column: 1 / -1; grid-row: 5; }
+  ul.findings .what, ul.findings .how { display: inline; } ul.findings .how::before { content: " / "; }
+  table.targets { font-size: 7.5pt; } table.targets col.t { width: 22%; } table.targets col.f { width: 60%; }
+  table.targets col.m { width: 18%; }
+  .chart-key { font-size: 7pt; }
+  tr { break-inside: avoid; }
+  a { color: var(--ink); text-decoration: none; }
+  dl.sources a[href^="http"]::after { content: " (" attr(href) ")"; font-size: 0.85em; }
   [hidden] { display: revert !important; }
 }
 """
@@ -94,15 +140,28 @@ SCRIPT = """
     document.querySelectorAll('article.screen').forEach(function (a) {
       var on = !screen || a.getAttribute('data-screen') === screen;
       a.hidden = !on;
-      a.querySelectorAll('tr[data-ruleset]').forEach(function (row) {
-        var visible = on && sets[row.getAttribute('data-ruleset')] && states[row.getAttribute('data-status')];
-        row.hidden = !visible;
-        if (visible) { shown += 1; }
+      a.querySelectorAll('tr.target').forEach(function (row) {
+        var any = false;
+        row.querySelectorAll('li[data-ruleset]').forEach(function (item) {
+          var visible = on && sets[item.getAttribute('data-ruleset')] && states[item.getAttribute('data-status')];
+          item.hidden = !visible;
+          if (visible) { shown += 1; any = true; }
+        });
+        row.hidden = !any;
       });
     });
     count.textContent = shown + (shown === 1 ? ' finding shown' : ' findings shown');
   }
   panel.querySelectorAll('input, select').forEach(function (e) { e.addEventListener('change', apply); });
+  document.querySelectorAll('button.zoom').forEach(function (b) {
+    b.hidden = false;
+    b.addEventListener('click', function () {
+      var fig = b.closest('.side');
+      var on = fig.classList.toggle('zoomed');
+      b.setAttribute('aria-pressed', on ? 'true' : 'false');
+      b.textContent = on ? 'Show smaller' : 'Enlarge the picture';
+    });
+  });
   apply();
 })();
 """
@@ -114,8 +173,11 @@ def _data_uri(img: Any, fmt: str = "JPEG", quality: int = 72) -> str:
         img.convert("RGB").save(buf, "JPEG", quality=quality, optimize=True)
         mime = "image/jpeg"
     else:
-        # Overlays are flat colour and line art: 64 colours keep them sharp at a third of a JPEG's size.
-        img.convert("RGB").quantize(64).save(buf, "PNG", optimize=True)
+        # Overlays are flat colour and line art: 64 colours keep them sharp at a third of a JPEG's size,
+        # with every mark's colour kept exact (a status must not drift towards another's colour).
+        from tapgauge.report.overlay import png_bytes
+
+        buf.write(png_bytes(img, 64))
         mime = "image/png"
     return f"data:{mime};base64,{base64.b64encode(buf.getvalue()).decode('ascii')}"
 
@@ -133,10 +195,17 @@ def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, st
             shot.load()
         except OSError:
             shot = None
-    small = draw_overlay(screen, report, shot, max_width=OVERLAY_WIDTH)
+    small = draw_overlay(screen, report, shot, max_width=OVERLAY_WIDTH, text_scale=OVERLAY_WIDTH / OVERLAY_SHOWN)
     fit = align(screen, shot.size) if shot is not None else None
     if shot is not None and fit is not None and fit.on_picture:  # crops sit where the overlay puts the boxes
         source, fx, fy = shot.convert("RGB"), fit.fx, fit.fy
+        if screen["image"] == screen["path"]:  # a marked screenshot: crops without the tester's strokes too
+            import numpy as np
+
+            from tapgauge.report.markers import knock_back_markers
+
+            rgb, _ = knock_back_markers(np.asarray(source), [tuple(t["bounds"]) for t in screen["targets"]])
+            source = Image.fromarray(rgb)
     else:  # no screenshot, or one the boxes cannot be placed on: crop the wireframe
         source = small
         fx = fy = small.width / screen["width"] if screen["width"] else 1.0
@@ -158,68 +227,121 @@ def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, st
     return _data_uri(small, "PNG"), crops
 
 
-def _chart(screen: dict[str, Any], report: Report) -> str:
-    """Inline SVG: predicted time against ID for this screen's targets, with each profile's line."""
-    profiles = report.profiles
-    points = [(p["id"], t["approach"]["id_bits"], d["time_ms"]) for t in screen["targets"] for d in t["difficulty"]
-              for p in profiles if p["id"] == d["profile"]]
+# Status marks in the chart: shape and fill as well as colour (the colours are the page's status colours).
+POINTS = {"fail": ("#a23c00", "triangle", True), "partial": ("#8a3466", "diamond", False),
+          "exempt": ("#00684c", "square", True), "pass": ("#005a8c", "circle", False)}
+
+
+def _miss_curve(side_mm: float, alpha: float, sigma_a: float) -> float:
+    from tapgauge.difficulty import hit_probability
+
+    return 1.0 - float(hit_probability([side_mm], [side_mm], alpha, sigma_a)[0])  # type: ignore[arg-type]
+
+
+def _minimums_mm(screen: dict[str, Any], report: Report) -> list[tuple[str, float]]:
+    """The screen's size rules as a side in mm: (rule id, mm)."""
+    d = screen["device"]
+    out = []
+    for rs in report.rulesets:
+        if rs["id"] not in screen["rulesets"]:
+            continue
+        for r in rs["rules"]:
+            if r["kind"] != "min-size":
+                continue
+            size = float(r["params"]["size"])
+            mm = size if r["unit"] == "mm" else size * d["coords_per_unit"] / d["xdpi"] * MM_PER_INCH
+            out.append((r["id"], mm))
+    return sorted(out, key=lambda x: x[1])
+
+
+def _charts(screen: dict[str, Any], report: Report) -> str:
+    """Per profile, predicted miss against the target's smaller side in mm: each target a point marked by
+    status, the model's curve for square targets, and the screen's size minimums as vertical lines."""
+    if not screen["device"]["xdpi"]:
+        return ""
+    points: dict[str, list[tuple[float, float, str, int]]] = {}
+    for t in screen["targets"]:
+        if t["size_mm"] is None:
+            continue
+        side = min(t["size_mm"]["width"], t["size_mm"]["height"])
+        for d in t["difficulty"]:
+            if d["miss_probability"] is not None and t["status"] in POINTS:
+                points.setdefault(d["profile"], []).append((side, d["miss_probability"], t["status"], t["number"]))
     if not points:
         return ""
-    w, h, left, bottom, top, right = 460, 250, 52, 40, 14, 120
-    xmax = max(1.0, max(x for _, x, _ in points)) * 1.1
-    ymax = max(1.0, max(y for _, _, y in points), *(p["intercept_ms"] + p["slope_ms_per_bit"] * xmax for p in profiles)) * 1.05
+    minimums = _minimums_mm(screen, report)
+    xmax = max([p[0] for pts in points.values() for p in pts] + [m for _, m in minimums] + [5.0]) * 1.12
+    w, h, left, bottom, top, right = 320, 230, 44, 38, 26, 10
+    figures = []
+    for k, profile in enumerate(p for p in report.profiles if p["id"] in points):
+        uid = f"c{abs(hash((screen['path'], screen['name'], profile['id']))) % 10**8}"
 
-    def X(v: float) -> float:
-        return left + v / xmax * (w - left - right)
+        def X(v: float) -> float:
+            return left + v / xmax * (w - left - right)
 
-    def Y(v: float) -> float:
-        return h - bottom - v / ymax * (h - top - bottom)
+        def Y(v: float) -> float:
+            return h - bottom - v * (h - top - bottom)
 
-    out = [f'<svg viewBox="0 0 {w} {h}" role="img" aria-labelledby="c-{id(screen)}-t c-{id(screen)}-d" '
-           f'xmlns="http://www.w3.org/2000/svg">',
-           f'<title id="c-{id(screen)}-t">Predicted pointing time against index of difficulty</title>',
-           f'<desc id="c-{id(screen)}-d">One mark per target and profile, from the screen\'s start point '
-           f'({escape(str((screen["reach"] or {}).get("from", "")))}); lines are each profile\'s Fitts\'s-law fit.</desc>',
-           f'<line x1="{left}" y1="{Y(0)}" x2="{w - right}" y2="{Y(0)}" stroke="#1a1a1a"/>',
-           f'<line x1="{left}" y1="{Y(0)}" x2="{left}" y2="{top}" stroke="#1a1a1a"/>']
-    step = max(1, math.ceil(xmax / 6))
-    for v in range(0, int(xmax) + 1, step):
-        out.append(f'<text x="{X(v):.1f}" y="{h - bottom + 16}" font-size="11" text-anchor="middle">{v}</text>')
-    ystep = 10 ** math.floor(math.log10(ymax / 4)) if ymax > 4 else 1
-    ystep *= 5 if ymax / ystep > 20 else 2 if ymax / ystep > 10 else 1
-    v = 0.0
-    while v <= ymax:
-        out.append(f'<text x="{left - 6}" y="{Y(v) + 4:.1f}" font-size="11" text-anchor="end">{v:g}</text>')
-        out.append(f'<line x1="{left}" y1="{Y(v):.1f}" x2="{w - right}" y2="{Y(v):.1f}" stroke="#e3e3e3"/>')
-        v += ystep
-    out.append(f'<text x="{(left + w - right) / 2}" y="{h - 6}" font-size="12" text-anchor="middle">index of difficulty (bits)</text>')
-    out.append(f'<text x="12" y="{top + 4}" font-size="12">ms</text>')
-    for k, p in enumerate(profiles):
-        colour, shape = PROFILE_MARKS[k % len(PROFILE_MARKS)]
-        out.append(f'<line x1="{X(0):.1f}" y1="{Y(p["intercept_ms"]):.1f}" x2="{X(xmax):.1f}" '
-                   f'y2="{Y(p["intercept_ms"] + p["slope_ms_per_bit"] * xmax):.1f}" stroke="{colour}" stroke-width="1.5"/>')
-        for pid, x, y in points:
-            if pid == p["id"]:
-                out.append(_mark(shape, X(x), Y(y), colour))
-        ly = top + 14 + k * 18
-        out.append(_mark(shape, w - right + 14, ly - 4, colour))
-        out.append(f'<text x="{w - right + 24}" y="{ly}" font-size="11">{escape(p["id"])}</text>')
-    out.append("</svg>")
-    return "".join(out)
+        pts = points[profile["id"]]
+        out = [f'<svg viewBox="0 0 {w} {h}" role="img" aria-labelledby="{uid}-t {uid}-d" xmlns="http://www.w3.org/2000/svg">',
+               f'<title id="{uid}-t">Predicted miss against target size, {escape(profile["id"])}</title>',
+               f'<desc id="{uid}-d">{len(pts)} targets of this screen: the smaller side in mm across, the predicted '
+               f'chance of missing for the profile {escape(profile["title"])} up; the curve is the model for square '
+               f'targets; vertical lines are the size minimums of the rules applied.</desc>',
+               f'<text x="{left}" y="16" font-size="12" font-weight="600">{escape(profile["id"])}</text>']
+        for v in (0.0, 0.25, 0.5, 0.75, 1.0):
+            out.append(f'<line x1="{left}" y1="{Y(v):.1f}" x2="{w - right}" y2="{Y(v):.1f}" stroke="#e3e3e3"/>')
+            out.append(f'<text x="{left - 5}" y="{Y(v) + 4:.1f}" font-size="10" text-anchor="end">{v:.0%}</text>')
+        step = 5 if xmax > 15 else 2 if xmax > 6 else 1
+        for v in range(0, int(xmax) + 1, step):
+            out.append(f'<text x="{X(v):.1f}" y="{h - bottom + 14}" font-size="10" text-anchor="middle">{v}</text>')
+        out.append(f'<text x="{(left + w - right) / 2:.0f}" y="{h - 6}" font-size="11" text-anchor="middle">'
+                   "smaller side (mm)</text>")
+        out.append(f'<line x1="{left}" y1="{Y(0):.1f}" x2="{w - right}" y2="{Y(0):.1f}" stroke="#1a1a1a"/>')
+        out.append(f'<line x1="{left}" y1="{Y(0):.1f}" x2="{left}" y2="{Y(1):.1f}" stroke="#1a1a1a"/>')
+        for n, (rule, mm) in enumerate(minimums):
+            out.append(f'<line x1="{X(mm):.1f}" y1="{Y(0):.1f}" x2="{X(mm):.1f}" y2="{Y(1):.1f}" stroke="#6b6b6b" '
+                       f'stroke-dasharray="4 3"><title>{escape(rule)}: {mm:.1f} mm</title></line>')
+            out.append(f'<text x="{X(mm) + 3:.1f}" y="{Y(1) + 10 + 11 * n:.1f}" font-size="9" fill="#4a4a4a">'
+                       f"{n + 1}</text>")
+        curve = " ".join(f"{X(v):.1f},{Y(_miss_curve(v, profile['alpha'], profile['sigma_a_mm'])):.1f}"
+                         for v in (xmax * q / 60 for q in range(1, 61)))
+        out.append(f'<polyline points="{curve}" fill="none" stroke="#7a7a7a" stroke-width="1"/>')
+        for side, miss, status, number in pts:
+            colour, shape, filled = POINTS[status]
+            out.append(_mark(shape, X(side), Y(miss), colour, filled, f"#{number} {status}: {miss:.0%} at {side:.1f} mm"))
+        out.append("</svg>")
+        figures.append(f'<figure>{"".join(out)}</figure>')
+    key = "; ".join(f"{n + 1}: {escape(rule)} ({mm:.1f} mm)" for n, (rule, mm) in enumerate(minimums))
+    shapes = ", ".join(f"{STATUS_WORDS[st]} {word}" for st, word in
+                       (("fail", "filled triangle"), ("partial", "open diamond"), ("exempt", "filled square"),
+                        ("pass", "open circle")))
+    return (f'<div class="charts">{"".join(figures)}</div>'
+            f'<p class="chart-key">Predicted miss against the target\'s smaller side, per profile. Targets: {shapes}. '
+            f"Grey curve: the model for a square target. Dashed lines, the size minimums: {key}. {escape(MISS_CAVEAT)}</p>")
 
 
-def _mark(shape: str, x: float, y: float, colour: str) -> str:
+def _mark(shape: str, x: float, y: float, colour: str, filled: bool = True, label: str = "") -> str:
+    fill = colour if filled else "#ffffff"
+    paint = f'fill="{fill}" stroke="{colour}" stroke-width="1.5"'
+    tip = f"<title>{escape(label)}</title>" if label else ""
     if shape == "square":
-        return f'<rect x="{x - 3.5:.1f}" y="{y - 3.5:.1f}" width="7" height="7" fill="{colour}"/>'
+        return f'<rect x="{x - 3.5:.1f}" y="{y - 3.5:.1f}" width="7" height="7" {paint}>{tip}</rect>'
     if shape == "diamond":
-        return f'<polygon points="{x:.1f},{y - 4.5:.1f} {x + 4.5:.1f},{y:.1f} {x:.1f},{y + 4.5:.1f} {x - 4.5:.1f},{y:.1f}" fill="{colour}"/>'
+        return f'<polygon points="{x:.1f},{y - 5:.1f} {x + 5:.1f},{y:.1f} {x:.1f},{y + 5:.1f} {x - 5:.1f},{y:.1f}" {paint}>{tip}</polygon>'
     if shape == "triangle":
-        return f'<polygon points="{x:.1f},{y - 4.5:.1f} {x + 4.5:.1f},{y + 4:.1f} {x - 4.5:.1f},{y + 4:.1f}" fill="{colour}"/>'
-    return f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3.5" fill="{colour}"/>'
+        return f'<polygon points="{x:.1f},{y - 5:.1f} {x + 5:.1f},{y + 4:.1f} {x - 5:.1f},{y + 4:.1f}" {paint}>{tip}</polygon>'
+    return f'<circle cx="{x:.1f}" cy="{y:.1f}" r="3.8" {paint}>{tip}</circle>'
 
 
-def _badge(status: str) -> str:
-    return f'<span class="badge s-{status}">{escape(STATUS_WORDS[status])}</span>'
+def _badge(status: str, worst: str = "") -> str:
+    """A target's status; a failing one says how severe its worst open finding is."""
+    word = STATUS_WORDS[status] + (f" ({worst})" if worst else "")
+    return f'<span class="badge s-{status}">{escape(word)}</span>'
+
+
+def _severity(severity: str) -> str:
+    return f'<span class="badge v-{severity}">{escape(severity)}</span>'
 
 
 def _count_findings(report: Report) -> tuple[int, Counter[str], Counter[str]]:
@@ -260,7 +382,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
     ]
     # Summary by screen and by rule.
     h += ['<section aria-labelledby="h-summary">', '<h2 id="h-summary">Summary</h2>',
-          "<table><caption>By screen</caption><thead><tr>"
+          '<table><caption>By screen</caption><colgroup><col style="width:30%"></colgroup><thead><tr>'
           + "".join(f'<th scope="col">{c}</th>' for c in ("Screen", "Targets", "Pass", "Fail", "Partial",
                                                            "Exempt", "Unchecked", "Findings"))
           + "</tr></thead><tbody>"]
@@ -273,13 +395,14 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
                                                                     "exempt", "unchecked"))
                   + f'<td class="num">{sum(len(t["findings"]) for t in scr["targets"])}</td></tr>\n')
     h = ["</tbody></table>"]
-    h.append("<table><caption>By rule</caption><thead><tr>"
+    h.append('<table><caption>By rule</caption><colgroup><col style="width:26%"><col style="width:12%">'
+             '<col style="width:10%"><col style="width:10%"></colgroup><thead><tr>'
              + "".join(f'<th scope="col">{c}</th>' for c in ("Rule", "Severity", "Open findings", "Waived", "Summary"))
              + "</tr></thead><tbody>")
     for rs in report.rulesets:
         for r in rs["rules"]:
-            h.append(f'<tr><th scope="row"><a href="#src-{escape(rs["id"])}">{escape(r["id"])}</a></th>'
-                     f'<td class="sev-{r["severity"]}">{r["severity"]}</td><td class="num">{rule_counts[r["id"]]}</td>'
+            h.append(f'<tr><th scope="row"><a class="id" href="#src-{escape(rs["id"])}">{escape(r["id"])}</a></th>'
+                     f'<td>{_severity(r["severity"])}</td><td class="num">{rule_counts[r["id"]]}</td>'
                      f'<td class="num">{waived[r["id"]]}</td><td>{escape(r["summary"])}</td></tr>')
     h += ["</tbody></table>", "</section>"]
     # Filters (shown only when the script runs; without it every finding stays visible).
@@ -325,52 +448,84 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
     out.write("\n".join(h) + "\n")
 
 
+def _num(v: float) -> str:
+    return f"{round(v, 1):g}"
+
+
+def _misses(t: dict[str, Any]) -> str:
+    """A target's predicted miss per profile, and how many times the typical adult's each one is."""
+    base = next((d["miss_probability"] for d in t["difficulty"] if d["profile"] == "typical-adult"), None)
+    items = []
+    for d in t["difficulty"]:
+        miss = d["miss_probability"]
+        if miss is None:
+            continue
+        ratio = f" ({miss / base:.1f}x)" if base and d["profile"] != "typical-adult" else ""
+        items.append(f'<li><span class="id">{escape(d["profile"])}</span> '
+                     f'<span class="nowrap">{miss:.0%}{ratio}</span></li>')
+    return f'<ul class="misses">{"".join(items)}</ul>' if items else '<span class="empty">no ppi: unknown</span>'
+
+
+def _target_row(t: dict[str, Any], unit: str, rows: dict[tuple[int, str], dict[str, str]], crop: str | None) -> str:
+    """One row per target: who it is (name, size, crop, status), its findings stacked, its misses."""
+    open_ = [f["severity"] for f in t["findings"] if not f["waiver"]]
+    worst = next((v for v in ("error", "warning", "note") if v in open_), "") if t["status"] == "fail" else ""
+    size = f'{t["size"]["width"]:g} x {t["size"]["height"]:g} {escape(unit)}'
+    if t["size_mm"]:
+        size += f'<br>{t["size_mm"]["width"]:.1f} x {t["size_mm"]["height"]:.1f} mm'
+    name = escape(t["name"] or t["class"])
+    crop_html = (f'<img class="crop" loading="lazy" decoding="async" src="{crop}" alt="Close-up of target '
+                 f'#{t["number"]} {name}">' if crop else "")
+    items = []
+    for f in t["findings"]:
+        row = rows.get((t["number"], f["rule"]), {})
+        status = "exempt" if f["waiver"] else t["status"]
+        rule_set = f["rule"].split("/", 1)[0]
+        how = escape(row.get("waiver") or "") if f["waiver"] else escape(row.get("fix", ""))
+        items.append(
+            f'<li data-ruleset="{escape(rule_set)}" data-status="{status}">'
+            f'<span class="what">{_severity(f["severity"])} <a class="id" href="#src-{escape(rule_set)}">{escape(f["rule"])}:</a> '
+            f'<span class="nowrap">found {_num(f["measured"])} {escape(f["unit"])}</span>, '
+            f'<span class="nowrap">needs {_num(f["required"])} {escape(f["unit"])}</span>'
+            + (" <strong>waived</strong>" if f["waiver"] else "") + "</span>"
+            # The message adds to "found, needs" where it names another target (a neighbour, a cover).
+            + (f'<span class="how">{escape(f["message"])}</span>' if "#" in f["message"] else "")
+            + (f'<span class="how">{"Waiver" if f["waiver"] else "Fix"}: {how}</span>' if how else "") + "</li>")
+    return (f'<tr class="target"><th scope="row">#{t["number"]} {name}<br><small>{size}</small>{crop_html}'
+            f'<br>{_badge(t["status"], worst)}</th><td><ul class="findings">{"".join(items)}</ul></td>'
+            f"<td>{_misses(t)}</td></tr>")
+
+
 def _screen_html(k: int, scr: dict[str, Any], report: Report, rows: list[dict[str, str]]) -> str:
     title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
     d = scr["device"]
+    listed = [t for t in scr["targets"] if t["findings"]]
     failing = [t for t in scr["targets"] if t["status"] in ("fail", "partial")]
     overlay, crops = _pictures(scr, report)
     device = f"{scr['platform']}, {scr['width']:g} x {scr['height']:g} {scr['coordinates']}, " + (
         f"{d['density_dpi']:g} dpi" if d["density_dpi"] else f"scale {d['scale']:g}" if d["scale"] else "points")
     if d["xdpi"]:
         device += ", physical size known"
-    alt = (f"Screen {Path(scr['path']).name} with its {len(scr['targets'])} targets outlined: "
-           f"{len(failing)} failing or partial, marked in thick vermilion with '!' or dashed pink with '?'; "
-           "passing targets in thin blue; minimum squares dashed; spacing circles in light blue.")
+    alt = (f"Screen {Path(scr['path']).name} with its {len(scr['targets'])} targets marked and numbered as in the "
+           f"table: {len(failing)} failing or partial. The legend below the picture explains each mark.")
+    by_target = {(int(r["target"].lstrip("#")), r["rule"]): r for r in rows}
     out = [f'<article class="screen" id="s-{k}" data-screen="{escape(title)}">', f"<h3>{escape(title)}</h3>",
-           f'<p class="device">{escape(device)}</p>', '<div class="pair">',
-           f'<figure><img class="overlay" loading="lazy" decoding="async" src="{overlay}" alt="{escape(alt)}"><figcaption>Overlay: '
-           f"targets numbered as in the table.</figcaption></figure>", "<div>"]
-    if not rows:
+           f'<p class="device">{escape(device)}</p>', '<div class="pair">', '<div class="side">',
+           f'<figure><img class="overlay" decoding="async" src="{overlay}" alt="{escape(alt)}">'
+           "<figcaption>Targets numbered as in the table. "
+           '<button type="button" class="zoom" aria-pressed="false" hidden>Enlarge the picture</button>'
+           "</figcaption></figure>", "</div>", '<div class="list">']
+    if not listed:
         out.append('<p class="empty">No findings on this screen.</p>')
     else:
-        out.append(f"<table><caption>Findings on {escape(Path(scr['path']).name)}</caption><thead><tr>"
-                   + "".join(f'<th scope="col">{c}</th>' for c in ("Target", "Crop", "Rule", "Found", "Needed",
-                                                                    "Status", "Predicted miss", "Fix or waiver"))
-                   + "</tr></thead><tbody>")
-        for row in rows:
-            number = int(row["target"].lstrip("#"))
-            crop = crops.get(number)
-            crop_html = (f'<img class="crop" loading="lazy" decoding="async" src="{crop}" alt="Close-up of target {escape(row["target"])} '
-                         f'{escape(row["label"] or row["class"])}">' if crop else "")
-            status = "exempt" if row["waiver"] else row["status"]
-            miss = f"{float(row['miss_probability']):.0%} ({escape(row['profile'])})" if row["miss_probability"] else "-"
-            size = f"{row['width']} x {row['height']} {row['size_unit']}"
-            if row["width_mm"]:
-                size += f"<br>{row['width_mm']} x {row['height_mm']} mm"
-            out.append(
-                f'<tr data-ruleset="{escape(row["rule_set"])}" data-status="{status}">'
-                f'<th scope="row">{escape(row["target"])} {escape(row["label"] or row["resource_id"] or row["class"])}'
-                f"<br><small>{size}</small></th><td>{crop_html}</td>"
-                f'<td class="sev-{row["severity"]}"><a href="#src-{escape(row["rule_set"])}">{escape(row["rule"])}</a>'
-                f"<br><small>{row['severity']}</small></td>"
-                f'<td class="num">{row["measured"]} {escape(row["unit"])}</td><td class="num">{row["required"]} '
-                f'{escape(row["unit"])}</td><td>{_badge(status)}</td><td>{miss}</td>'
-                f"<td>{escape(row['waiver'] or row['fix'])}</td></tr>")
+        out.append(f"<table class=\"targets\"><caption>Findings on {escape(Path(scr['path']).name)}, one row per target"
+                   '</caption><colgroup><col class="t"><col class="f"><col class="m"></colgroup><thead><tr>'
+                   '<th scope="col">Target</th><th scope="col">Findings, and the fix or waiver</th>'
+                   '<th scope="col">Predicted miss</th></tr></thead><tbody>')
+        unit = d["unit"]
+        out += [_target_row(t, unit, by_target, crops.get(t["number"])) for t in listed]
         out.append("</tbody></table>")
-    chart = _chart(scr, report)
-    if chart:
-        out.append(f'<figure class="chart">{chart}<figcaption>Predicted pointing time against index of difficulty '
-                   "for this screen's targets, per profile.</figcaption></figure>")
-    out += ["</div>", "</div>", "</article>"]
+        if any(dd["miss_probability"] is not None for t in listed for dd in t["difficulty"]):
+            out.append(f'<p class="caveat">{escape(MISS_CAVEAT)}</p>')
+    out += ["</div>", "</div>", _charts(scr, report), "</article>"]
     return "\n".join(out)
