@@ -117,3 +117,17 @@ def test_the_readme_lists_the_csv_columns_in_their_order() -> None:
     rows = re.findall(r"^\| ([a-z_, ]+) \|", section[:section.index("\n\n", section.index("| column |"))], re.MULTILINE)
     listed = [c.strip() for row in rows if row != "column" for c in row.split(",")]
     assert tuple(listed) == COLUMNS
+
+
+def test_the_report_is_the_same_every_run(tmp_path: Path) -> None:
+    # Deterministic output (no clock, no per-process hash seed): two processes, two hash seeds.
+    import subprocess
+    import sys
+
+    texts = []
+    for seed in ("1", "2"):
+        out = tmp_path / f"r{seed}.html"
+        subprocess.run([sys.executable, "-m", "tapgauge", "check", str(DEMO / "android"), "-f", "html", "-o", str(out),
+                        "--quiet"], env={**os.environ, "PYTHONHASHSEED": seed}, timeout=300)
+        texts.append(out.read_bytes())
+    assert texts[0] == texts[1]

@@ -14,6 +14,7 @@ from __future__ import annotations
 import base64
 import io
 import math
+import zlib
 from collections import Counter
 from html import escape
 from pathlib import Path
@@ -274,7 +275,8 @@ def _charts(screen: dict[str, Any], report: Report) -> str:
     w, h, left, bottom, top, right = 320, 230, 44, 38, 26, 10
     figures = []
     for k, profile in enumerate(p for p in report.profiles if p["id"] in points):
-        uid = f"c{abs(hash((screen['path'], screen['name'], profile['id']))) % 10**8}"
+        key = "|".join((screen["path"], screen["name"], profile["id"]))
+        uid = f"c{zlib.crc32(key.encode()):08x}"  # stable across runs (hash() is not)
 
         def X(v: float) -> float:
             return left + v / xmax * (w - left - right)

@@ -508,29 +508,25 @@ def _legend_swatch(draw: ImageDraw.ImageDraw, kind: str, box: Rect, sc: Scale) -
 def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     """A palette PNG of `img` in at most `colours` colours, every mark colour kept exact.
 
-    The marks' colours (MARK_COLOURS) take palette places of their own; the picture's other
-    colours share the rest (Pillow's median cut). Each distinct colour then takes its nearest
-    entry, measured exactly (Pillow's own mapping works at reduced precision and can move a
-    mark's pixels to a neighbouring entry), with no dithering: a mark's pixels keep its colour.
+    The picture's colours share the palette's places but the marks' (Pillow's fast octree, no
+    dithering); then every pixel that is exactly a mark's colour takes that mark's own entry,
+    so a mark can never drift to a neighbour's colour (a status must not read as another).
     """
     rgb = img.convert("RGB")
-    rest = max(1, colours - len(MARK_COLOURS))
-    others = rgb.quantize(rest, dither=Image.Dither.NONE).getpalette() or []
-    found = [tuple(others[k:k + 3]) for k in range(0, min(len(others), 3 * rest), 3)]
-    entries = list(dict.fromkeys([*MARK_COLOURS, *found]))[:max(colours, len(MARK_COLOURS))]
-    arr = np.asarray(rgb).reshape(-1, 3).astype(np.int64)
-    packed = (arr[:, 0] << 16) | (arr[:, 1] << 8) | arr[:, 2]
-    distinct, where = np.unique(packed, return_inverse=True)
-    cols = np.stack([(distinct >> 16) & 255, (distinct >> 8) & 255, distinct & 255], axis=1)
-    palette = np.array(entries, dtype=np.int64)
-    nearest = np.empty(len(cols), dtype=np.uint8)
-    for start in range(0, len(cols), 8192):  # in slices: a photo-like picture has many colours
-        part = cols[start:start + 8192]
-        nearest[start:start + 8192] = ((part[:, None, :] - palette[None, :, :]) ** 2).sum(axis=2).argmin(axis=1)
-    out = Image.fromarray(nearest[where.reshape(-1)].reshape(rgb.height, rgb.width), "P")
-    out.putpalette([v for c in entries for v in c])
+    marks = list(dict.fromkeys(MARK_COLOURS))
+    rest = max(1, colours - len(marks))
+    quantized = rgb.quantize(rest, method=Image.Quantize.FASTOCTREE, dither=Image.Dither.NONE)
+    palette = (quantized.getpalette() or [])[:3 * rest]
+    palette += [0] * (3 * rest - len(palette))
+    index = np.array(quantized, dtype=np.uint8)
+    arr = np.asarray(rgb, dtype=np.uint32)
+    packed = (arr[..., 0] << 16) | (arr[..., 1] << 8) | arr[..., 2]
+    for k, (r, g, b) in enumerate(marks):
+        index[packed == ((r << 16) | (g << 8) | b)] = rest + k
+    out = Image.fromarray(index, "P")
+    out.putpalette(palette + [v for c in marks for v in c])
     buf = io.BytesIO()
-    out.save(buf, "PNG", optimize=True)
+    out.save(buf, "PNG")
     return buf.getvalue()
 
 

@@ -172,18 +172,24 @@ class _Look:
         rects = np.column_stack([x, y, x + self.tw, y + self.th])
         n = len(rects)
         grown = rects + np.array([-self.gap, -self.gap, self.gap, self.gap])
-        on_tags = _overlap_areas(grown, self.placed).sum(axis=1) if len(self.placed) else np.zeros(n)
+        # Only what lies in the window of these spots and their box can touch them or their
+        # leaders (which run from spot to box): the rest is left out, so a dense screen stays quick.
+        window = (min(rects[:, 0].min(), self.box[0]) - self.gap, min(rects[:, 1].min(), self.box[1]) - self.gap,
+                  max(rects[:, 2].max(), self.box[2]) + self.gap, max(rects[:, 3].max(), self.box[3]) + self.gap)
+        wide = (window[0] - self.gap, window[1] - self.gap, window[2] + self.gap, window[3] + self.gap)
+        placed = _near(self.placed, wide)  # tags are judged grown by the gap
+        others, seg = _near(self.others, window), _near_lines(self.lines, window)
+        on_tags = _overlap_areas(grown, placed).sum(axis=1) if len(placed) else np.zeros(n)
         # A tag over an earlier leader hides it; a leader through an earlier tag is lost under it.
-        seg = self.lines
         over_lines = (_crossings(seg[:, :2], seg[:, 2:], grown).sum(axis=0) if len(seg) else np.zeros(n))
-        on_boxes = _overlap_areas(rects, self.others).sum(axis=1) if len(self.others) else np.zeros(n)
+        on_boxes = _overlap_areas(rects, others).sum(axis=1) if len(others) else np.zeros(n)
         on_own = _overlap_areas(rects, self.own[None, :])[:, 0]
         dist = _gaps(rects, self.box)
         moved = dist > self.g + 0.5
         a, z = _leaders(rects, self.box)
-        lead_tags = np.where(moved, _crossings(a, z, _grown(self.placed, self.gap)).sum(axis=1), 0)
+        lead_tags = np.where(moved, _crossings(a, z, _grown(placed, self.gap)).sum(axis=1), 0)
         lead_lines = np.where(moved, _segments_cross(a, z, seg).sum(axis=1), 0)
-        lead_boxes = np.where(moved, _crossings(a, z, self.others).sum(axis=1), 0)
+        lead_boxes = np.where(moved, _crossings(a, z, others).sum(axis=1), 0)
         crossed = over_lines + lead_tags
         on_small = on_own * (not self.roomy)
         keys = (on_tags, on_boxes, on_small, crossed, lead_lines, lead_boxes, on_own, dist)
@@ -191,6 +197,24 @@ class _Look:
         rect = tuple(float(v) for v in rects[k])
         leader = ((float(a[k, 0]), float(a[k, 1])), (float(z[k, 0]), float(z[k, 1]))) if moved[k] else None
         return _Spot((*(float(v[k]) for v in keys), rank), rect, leader)  # type: ignore[arg-type]
+
+
+def _near(rects: np.ndarray, window: Rect) -> np.ndarray:
+    """The rectangles (m, 4) that reach into `window`."""
+    if not len(rects):
+        return rects
+    l, t, r, b = window
+    return rects[(rects[:, 0] < r) & (rects[:, 2] > l) & (rects[:, 1] < b) & (rects[:, 3] > t)]
+
+
+def _near_lines(lines: np.ndarray, window: Rect) -> np.ndarray:
+    """The segments (m, 4: x0, y0, x1, y1) whose bounding boxes reach into `window`."""
+    if not len(lines):
+        return lines
+    box = np.column_stack([np.minimum(lines[:, 0], lines[:, 2]), np.minimum(lines[:, 1], lines[:, 3]),
+                           np.maximum(lines[:, 0], lines[:, 2]), np.maximum(lines[:, 1], lines[:, 3])])
+    l, t, r, b = window
+    return lines[(box[:, 0] <= r) & (box[:, 2] >= l) & (box[:, 1] <= b) & (box[:, 3] >= t)]
 
 
 def _grown(placed: np.ndarray, gap: float) -> np.ndarray:
