@@ -33,9 +33,13 @@ def test_csv_golden_and_columns(in_repo: None, capsys: pytest.CaptureFixture[str
     assert tuple(rows[0].keys()) == COLUMNS  # the documented order
     overlap = next(r for r in rows if r["label"] == "14" and r["rule"] == "wcag-2.5.8/size-24")
     assert "drawn over it" in overlap["fix"]
-    padding = next(r for r in rows if r["label"] == "Remove date" and r["rule"] == "wcag-2.5.8/size-24")
-    # 20 x 20 dp against 24 dp: 2 dp on every side (arithmetic), or the WCAG spacing circle.
-    assert padding["fix"].startswith("add 2 dp of touchable padding on every side")
+    # The close button drawn over the date chip: no touch area passes while they overlap, so no growth.
+    apart = next(r for r in rows if r["label"] == "Remove date" and r["rule"] == "wcag-2.5.8/size-24")
+    assert apart["fix"].startswith("it overlaps #4 '14'")
+    # The consent row, 360 x 18.2 dp against a 48 dp square: (48 - 18.2) / 2 = 14.9 dp above and below
+    # (arithmetic), with room to spare on this screen.
+    row = next(r for r in rows if r["label"] == "I have read the plot rules" and r["screen"].endswith("android/booking_form.xml"))
+    assert row["fix"] == "grow the touch area 14.9 dp top, 14.9 dp bottom (to 360 x 48 dp)"
 
 
 def test_markdown_golden(in_repo: None, capsys: pytest.CaptureFixture[str]) -> None:

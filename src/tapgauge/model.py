@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from enum import IntEnum
 from pathlib import Path
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 Box = tuple[float, float, float, float]
 
@@ -227,6 +227,7 @@ class TargetResult(NamedTuple):
     notes: tuple[str, ...] = ()  # e.g. passed by the spacing exception
     difficulty: tuple[Difficulty, ...] = ()
     approach: Approach | None = None
+    plan: Any = None  # a plan.Plan where the target is too small: the touch area that passes, or a move
 
 
 @dataclass(frozen=True)

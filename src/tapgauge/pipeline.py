@@ -20,8 +20,9 @@ from typing import TypeVar
 from tapgauge.checks import check_screen
 from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
-from tapgauge.measure import MeasureOptions, measure
-from tapgauge.model import DeviceHints, InputError, RuleSet, ScreenResult
+from tapgauge.measure import MeasuredScreen, MeasureOptions, measure
+from tapgauge.model import Device, DeviceHints, InputError, RuleSet, Screen, ScreenResult
+from tapgauge.plan import plan_screen
 from tapgauge.readers import ReadOptions, iter_inputs, read_screens
 from tapgauge.report.records import Checked, display_path, screen_record
 from tapgauge.score import Scoring
@@ -58,8 +59,15 @@ def check_file(path: Path, settings: Settings) -> list[ScreenResult]:
         except ValueError as exc:
             where = f" ({screen.name})" if screen.name.startswith("dump ") else f" (image {screen.name})" if screen.name else ""
             raise InputError(path, f"{exc}{where}") from None
-        checked = check_screen(measure(screen, device, settings.measure), list(settings.rulesets), settings.announce_skips)
-        results.append(settings.scoring.apply(checked))
+        rulesets = list(settings.rulesets)
+        measured = measure(screen, device, settings.measure)
+        scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips))
+
+        def recheck(trial: Screen, device: Device = device) -> tuple[MeasuredScreen, ScreenResult]:
+            again = measure(trial, device, settings.measure)
+            return again, check_screen(again, rulesets, False)
+
+        results.append(plan_screen(measured, scored, rulesets, recheck))
     return results
 
 

@@ -81,6 +81,15 @@ def fix_hint(finding: dict[str, Any], target: dict[str, Any], rule: dict[str, An
     return ""
 
 
+def _fix(finding: dict[str, Any], target: dict[str, Any], rule: dict[str, Any] | None, unit: str) -> str:
+    """A size finding's fix is the target's plan where it has one (proved by re-checking the screen with
+    it); other findings keep their hint."""
+    plan = target.get("plan")
+    if plan and rule is not None and rule["kind"] == "min-size" and finding["rule"] in plan["rules"]:
+        return plan["text"]
+    return fix_hint(finding, target, rule, unit)
+
+
 def screen_rows(s: dict[str, Any], rules: dict[str, dict[str, Any]], profile: str) -> list[dict[str, str]]:
     """One screen's findings as table rows (the column contract in COLUMNS)."""
     screen = f"{s['path']} :: {s['name']}" if s["name"] else s["path"]
@@ -104,7 +113,7 @@ def screen_rows(s: dict[str, Any], rules: dict[str, dict[str, Any]], profile: st
                 "miss_probability": "" if miss is None or (isinstance(miss, float) and math.isnan(miss)) else f"{miss:.2f}",
                 "profile": profile if miss is not None else "",
                 "waiver": "" if not w else f"{w['reason']} ({w['author']}{', until ' + w['expires'] if w['expires'] else ''})",
-                "fix": "" if w else fix_hint(f, t, rules.get(f["rule"]), unit),
+                "fix": "" if w else _fix(f, t, rules.get(f["rule"]), unit),
             })
     return rows
 

@@ -101,7 +101,28 @@ def target_record(tr: TargetResult, key: str) -> dict[str, Any]:
         "approach": None if tr.approach is None else {
             "width": tr.approach.width, "distance": tr.approach.distance, "id_bits": tr.approach.id_bits},
         "difficulty": [{"profile": d.profile, "time_ms": d.time_ms, "miss_probability": d.miss} for d in tr.difficulty],
+        "plan": None if tr.plan is None else _plan_record(tr.plan),
     }
+
+
+def _plan_record(p: Any) -> dict[str, Any]:
+    """A fix plan: the touch area in the source's coordinates, growth per side (or the move) in the platform unit."""
+    return {"kind": p.kind, "bounds": [round(v, 2) for v in p.bounds],
+            "growth": dict(zip(("left", "top", "right", "bottom"), (round(g, 2) for g in p.growth))),
+            "move": {"dx": round(p.move[0], 2), "dy": round(p.move[1], 2)}, "missing": round(p.missing, 2),
+            "rules": list(p.rules), "text": p.text}
+
+
+def _plan_summary(targets: list[dict[str, Any]], unit: str) -> dict[str, Any]:
+    """How many failures the plans fix by touch area alone, how many need a move, and the area added."""
+    grow = [t for t in targets if t["plan"] and t["plan"]["kind"] == "grow"]
+    added = 0.0
+    for t in grow:
+        w0, h0 = t["size"]["width"], t["size"]["height"]
+        g = t["plan"]["growth"]
+        added += (w0 + g["left"] + g["right"]) * (h0 + g["top"] + g["bottom"]) - w0 * h0
+    return {"grow": len(grow), "move": sum(1 for t in targets if t["plan"] and t["plan"]["kind"] == "move"),
+            "area_added": round(added, 1), "unit": f"{unit}2"}
 
 
 def screen_record(sr: ScreenResult) -> dict[str, Any]:
@@ -129,6 +150,7 @@ def screen_record(sr: ScreenResult) -> dict[str, Any]:
         "notices": list(sr.notices),
         "targets": targets,
         "summary": _status_counts(targets),
+        "plans": _plan_summary(targets, d.unit),
     }
 
 

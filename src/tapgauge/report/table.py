@@ -184,6 +184,8 @@ def _screen_rows(s: dict[str, Any], width: int, color: bool, show: int = 0) -> l
             if w:
                 until = f", until {w['expires']}" if w["expires"] else ""
                 right.append((f"  waived: {w['reason']} ({w['author']}{until})", "dim"))
+        if t.get("plan") and any(_shown(f, show) for f in t["findings"] if f["rule"] in t["plan"]["rules"]):
+            right.append((f"  fix: {t['plan']['text']}", "dim"))
         cells.append((left, right))
     heading = "finding: found / needed"
     # The target column gives way on narrow terminals, so the heading on the right still fits.
@@ -297,6 +299,10 @@ def write_table(report: Report, out: TextIO, width: int | None = None, color: bo
         if counts["unchecked"]:
             why = ", ".join(f"{n} {r}" for r, n in sorted(reasons.items()))
             line += f", {counts['unchecked']} unchecked ({why})"
+        plans = s.get("plans")
+        if plans and (plans["grow"] or plans["move"]):
+            line += (f"; fix plans: {plans['grow']} by touch area alone (+{plans['area_added']:g} "
+                     f"{plans['unit'][:-1]}²), {plans['move']} need a move")
         console.print(line)
         console.print()
     if report.errors and not color:  # in a terminal they were just printed on stderr
