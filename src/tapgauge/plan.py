@@ -123,6 +123,10 @@ def _related(a: Target, b: Target) -> bool:
     return (al <= bl and at <= bt and ar >= br and ab >= bb) or (bl <= al and bt <= at and br >= ar and bb >= ab)
 
 
+def _holds(outer: np.ndarray, inner: np.ndarray) -> bool:
+    return bool(outer[0] <= inner[0] and outer[1] <= inner[1] and outer[2] >= inner[2] and outer[3] >= inner[3])
+
+
 def _split(gap: float, mine: float, theirs: float) -> float:
     """My share of the room between two growing neighbours: at least half, more when they need less."""
     return max(gap / 2, gap - theirs) if gap > 0 else 0.0
@@ -155,7 +159,12 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
         obstacles = [(q, boxes[q], targets[q]) for q in range(len(targets)) if q != pos]
         obstacles += [(None, np.array(m.screen.targets[k].bounds, dtype=float), m.screen.targets[k]) for k in others]
         for q, ob, other in obstacles:
-            if other.window != t.window or _related(t, other):
+            if other.window != t.window:
+                continue
+            if _related(t, other):
+                if other.is_ancestor_of(t) or _holds(ob, box):  # a row round this button: grow within it
+                    room = [min(room[0], box[0] - ob[0]), min(room[1], box[1] - ob[1]),
+                            min(room[2], ob[2] - box[2]), min(room[3], ob[3] - box[3])]
                 continue
             gx = max(ob[0] - box[2], box[0] - ob[2])
             gy = max(ob[1] - box[3], box[1] - ob[3])
