@@ -139,13 +139,20 @@ def _display_lines(dumpsys: str) -> str:
     return "\n".join(keep)
 
 
-def capture(name: str, out: Path, serial: str | None = None, force: bool = False) -> list[Path]:
-    if not name or "/" in name or name.startswith("."):
+def bundle_paths(name: str, out: Path, force: bool) -> list[Path]:
+    """NAME.xml, NAME.png and NAME.device.txt in `out`; an error if the name is not a plain file
+    name, or if one of them exists and `force` is not given (checked before any device is asked)."""
+    if not name or "/" in name or "\\" in name or name.startswith("."):
         raise CaptureError(f"screen name {name!r} must be a plain file name such as 'checkout'")
     targets = [out / f"{name}.xml", out / f"{name}.png", out / f"{name}.device.txt"]
     existing = [p for p in targets if p.exists()]
     if existing and not force:
         raise CaptureError(f"{existing[0]} exists; choose another name or pass --force to replace it")
+    return targets
+
+
+def capture(name: str, out: Path, serial: str | None = None, force: bool = False) -> list[Path]:
+    targets = bundle_paths(name, out, force)
     adb = _pick(find_adb(serial))
     _check_device(adb)
     said = adb.text("shell", "uiautomator", "dump", DEVICE_DUMP)

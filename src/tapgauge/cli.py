@@ -464,14 +464,36 @@ def config_cmd() -> None:
 def capture_cmd(
     name: Annotated[str, typer.Argument(help="Screen name: writes NAME.xml, NAME.png and NAME.device.txt.")],
     serial: Annotated[Optional[str], typer.Option(help="adb serial of the device, when several are connected.")] = None,
+    webdriver: Annotated[Optional[str], typer.Option(
+        "--webdriver", metavar="SESSION_URL",
+        help="Capture from a live W3C WebDriver session instead of adb (Android or iOS), "
+        "e.g. http://127.0.0.1:4723/session/ID. Only that URL's host is contacted.")] = None,
+    timeout: Annotated[Optional[float], typer.Option(
+        metavar="SECONDS", help="With --webdriver: seconds to wait for each answer (default: 30).")] = None,
     out: Annotated[Path, typer.Option("--out", help="Folder to write the bundle into.")] = Path("."),
     force: Annotated[bool, typer.Option("--force", help="Replace an existing bundle of that name.")] = False,
 ) -> None:
-    """Save the current screen of a connected Android device (adb) as a bundle that check reads."""
+    """Save the current screen of an Android device (adb) or a WebDriver session as a bundle that check reads."""
     from tapgauge.capture import CaptureError, capture
 
+    if webdriver is not None and serial is not None:
+        say("--webdriver and --serial cannot be used together: --serial picks an adb device, "
+            "--webdriver a session on an automation server")
+        raise typer.Exit(EXIT_ERROR)
+    if timeout is not None and webdriver is None:
+        say("--timeout applies to --webdriver captures only")
+        raise typer.Exit(EXIT_ERROR)
+    notes: tuple[str, ...] = ()
+    flags = ""
     try:
-        written = capture(name, out, serial=serial, force=force)
+        if webdriver is not None:
+            from tapgauge.webcapture import DEFAULT_TIMEOUT_S, capture_session
+
+            done = capture_session(name, out, webdriver, force=force,
+                                   timeout=timeout if timeout is not None else DEFAULT_TIMEOUT_S)
+            written, notes, flags = list(done.written), done.notes, done.check_flags
+        else:
+            written = capture(name, out, serial=serial, force=force)
     except CaptureError as exc:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
@@ -480,7 +502,9 @@ def capture_cmd(
         raise typer.Exit(EXIT_ERROR) from None
     for p in written:
         typer.echo(f"wrote {p}")
-    typer.echo(f"check it with: tapgauge check {written[0]}")
+    for note in notes:
+        typer.echo(note)
+    typer.echo(f"check it with: tapgauge check {written[0]}{flags}")
 
 
 @app.command("rules")
