@@ -396,6 +396,12 @@ def render(screen: dict[str, Any], report: Report, image: Image.Image | None,
                 worst = sized[0]
                 sx, sy = _to_coords(worst["required"], worst["unit"], device)
                 _square(draw, (cx - sx * fx / 2, cy - sy * fy / 2, cx + sx * fx / 2, cy + sy * fy / 2), sc.px)
+    for t in order:  # fix plans under the marks: the area each too-small target would grow into
+        plan = t.get("plan")
+        if plan and plan["kind"] == "grow":
+            l, top, r, b = plan["bounds"]
+            _planned(base, (l * fx, top * fy, r * fx, b * fy), boxes[t["number"]], sc)
+    draw = ImageDraw.Draw(base)
     for t in order:
         _mark(draw, boxes[t["number"]], MARKS[t["status"]], sc.px, sc.k)
     tagged = sorted(screen["targets"], key=lambda t: (TAG_ORDER.index(t["status"]), t["number"]))
@@ -460,6 +466,7 @@ def legend_rows(screen: dict[str, Any], notes: tuple[str, ...] = ()) -> list[Leg
     rows += [LegendRow(status, mark.words) for status, mark in MARKS.items()]
     rows += [LegendRow("square", "dashed black-and-white square: the minimum size the target must hold"),
              LegendRow("circle", "sky-blue circle: WCAG 2.5.8 spacing circle (dashed where it hits another target)"),
+             LegendRow("plan", "sky-blue hatching: the touch area a fix plan grows the target into"),
              LegendRow("tag", "tag: target number, status colour and sign; a line leads to a tag set aside")]
     return rows
 
@@ -487,6 +494,25 @@ def _with_legend(base: Image.Image, screen: dict[str, Any], sc: Scale, notes: tu
     return out
 
 
+def _planned(picture: Image.Image, area: Rect, box: Rect, sc: Scale) -> None:
+    """A fix plan's touch area: the ring it adds around the target, hatched in sky blue, and its outline."""
+    l, t, r, b = (round(v) for v in area)
+    if r <= l or b <= t:
+        return
+    ring = Image.new("L", picture.size, 0)
+    mask = ImageDraw.Draw(ring)
+    mask.rectangle([l, t, r - 1, b - 1], fill=255)
+    mask.rectangle([round(box[0]), round(box[1]), round(box[2]) - 1, round(box[3]) - 1], fill=0)
+    hatch = Image.new("L", picture.size, 0)
+    lines = ImageDraw.Draw(hatch)
+    step = sc.px(6)
+    for x in range(l - (b - t), r, step):  # lines at 45 degrees across the planned area
+        lines.line([(x, b), (x + (b - t), t)], fill=255, width=sc.px(1))
+    picture.paste(Image.new("RGB", picture.size, CIRCLE), (0, 0), Image.fromarray(
+        np.minimum(np.asarray(ring), np.asarray(hatch))))
+    ImageDraw.Draw(picture).rectangle([l, t, r - 1, b - 1], outline=CIRCLE, width=sc.px(1))
+
+
 def _legend_swatch(draw: ImageDraw.ImageDraw, kind: str, box: Rect, sc: Scale) -> None:
     if kind in MARKS:
         _mark(draw, box, MARKS[kind], sc.px, sc.k / 3)
@@ -495,6 +521,10 @@ def _legend_swatch(draw: ImageDraw.ImageDraw, kind: str, box: Rect, sc: Scale) -
     elif kind == "circle":
         cy, ry = (box[1] + box[3]) / 2, (box[3] - box[1]) / 2
         _circle(draw, (box[0] + box[2]) / 2, cy, ry * 1.4, ry, CIRCLE, sc.px(1), dashed=False)
+    elif kind == "plan":
+        inner = (box[0] + (box[2] - box[0]) * 0.3, box[1] + (box[3] - box[1]) * 0.3,
+                 box[2] - (box[2] - box[0]) * 0.3, box[3] - (box[3] - box[1]) * 0.3)
+        _planned(draw._image, box, inner, sc)  # type: ignore[attr-defined]
     elif kind == "tag":
         text = "#n"
         tw, th = tag_size(text, sc)
