@@ -187,7 +187,11 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
             short = demand[pos][axis] - room[axis] - room[axis + 2]
             out[pos] = (box, f"short:{axis}:{short}:{limiter[axis]}:{limiter[axis + 2]}:{room[axis]}:{room[axis + 2]}")
             continue
-        out[pos] = (box + np.array([-across[0], -down[0], across[1], down[1]]), "")
+        growth = (across[0], down[0], across[1], down[1])
+        # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
+        tight = [f"{name}={limiter[k]}" for k, name in enumerate(SIDES)
+                 if limiter[k].startswith("#") and growth[k] > EPS and growth[k] >= room[k] - EPS]
+        out[pos] = (box + np.array([-across[0], -down[0], across[1], down[1]]), "limits:" + ";".join(tight))
     return out
 
 
@@ -224,7 +228,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
     planned: dict[int, tuple[np.ndarray, str]] = {}
     while keep:
         planned = _plans(m, needs, margin, keep)
-        grown = {pos: box for pos, (box, why) in planned.items() if not why}
+        grown = {pos: box for pos, (box, why) in planned.items() if why.startswith("limits:")}
         if not grown:
             break
         m2, sr2 = recheck(_apply(m.screen, m, grown))
@@ -286,11 +290,14 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[np.nda
         box, why = planned[pos]
         old = boxes[pos]
         rules = needs[pos].rules
-        if box is not None and not why:
+        if box is not None and why.startswith("limits:"):
             growth = tuple(float(v) / k_unit for v in (old[0] - box[0], old[1] - box[1], box[2] - old[2], box[3] - old[3]))
             parts = [f"{_fmt(g)} {unit} {name}" for g, name in zip(growth, SIDES) if g > 0.05]
             text = ("grow the touch area " + ", ".join(parts) + f" (to {_fmt((box[2] - box[0]) / k_unit)} x "
                     f"{_fmt((box[3] - box[1]) / k_unit)} {unit})") if parts else "no growth needed"
+            limits = [part.split("=") for part in why.removeprefix("limits:").split(";") if part]
+            if limits:
+                text += "; " + "; ".join(f"the {side} side is limited by {who}" for side, who in limits)
             plan = Plan("grow", tuple(float(v) for v in box), growth, rules, text)  # type: ignore[arg-type]
         elif why == "overlaps":
             plan = Plan("move", tuple(float(v) for v in old), (0.0, 0.0, 0.0, 0.0), rules,  # type: ignore[arg-type]
