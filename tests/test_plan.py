@@ -126,3 +126,38 @@ def test_plans_on_random_layouts_hold_up(tmp_path: Path, capsys: pytest.CaptureF
             if t["number"] in grown:
                 left = {f["rule"] for f in t["findings"]} & set(grown[t["number"]]["rules"])
                 assert not left, (t["number"], left)
+
+
+def test_plans_explain_a_limited_side_and_show_in_the_report(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    import base64
+    import io
+    import os
+
+    from lxml import html as lxml_html
+    from PIL import Image
+
+    from tapgauge.report.overlay import CIRCLE
+
+    compact = DEMO / "alternatives" / "compact"
+    main(["check", str(compact), "-f", "json", "--quiet"])
+    s = json.loads(capsys.readouterr().out)["screens"][0]
+    calendar = next(t for t in s["targets"] if t["name"] == "Add to calendar")
+    assert "the left side is limited by #4" in calendar["plan"]["text"]  # #4 'Report a problem', 4 dp away
+    out = tmp_path / "r.html"
+    cwd = os.getcwd()
+    os.chdir(DEMO.parent)
+    try:
+        main(["check", str(compact.relative_to(DEMO.parent)), "-f", "html", "-o", str(out), "--quiet"])
+    finally:
+        os.chdir(cwd)
+    doc = lxml_html.fromstring(out.read_bytes())
+    assert "grow the touch area" in doc.text_content()
+    src = doc.xpath("//img[@class='overlay']/@src")[0]
+    pic = Image.open(io.BytesIO(base64.b64decode(src.split(",", 1)[1]))).convert("RGB")
+    k = pic.width / s["width"]
+    sunny = next(t for t in s["targets"] if t["name"] == "Sunny")
+    l, top, r, b = sunny["bounds"]
+    pl, pt, pr, pb = sunny["plan"]["bounds"]
+    # The ring the plan adds above the target holds the hatching's colour (the overlay's plan colour).
+    band = pic.crop((round(l * k) + 4, round(pt * k) + 2, round(r * k) - 4, round(top * k) - 2))
+    assert CIRCLE in {c for _, c in band.getcolors(1 << 16)}
