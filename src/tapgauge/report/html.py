@@ -508,6 +508,10 @@ def _screen_html(k: int, scr: dict[str, Any], report: Report, rows: list[dict[st
         f"{d['density_dpi']:g} dpi" if d["density_dpi"] else f"scale {d['scale']:g}" if d["scale"] else "points")
     if d["xdpi"]:
         device += ", physical size known"
+    plans = scr.get("plans")
+    if plans and (plans["grow"] or plans["move"]):
+        device += (f"; fix plans: {plans['grow']} by touch area alone (adding {plans['area_added']:g} "
+                   f"{plans['unit'][:-1]}²), {plans['move']} need a move")
     alt = (f"Screen {Path(scr['path']).name} with its {len(scr['targets'])} targets marked and numbered as in the "
            f"table: {len(failing)} failing or partial. The legend below the picture explains each mark.")
     by_target = {(int(r["target"].lstrip("#")), r["rule"]): r for r in rows}
