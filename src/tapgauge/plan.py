@@ -57,6 +57,7 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet]) -> list
     k_of = {id(t.target): k for k, t in enumerate(sr.targets)}
     out = []
     d = m.device
+    hits = _hits(m)
     for tr in sr.targets:
         if tr.status != "fail":
             continue
@@ -79,22 +80,27 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet]) -> list
                 sides.append((size * d.coords_per_unit, size * d.coords_per_unit))
         if sides:
             out.append(_Need(pos, tuple(r.id for r in sized), (max(s[0] for s in sides), max(s[1] for s in sides)),
-                             _overlapping(m, pos)))
+                             _overlapping(m, pos, hits)))
     return out
 
 
-def _overlapping(m: MeasuredScreen, pos: int) -> tuple[str, ...]:
+def _overlapping(m: MeasuredScreen, pos: int, hits: np.ndarray) -> tuple[str, ...]:
     """The checked targets whose boxes overlap this one's (not one holding the other)."""
-    boxes = np.asarray(m.boxes_px, dtype=float)
     me = m.screen.targets[m.checked[pos]]
-    l, t, r, b = boxes[pos]
     out = []
-    for q, other in enumerate(boxes):
+    for q in np.flatnonzero(hits[pos]):
         o = m.screen.targets[m.checked[q]]
-        if q != pos and not _related(me, o) and min(r, other[2]) - max(l, other[0]) > EPS \
-                and min(b, other[3]) - max(t, other[1]) > EPS:
+        if q != pos and not _related(me, o):
             out.append(f"#{o.number} '{o.name}'")
     return tuple(out)
+
+
+def _hits(m: MeasuredScreen) -> np.ndarray:
+    """Which checked boxes overlap which (n x n), by area."""
+    b = np.asarray(m.boxes_px, dtype=float).reshape(-1, 4)
+    ow = np.minimum(b[:, None, 2], b[None, :, 2]) - np.maximum(b[:, None, 0], b[None, :, 0])
+    oh = np.minimum(b[:, None, 3], b[None, :, 3]) - np.maximum(b[:, None, 1], b[None, :, 1])
+    return (ow > EPS) & (oh > EPS)
 
 
 def _container(t: Target, m: MeasuredScreen) -> np.ndarray:
@@ -127,11 +133,6 @@ def _holds(outer: np.ndarray, inner: np.ndarray) -> bool:
     return bool(outer[0] <= inner[0] and outer[1] <= inner[1] and outer[2] >= inner[2] and outer[3] >= inner[3])
 
 
-def _split(gap: float, mine: float, theirs: float) -> float:
-    """My share of the room between two growing neighbours: at least half, more when they need less."""
-    return max(gap / 2, gap - theirs) if gap > 0 else 0.0
-
-
 def _spread(need: float, low: float, high: float) -> tuple[float, float] | None:
     """`need` spread over two sides with room `low` and `high`, as evenly as the room allows."""
     if need <= EPS:
@@ -143,55 +144,78 @@ def _spread(need: float, low: float, high: float) -> tuple[float, float] | None:
 
 
 def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int]) -> dict[int, tuple[np.ndarray, str]]:
-    """Planned boxes (coordinates) per position for the needs in `keep`; or why there is no room."""
-    targets = [m.screen.targets[k] for k in m.checked]
-    boxes = np.asarray(m.boxes_px, dtype=float)
-    others = [k for k, t in enumerate(m.screen.targets) if t.visible and k not in set(m.checked)]
+    """Planned boxes (coordinates) per position for the needs in `keep`; or why there is no room.
+
+    Per growing target, every other target is an obstacle on one axis (the one they are apart on,
+    or the wider gap when apart on both), all at once in numpy; a holder (a row round it) bounds
+    it instead."""
+    screen = m.screen
+    checked = set(m.checked)
+    order = list(m.checked) + [k for k, t in enumerate(screen.targets) if t.visible and k not in checked]
+    all_t = [screen.targets[k] for k in order]
+    obs = np.array([t.bounds for t in all_t], dtype=float).reshape(-1, 4)
+    windows = np.array([t.window for t in all_t])
+    numbers = [t.number for t in all_t]
+    boxes = obs[:len(m.checked)]
     growing = {n.pos: n for n in needs if n.pos in keep}
-    demand = {n.pos: (max(0.0, n.side[0] - (boxes[n.pos, 2] - boxes[n.pos, 0])),
-                      max(0.0, n.side[1] - (boxes[n.pos, 3] - boxes[n.pos, 1]))) for n in growing.values()}
+    demand = np.zeros((len(all_t), 2))
+    for n in growing.values():
+        demand[n.pos] = (max(0.0, n.side[0] - (boxes[n.pos, 2] - boxes[n.pos, 0])),
+                         max(0.0, n.side[1] - (boxes[n.pos, 3] - boxes[n.pos, 1])))
+    is_growing = np.zeros(len(all_t), dtype=bool)
+    is_growing[list(growing)] = True
     out: dict[int, tuple[np.ndarray, str]] = {}
-    for pos, need in growing.items():
-        t, box = targets[pos], boxes[pos]
+    rows = np.array(sorted(growing), dtype=int)
+    if not len(rows):
+        return out
+    # Every growing target against every obstacle at once: (growing x obstacles) arrays.
+    box = boxes[rows][:, None, :]
+    ob = obs[None, :, :]
+    same = windows[None, :] == windows[rows][:, None]
+    same[np.arange(len(rows)), rows] = False
+    holds = same & (ob[..., 0] <= box[..., 0]) & (ob[..., 1] <= box[..., 1]) & (ob[..., 2] >= box[..., 2]) \
+        & (ob[..., 3] >= box[..., 3])
+    inside = same & (ob[..., 0] >= box[..., 0]) & (ob[..., 1] >= box[..., 1]) & (ob[..., 2] <= box[..., 2]) \
+        & (ob[..., 3] <= box[..., 3])
+    gx = np.maximum(ob[..., 0] - box[..., 2], box[..., 0] - ob[..., 2])
+    gy = np.maximum(ob[..., 1] - box[..., 3], box[..., 1] - ob[..., 3])
+    # An ancestor holds its child's box or overlaps it, and overlapping pairs stay as they are: no obstacle.
+    use = same & ~holds & ~inside & ~((gx < 0) & (gy < 0))
+    axis = np.where((gy < 0) | ((gx >= 0) & (gx >= gy)), 0, 1)
+    gap = np.where(axis == 0, gx, gy)
+    free = np.maximum(0.0, gap - np.where(gap >= margin - EPS, margin, 0.0))  # keep a spacing that passes today
+    theirs = np.where(axis == 0, demand[None, :, 0], demand[None, :, 1])
+    # Room between two growing targets is shared: at least half each, more where the other needs less.
+    free = np.where(is_growing[None, :], np.maximum(free / 2, free - theirs), free)
+    side = np.where(axis == 0, np.where(ob[..., 0] < box[..., 0], 0, 2), np.where(ob[..., 1] < box[..., 1], 1, 3))
+    # Per growing target and side, the nearest obstacle's room: (growing x 4), and which one it is.
+    per_side = np.stack([np.where(use & (side == k), free, np.inf) for k in range(4)], axis=1)
+    nearest = per_side.argmin(axis=2)
+    nearest_room = np.take_along_axis(per_side, nearest[..., None], axis=2)[..., 0]
+    for i, pos in enumerate(rows):
+        t, here = all_t[pos], boxes[pos]
         lim = _container(t, m)
-        room = [box[0] - lim[0], box[1] - lim[1], lim[2] - box[2], lim[3] - box[3]]
+        room = np.array([here[0] - lim[0], here[1] - lim[1], lim[2] - here[2], lim[3] - here[3]])
+        for q in np.flatnonzero(holds[i]):  # a row round this button: it grows within the row
+            room = np.minimum(room, [here[0] - obs[q, 0], here[1] - obs[q, 1], obs[q, 2] - here[2], obs[q, 3] - here[3]])
         limiter = ["the container's edge"] * 4
-        obstacles = [(q, boxes[q], targets[q]) for q in range(len(targets)) if q != pos]
-        obstacles += [(None, np.array(m.screen.targets[k].bounds, dtype=float), m.screen.targets[k]) for k in others]
-        for q, ob, other in obstacles:
-            if other.window != t.window:
-                continue
-            if _related(t, other):
-                if other.is_ancestor_of(t) or _holds(ob, box):  # a row round this button: grow within it
-                    room = [min(room[0], box[0] - ob[0]), min(room[1], box[1] - ob[1]),
-                            min(room[2], ob[2] - box[2]), min(room[3], ob[3] - box[3])]
-                continue
-            gx = max(ob[0] - box[2], box[0] - ob[2])
-            gy = max(ob[1] - box[3], box[1] - ob[3])
-            if gx < 0 and gy < 0:
-                continue  # already overlapping: growth neither causes nor cures it
-            axis = 0 if gy < 0 or (gx >= 0 and gx >= gy) else 1
-            gap = gx if axis == 0 else gy
-            clear = margin if gap >= margin - EPS else 0.0  # keep a spacing that passes today
-            free = max(0.0, gap - clear)
-            if q is not None and q in growing:
-                free = _split(free, demand[pos][axis], demand[q][axis])
-            side = (0 if ob[0] < box[0] else 2) if axis == 0 else (1 if ob[1] < box[1] else 3)
-            if free < room[side]:
-                room[side] = max(0.0, free)
-                limiter[side] = f"#{other.number}"
-        across = _spread(demand[pos][0], room[0], room[2])
-        down = _spread(demand[pos][1], room[1], room[3])
+        for k in range(4):
+            if nearest_room[i, k] < room[k]:
+                room[k] = max(0.0, float(nearest_room[i, k]))
+                limiter[k] = f"#{numbers[nearest[i, k]]}"
+        need = demand[pos]
+        across = _spread(float(need[0]), float(room[0]), float(room[2]))
+        down = _spread(float(need[1]), float(room[1]), float(room[3]))
         if across is None or down is None:
-            axis = 0 if across is None else 1
-            short = demand[pos][axis] - room[axis] - room[axis + 2]
-            out[pos] = (box, f"short:{axis}:{short}:{limiter[axis]}:{limiter[axis + 2]}:{room[axis]}:{room[axis + 2]}")
+            ax = 0 if across is None else 1
+            short = float(need[ax] - room[ax] - room[ax + 2])
+            out[int(pos)] = (here, f"short:{ax}:{short}:{limiter[ax]}:{limiter[ax + 2]}:{room[ax]}:{room[ax + 2]}")
             continue
         growth = (across[0], down[0], across[1], down[1])
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
         tight = [f"{name}={limiter[k]}" for k, name in enumerate(SIDES)
                  if limiter[k].startswith("#") and growth[k] > EPS and growth[k] >= room[k] - EPS]
-        out[pos] = (box + np.array([-across[0], -down[0], across[1], down[1]]), "limits:" + ";".join(tight))
+        out[int(pos)] = (here + np.array([-across[0], -down[0], across[1], down[1]]), "limits:" + ";".join(tight))
     return out
 
 
