@@ -17,6 +17,7 @@ Writer = Callable[..., None]
 WRITERS: dict[str, tuple[str, str]] = {
     "table": ("tapgauge.report.table", "write_table"),
     "json": ("tapgauge.report.json_writer", "write_json"),
+    "jsonl": ("tapgauge.report.jsonl_writer", "write_jsonl"),
     "sarif": ("tapgauge.report.sarif", "write_sarif"),
     "junit": ("tapgauge.report.junit", "write_junit"),
     "csv": ("tapgauge.report.findings", "write_csv"),

@@ -1,0 +1,53 @@
+"""`--format jsonl`: JSON Lines (one screen a line, then a closing line), valid against its schema and
+holding the same records as the JSON report."""
+
+from __future__ import annotations
+
+import json
+from importlib import resources
+from pathlib import Path
+
+import jsonschema
+import pytest
+from referencing import Registry, Resource
+
+from conftest import DEMO
+from tapgauge.cli import main
+
+
+def _schemas() -> tuple[dict, Registry]:
+    folder = resources.files("tapgauge").joinpath("schema")
+    report = json.loads(folder.joinpath("report-v2.schema.json").read_text())
+    lines = json.loads(folder.joinpath("report-lines-v2.schema.json").read_text())
+    # The lines schema refers to the report schema's screen record by its file name.
+    registry = Registry().with_resources([(name, Resource.from_contents(doc)) for name, doc in (
+        ("https://tapgauge.invalid/schema/report-v2.schema.json", report),
+        ("https://tapgauge.invalid/schema/report-lines-v2.schema.json", lines))])
+    return lines, registry
+
+
+def test_json_lines_match_the_json_report_and_their_schema(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    assert main(["check", str(DEMO), "-f", "jsonl", "-o", str(tmp_path / "r.jsonl"), "--quiet"]) == 1
+    assert main(["check", str(DEMO), "-f", "json", "-o", str(tmp_path / "r.json"), "--quiet"]) == 1
+    text = (tmp_path / "r.jsonl").read_text(encoding="utf-8")
+    lines = text.splitlines()
+    assert text.endswith("\n") and all(line.strip() for line in lines)  # JSON Lines: one value a line
+    values = [json.loads(line) for line in lines]
+    report = json.loads((tmp_path / "r.json").read_text(encoding="utf-8"))
+    *screens, closing = values
+    assert screens == report["screens"]
+    assert {k: v for k, v in closing.items() if k != "format"} == {k: v for k, v in report.items()
+                                                                    if k not in ("format", "screens")}
+    assert closing["format"] == "tapgauge-report-lines" and all("format" not in s for s in screens)
+    schema, registry = _schemas()
+    validator = jsonschema.Draft202012Validator(schema, registry=registry)
+    for value in values:
+        validator.validate(value)
+
+
+def test_json_lines_stream_even_when_nothing_was_read(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    (tmp_path / "empty").mkdir()
+    assert main(["check", str(tmp_path / "empty"), "-f", "jsonl"]) == 2
+    (line,) = capsys.readouterr().out.splitlines()
+    closing = json.loads(line)
+    assert closing["summary"]["verdict"] == "nothing-compared"
