@@ -29,11 +29,9 @@ from typing import Any, TypeAlias, TypedDict, Unpack
 import orjson
 
 from tapgauge.batch import Scope, make_scoring, measure_options, read_options
-from tapgauge.checks import check_screen
 from tapgauge.config import Config, load_config
 from tapgauge.device import parse_density, parse_ppi, parse_scale, resolve_device
 from tapgauge.jsontext import dumps
-from tapgauge.measure import measure
 from tapgauge.model import (
     OLD_SEVERITY_WORDS,
     DeviceHints,
@@ -43,7 +41,7 @@ from tapgauge.model import (
     ScreenResult,
     Severity,
 )
-from tapgauge.pipeline import Settings, check_file
+from tapgauge.pipeline import Settings, check_file, check_one_screen
 from tapgauge.profiles import Profile
 from tapgauge.readers import ReadOptions, _documents_in_value
 from tapgauge.readers.android import is_android_root, read_android
@@ -426,9 +424,7 @@ def _check_content(path: Path, content: Content, settings: Settings) -> ScreenRe
         device = resolve_device(screen, settings.flags, own)
     except ValueError as exc:
         raise InputError(path, str(exc)) from None
-    checked = check_screen(measure(screen, device, settings.measure), list(settings.rulesets),
-                           settings.announce_skips)
-    return settings.scoring.apply(checked)
+    return check_one_screen(screen, device, settings)  # the same stages as a file, plans included
 
 
 def _one_screen(path: Path, content: Content | None, settings: Settings) -> ScreenResult:

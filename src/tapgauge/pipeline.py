@@ -59,16 +59,21 @@ def check_file(path: Path, settings: Settings) -> list[ScreenResult]:
         except ValueError as exc:
             where = f" ({screen.name})" if screen.name.startswith("dump ") else f" (image {screen.name})" if screen.name else ""
             raise InputError(path, f"{exc}{where}") from None
-        rulesets = list(settings.rulesets)
-        measured = measure(screen, device, settings.measure)
-        scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips))
-
-        def recheck(trial: Screen, device: Device = device) -> tuple[MeasuredScreen, ScreenResult]:
-            again = measure(trial, device, settings.measure)
-            return again, check_screen(again, rulesets, False)
-
-        results.append(plan_screen(measured, scored, rulesets, recheck))
+        results.append(check_one_screen(screen, device, settings))
     return results
+
+
+def check_one_screen(screen: Screen, device: Device, settings: Settings) -> ScreenResult:
+    """One screen's stages after reading: measure, check, score, plan (the plan re-checks in memory)."""
+    rulesets = list(settings.rulesets)
+    measured = measure(screen, device, settings.measure)
+    scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips))
+
+    def recheck(trial: Screen) -> tuple[MeasuredScreen, ScreenResult]:
+        again = measure(trial, device, settings.measure)
+        return again, check_screen(again, rulesets, False)
+
+    return plan_screen(measured, scored, rulesets, recheck)
 
 
 @contextmanager
