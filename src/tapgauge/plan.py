@@ -40,6 +40,7 @@ class Plan:
     text: str  # the plan in words, for tables
     missing: float = 0.0  # move: room missing, in the platform unit
     move: tuple[float, float] = (0.0, 0.0)  # move: dx, dy in the platform unit that would make room
+    mover: int | None = None  # move: the number of the neighbour to move (None: no move of one helps)
 
 
 @dataclass(frozen=True)
@@ -103,22 +104,26 @@ def _hits(m: MeasuredScreen) -> np.ndarray:
     return (ow > EPS) & (oh > EPS)
 
 
-def _container(t: Target, m: MeasuredScreen) -> np.ndarray:
-    """Where a target's touch area may reach: the screen, its window and its scrolling ancestors,
-    kept one coordinate inside any edge the box does not already touch (a target flush with a
-    scroller's edge reads as cut off)."""
+def _container(t: Target, m: MeasuredScreen) -> tuple[np.ndarray, list[str]]:
+    """Where a target's touch area may reach, and what bounds each side: the screen, its window and its
+    scrolling ancestors, kept one coordinate inside any edge the box does not already touch (a target
+    flush with a scroller's edge reads as cut off)."""
     s = m.screen
     box = np.array(t.bounds, dtype=float)
     lim = np.array([0.0, 0.0, float(s.width), float(s.height)])
+    names = ["the screen's edge"] * 4
     edges = []
     if 0 <= t.window < len(s.windows):
-        edges.append(np.array(s.windows[t.window].bounds, dtype=float))
-    edges += [np.array(b, dtype=float) for b, _ in t.scroll_ancestors]
-    for e in edges:
+        edges.append((np.array(s.windows[t.window].bounds, dtype=float), "its window's edge"))
+    edges += [(np.array(b, dtype=float), "its scrolling container's edge") for b, _ in t.scroll_ancestors]
+    for e, name in edges:
         inner = e + np.array([1, 1, -1, -1])
         inner = np.array([min(inner[0], box[0]), min(inner[1], box[1]), max(inner[2], box[2]), max(inner[3], box[3])])
-        lim = np.array([max(lim[0], inner[0]), max(lim[1], inner[1]), min(lim[2], inner[2]), min(lim[3], inner[3])])
-    return lim
+        for k in range(4):
+            tighter = inner[k] > lim[k] if k < 2 else inner[k] < lim[k]
+            if tighter:
+                lim[k], names[k] = inner[k], name
+    return lim, names
 
 
 def _related(a: Target, b: Target) -> bool:
@@ -194,15 +199,18 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
     nearest_room = np.take_along_axis(per_side, nearest[..., None], axis=2)[..., 0]
     for i, pos in enumerate(rows):
         t, here = all_t[pos], boxes[pos]
-        lim = _container(t, m)
+        lim, limiter = _container(t, m)
         room = np.array([here[0] - lim[0], here[1] - lim[1], lim[2] - here[2], lim[3] - here[3]])
         for q in np.flatnonzero(holds[i]):  # a row round this button: it grows within the row
-            room = np.minimum(room, [here[0] - obs[q, 0], here[1] - obs[q, 1], obs[q, 2] - here[2], obs[q, 3] - here[3]])
-        limiter = ["the container's edge"] * 4
+            within = [here[0] - obs[q, 0], here[1] - obs[q, 1], obs[q, 2] - here[2], obs[q, 3] - here[3]]
+            for k in range(4):
+                if within[k] < room[k]:
+                    room[k], limiter[k] = within[k], f"#{numbers[q]} (which holds it)"
         for k in range(4):
             if nearest_room[i, k] < room[k]:
                 room[k] = max(0.0, float(nearest_room[i, k]))
-                limiter[k] = f"#{numbers[nearest[i, k]]}"
+                q = nearest[i, k]
+                limiter[k] = f"#{numbers[q]}" + ("*" if is_growing[q] else "")  # *: grows too, the room is shared
         need = demand[pos]
         across = _spread(float(need[0]), float(room[0]), float(room[2]))
         down = _spread(float(need[1]), float(room[1]), float(room[3]))
@@ -213,7 +221,7 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
             continue
         growth = (across[0], down[0], across[1], down[1])
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
-        tight = [f"{name}={limiter[k]}" for k, name in enumerate(SIDES)
+        tight = [f"{name}={limiter[k].rstrip('*')}" for k, name in enumerate(SIDES)
                  if limiter[k].startswith("#") and growth[k] > EPS and growth[k] >= room[k] - EPS]
         out[int(pos)] = (here + np.array([-across[0], -down[0], across[1], down[1]]), "limits:" + ";".join(tight))
     return out
@@ -334,18 +342,29 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[np.nda
 
 
 def _move(box: np.ndarray, why: str, rules: tuple[str, ...], k_unit: float, unit: str) -> Plan:
+    """No room: how much is missing between the two limits on the tight axis, and the smallest move of a
+    neighbour that opens it (moving the target itself between two fixed limits opens nothing)."""
+    keep = tuple(float(v) for v in box)
     if not why.startswith("short:"):
-        return Plan("move", tuple(float(v) for v in box), (0.0, 0.0, 0.0, 0.0), rules,  # type: ignore[arg-type]
+        return Plan("move", keep, (0.0, 0.0, 0.0, 0.0), rules,  # type: ignore[arg-type]
                     "no touch area that passes fits here without crowding a neighbour: move it apart from its "
                     "neighbours, or make room around it")
-    _, axis_s, short_s, low_lim, high_lim, low_room, high_room = why.split(":", 6)
+    _, axis_s, short_s, low, high, _, _ = why.split(":", 6)
     axis, short = int(axis_s), float(short_s) / k_unit
-    # Away from the tighter side: the move that opens the room that is missing.
-    towards_high = float(high_room) >= float(low_room)
-    word = ("right" if towards_high else "left") if axis == 0 else ("down" if towards_high else "up")
-    away = low_lim if towards_high else high_lim
-    dx, dy = ((short if towards_high else -short), 0.0) if axis == 0 else (0.0, (short if towards_high else -short))
     what = "across" if axis == 0 else "down"
-    text = (f"no room to grow: {_fmt(short)} {unit} missing {what}; move it {_fmt(short)} {unit} {word}, away from "
-            f"{away}, or make that room around it")
-    return Plan("move", tuple(float(v) for v in box), (0.0, 0.0, 0.0, 0.0), rules, text, short, (dx, dy))  # type: ignore[arg-type]
+    between = f"between {low.rstrip('*')} and {high.rstrip('*')}"
+    # A neighbour that also grows shares the room it opens: it must move twice as far.
+    side = next(((lim, +1) for lim in (high,) if lim.startswith("#")), None) or \
+        next(((lim, -1) for lim in (low,) if lim.startswith("#")), None)
+    if side is None:
+        return Plan("move", keep, (0.0, 0.0, 0.0, 0.0), rules,  # type: ignore[arg-type]
+                    f"no room to grow: {_fmt(short)} {unit} missing {what} {between}; it cannot reach the minimum "
+                    "there: give it a larger container or another place", short)
+    who, sign = side
+    distance = short * (2 if who.endswith("*") else 1)
+    number = int(who.lstrip("#").split()[0].rstrip("*"))
+    word = ("right" if sign > 0 else "left") if axis == 0 else ("down" if sign > 0 else "up")
+    dx, dy = (sign * distance, 0.0) if axis == 0 else (0.0, sign * distance)
+    text = (f"no room to grow: {_fmt(short)} {unit} missing {what} {between}; move #{number} {_fmt(distance)} "
+            f"{unit} {word}, away from it, to make that room")
+    return Plan("move", keep, (0.0, 0.0, 0.0, 0.0), rules, text, short, (dx, dy), number)  # type: ignore[arg-type]

@@ -109,7 +109,8 @@ def _plan_record(p: Any) -> dict[str, Any]:
     """A fix plan: the touch area in the source's coordinates, growth per side (or the move) in the platform unit."""
     return {"kind": p.kind, "bounds": [round(v, 2) for v in p.bounds],
             "growth": dict(zip(("left", "top", "right", "bottom"), (round(g, 2) for g in p.growth))),
-            "move": {"dx": round(p.move[0], 2), "dy": round(p.move[1], 2)}, "missing": round(p.missing, 2),
+            "move": {"target": p.mover, "dx": round(p.move[0], 2), "dy": round(p.move[1], 2)},
+            "missing": round(p.missing, 2),
             "rules": list(p.rules), "text": p.text}
 
 
