@@ -161,3 +161,30 @@ def test_plans_explain_a_limited_side_and_show_in_the_report(tmp_path: Path, cap
     # The ring the plan adds above the target holds the hatching's colour (the overlay's plan colour).
     band = pic.crop((round(l * k) + 4, round(pt * k) + 2, round(r * k) - 4, round(top * k) - 2))
     assert CIRCLE in {c for _, c in band.getcolors(1 << 16)}
+
+
+def test_a_touch_area_stops_at_the_keyboard(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    # Two windows as a stock dump writes them (the app's, full screen, and an on-screen keyboard's below
+    # y = 600); a 30 x 30 dp button 6 dp above the keyboard at 160 dpi. Growing to 48 dp takes 18 dp
+    # down-and-up: only 5 dp may go down (a coordinate kept clear of the keyboard's edge), so 13 go up.
+    def node(bounds: str, kids: str = "", pkg: str = APP, **attrs: str) -> str:
+        base = {"index": "0", "text": "", "resource-id": "", "class": "android.view.View", "package": pkg,
+                "content-desc": "", "checkable": "false", "checked": "false", "clickable": "false",
+                "enabled": "true", "focusable": "false", "focused": "false", "scrollable": "false",
+                "long-clickable": "false", "password": "false", "selected": "false"}
+        base.update({k.replace("_", "-"): v for k, v in attrs.items()})
+        a = " ".join(f'{k}="{v}"' for k, v in base.items())
+        return f'<node {a} bounds="{bounds}">{kids}</node>' if kids else f'<node {a} bounds="{bounds}" />'
+
+    keys = "net.quillkeys.inputmethod"  # an invented keyboard app
+    app = node("[0,0][400,800]", node("[100,564][130,594]", clickable="true", content_desc="Add note"))
+    keyboard = node("[0,600][400,800]", node("[0,600][40,640]", pkg=keys, clickable="true", text="q"), pkg=keys)
+    body = "\n".join(["<?xml version='1.0' encoding='UTF-8' standalone='yes' ?>", '<hierarchy rotation="0">', app,
+                      keyboard, "</hierarchy>"])
+    (tmp_path / "s.xml").write_text(body, encoding="utf-8")
+    main(["check", str(tmp_path / "s.xml"), "-f", "json", "--quiet", "--density", "160", "--rules", "android-guidance"])
+    s = json.loads(capsys.readouterr().out)["screens"][0]
+    note = next(t for t in s["targets"] if t["name"] == "Add note")
+    assert note["plan"]["kind"] == "grow"
+    assert note["plan"]["bounds"][3] <= 599  # never under the keyboard
+    assert note["plan"]["growth"]["bottom"] == 5.0 and note["plan"]["growth"]["top"] == 13.0

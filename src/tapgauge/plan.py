@@ -126,6 +126,19 @@ def _container(t: Target, m: MeasuredScreen) -> tuple[np.ndarray, list[str]]:
     return lim, names
 
 
+def _other_windows(screen: Screen, t: Target, box: np.ndarray) -> list[np.ndarray]:
+    """Windows other than the target's that neither hold it nor overlap it: limits to its growth."""
+    out = []
+    for w, window in enumerate(screen.windows):
+        wb = np.array(window.bounds, dtype=float)
+        if w == t.window:
+            continue
+        apart = wb[0] >= box[2] or wb[2] <= box[0] or wb[1] >= box[3] or wb[3] <= box[1]
+        if apart:
+            out.append(wb)
+    return out
+
+
 def _related(a: Target, b: Target) -> bool:
     """One encloses the other (a row round its buttons): neither is in the other's way."""
     if a.is_ancestor_of(b) or b.is_ancestor_of(a):
@@ -206,6 +219,14 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
             for k in range(4):
                 if within[k] < room[k]:
                     room[k], limiter[k] = within[k], f"#{numbers[q]} (which holds it)"
+        for wb in _other_windows(screen, t, here):  # the keyboard, a system bar: a touch area stops at them
+            wgx = max(wb[0] - here[2], here[0] - wb[2])
+            wgy = max(wb[1] - here[3], here[1] - wb[3])
+            ax = 0 if wgy < 0 or (wgx >= 0 and wgx >= wgy) else 1
+            k = (0 if wb[0] < here[0] else 2) if ax == 0 else (1 if wb[1] < here[1] else 3)
+            gap = max(0.0, (wgx if ax == 0 else wgy) - 1.0)  # a coordinate clear of it, as of a window's edge
+            if gap < room[k]:
+                room[k], limiter[k] = gap, "another window's edge"
         for k in range(4):
             if nearest_room[i, k] < room[k]:
                 room[k] = max(0.0, float(nearest_room[i, k]))
