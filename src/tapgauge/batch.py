@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import os
+import shutil
 import sys
 from collections import Counter
 from collections.abc import Callable, Iterator
@@ -15,8 +16,6 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TextIO
-
-from rich.console import Console
 
 from tapgauge.config import Config, load_config
 from tapgauge.device import parse_density, parse_ppi, parse_scale
@@ -39,7 +38,14 @@ from tapgauge.waivers import Waivers
 
 def say(message: str) -> None:
     """A message on stderr, prefixed with the tool's name."""
-    Console(stderr=True, highlight=False, soft_wrap=True).print(f"tapgauge: {message}", markup=False)
+    # Plain text: no markup, emoji codes or wrapping to interpret in what may quote a screen's labels.
+    sys.stderr.write(f"tapgauge: {message}\n")
+    sys.stderr.flush()
+
+
+def terminal_width() -> int:
+    """Columns of the terminal, or of $COLUMNS; 80 when the output is not a terminal."""
+    return shutil.get_terminal_size((80, 24)).columns
 
 
 INTERRUPTED = 130  # the shell's code for a run stopped by Ctrl-C
@@ -191,6 +197,7 @@ def progress() -> Iterator[Callable[[int, int], None] | None]:
     if not sys.stderr.isatty() or os.environ.get("CI"):
         yield None
         return
+        from rich.console import Console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
 
     with Progress("checking", BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
@@ -274,7 +281,7 @@ def emit_record(record: dict, fmt: str, output: Path | None, table: Callable[...
     if fmt == "json":
         text = dumps(record) + "\n"
     else:
-        text = table(record, width=Console().width if output is None else 80,
+        text = table(record, width=terminal_width() if output is None else 80,
                      color=output is None and sys.stdout.isatty())
     return emit(text, output)
 

@@ -12,8 +12,6 @@ from pathlib import Path
 from typing import Annotated, Any, Optional
 
 import typer
-from rich.console import Console
-from rich.table import Table
 
 from tapgauge import __version__
 from tapgauge.batch import (
@@ -33,6 +31,7 @@ from tapgauge.batch import (
     screen_namer,
     table_or_json,
     tell_verdict,
+    terminal_width,
     write_report,
 )
 from tapgauge.config import load_config
@@ -171,7 +170,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
             report.observe(overlay_observer(report, overlay, overlay_failed))
         if fmt == "table":
             code = write_report(report, output, lambda r, out: writer(
-                r, out, width=width or (Console().width if output is None else 80),
+                r, out, width=width or (terminal_width() if output is None else 80),
                 color=output is None and sys.stdout.isatty(), difficulty=difficulty, show=show))
         else:
             code = write_report(report, output, lambda r, out: writer(r, out, width=width), fmt in TOTALS_FIRST)
@@ -452,6 +451,9 @@ def config_cmd() -> None:
         say(str(exc))
         raise typer.Exit(EXIT_ERROR) from None
     defaults = {"rules": DEFAULT_RULESETS, "fail_level": "error", "profiles": DEFAULT_PROFILES, "marker": DEFAULT_MARKER}
+    from rich.console import Console
+    from rich.table import Table
+
     table = Table(show_edge=False, pad_edge=False, box=None, padding=(0, 2, 0, 0))
     for col in ("setting", "value", "from"):
         table.add_column(col, overflow="fold")
@@ -514,7 +516,7 @@ def list_rules(
     """List the built-in rule sets, their rules and published sources."""
     from tapgauge.report.table import _wrap as wrap  # wraps by display width, with a hanging indent
 
-    cols = width or Console().width
+    cols = width or terminal_width()
     lines: list[str] = []
     for rs in builtin_rulesets().values():
         default = " (default)" if rs.id in DEFAULT_RULESETS else ""
