@@ -25,7 +25,7 @@ from tapgauge.identity import fingerprint
 from tapgauge.jsontext import write_streamed
 from tapgauge.model import SEVERITY_BY_LABEL, InputError, Severity
 from tapgauge.renames import current
-from tapgauge.report.records import Report
+from tapgauge.report.records import EXIT_CODES, Report
 
 BASELINE_FORMAT = "tapgauge-baseline"
 BASELINE_VERSION = 2
@@ -479,8 +479,8 @@ def gate_record(verdict: Verdict, baseline_path: str, errors: int, level: Severi
                 for c in sorted(changes, key=lambda c: (c.screen, c.target, c.kind, c.message))]
 
     nothing = not verdict.compared or not checked
-    code = 2 if errors or nothing else 1 if verdict.worse else 0
     word = ("input-errors" if errors else "nothing-compared" if nothing else "fail" if verdict.worse else "pass")
+    code = EXIT_CODES[word]  # the verdicts and their codes are the check's
     return {"format": "tapgauge-gate", "version": 1, "baseline": baseline_path, "fail_level": level.label,
             "regressions": rows(verdict.worse), "improvements": rows(verdict.better), "gone": rows(verdict.gone),
             "moved": rows(verdict.moved),

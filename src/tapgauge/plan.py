@@ -22,6 +22,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from tapgauge.device import MM_PER_INCH
+from tapgauge.geometry import as_boxes, candidate_pairs, intersection_areas
 from tapgauge.measure import MeasuredScreen
 from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target
 
@@ -58,7 +59,7 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet]) -> list
     k_of = {id(t.target): k for k, t in enumerate(sr.targets)}
     out = []
     d = m.device
-    hits = _hits(m)
+    hits = _overlap_positions(m)
     for tr in sr.targets:
         if tr.status != "fail":
             continue
@@ -85,23 +86,32 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet]) -> list
     return out
 
 
-def _overlapping(m: MeasuredScreen, pos: int, hits: np.ndarray) -> tuple[str, ...]:
+def _overlapping(m: MeasuredScreen, pos: int, hits: dict[int, list[int]]) -> tuple[str, ...]:
     """The checked targets whose boxes overlap this one's (not one holding the other)."""
     me = m.screen.targets[m.checked[pos]]
     out = []
-    for q in np.flatnonzero(hits[pos]):
+    for q in hits.get(pos, []):
         o = m.screen.targets[m.checked[q]]
-        if q != pos and not _related(me, o):
+        if not _related(me, o):
             out.append(f"#{o.number} '{o.name}'")
     return tuple(out)
 
 
-def _hits(m: MeasuredScreen) -> np.ndarray:
-    """Which checked boxes overlap which (n x n), by area."""
-    b = np.asarray(m.boxes_px, dtype=float).reshape(-1, 4)
-    ow = np.minimum(b[:, None, 2], b[None, :, 2]) - np.maximum(b[:, None, 0], b[None, :, 0])
-    oh = np.minimum(b[:, None, 3], b[None, :, 3]) - np.maximum(b[:, None, 1], b[None, :, 1])
-    return (ow > EPS) & (oh > EPS)
+def _overlap_pairs(m: MeasuredScreen) -> tuple[np.ndarray, np.ndarray]:
+    """Positions (i < j) of checked boxes that overlap by some area: the checks' own pair search,
+    so a screen of thousands of targets never builds an n x n matrix."""
+    boxes = as_boxes(m.boxes_px)
+    i, j = candidate_pairs(boxes, 0.0)
+    keep = intersection_areas(boxes[i], boxes[j]) > EPS
+    return i[keep], j[keep]
+
+
+def _overlap_positions(m: MeasuredScreen) -> dict[int, list[int]]:
+    out: dict[int, list[int]] = {}
+    for i, j in zip(*_overlap_pairs(m)):
+        out.setdefault(int(i), []).append(int(j))
+        out.setdefault(int(j), []).append(int(i))
+    return out
 
 
 def _container(t: Target, m: MeasuredScreen) -> tuple[np.ndarray, list[str]]:
@@ -147,10 +157,6 @@ def _related(a: Target, b: Target) -> bool:
     return (al <= bl and at <= bt and ar >= br and ab >= bb) or (bl <= al and bt <= at and br >= ar and bb >= ab)
 
 
-def _holds(outer: np.ndarray, inner: np.ndarray) -> bool:
-    return bool(outer[0] <= inner[0] and outer[1] <= inner[1] and outer[2] >= inner[2] and outer[3] >= inner[3])
-
-
 def _spread(need: float, low: float, high: float) -> tuple[float, float] | None:
     """`need` spread over two sides with room `low` and `high`, as evenly as the room allows."""
     if need <= EPS:
@@ -183,10 +189,23 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
     is_growing = np.zeros(len(all_t), dtype=bool)
     is_growing[list(growing)] = True
     out: dict[int, tuple[np.ndarray, str]] = {}
-    rows = np.array(sorted(growing), dtype=int)
-    if not len(rows):
-        return out
-    # Every growing target against every obstacle at once: (growing x obstacles) arrays.
+    every = np.array(sorted(growing), dtype=int)
+    # Growing targets against every obstacle, a block of rows at a time: (rows x obstacles) arrays,
+    # so memory stays bounded on a screen of thousands of targets.
+    for start in range(0, len(every), ROWS):
+        out.update(_plan_rows(m, every[start:start + ROWS], all_t, obs, windows, numbers, boxes, demand,
+                              is_growing, margin))
+    return out
+
+
+ROWS = 64  # growing targets planned together: 64 x 10,000 obstacles is a few MB an array
+
+
+def _plan_rows(m: MeasuredScreen, rows: np.ndarray, all_t: list[Target], obs: np.ndarray, windows: np.ndarray,
+               numbers: list[int], boxes: np.ndarray, demand: np.ndarray, is_growing: np.ndarray,
+               margin: float) -> dict[int, tuple[np.ndarray, str]]:
+    out: dict[int, tuple[np.ndarray, str]] = {}
+    screen = m.screen
     box = boxes[rows][:, None, :]
     ob = obs[None, :, :]
     same = windows[None, :] == windows[rows][:, None]
@@ -254,13 +273,8 @@ def _findings(sr: ScreenResult) -> set[tuple[int, str]]:
 
 def _overlaps(m: MeasuredScreen) -> set[tuple[int, int]]:
     """Pairs of checked targets (by number) whose boxes overlap."""
-    boxes = np.asarray(m.boxes_px, dtype=float).reshape(-1, 4)
     numbers = [m.screen.targets[k].number for k in m.checked]
-    l, t, r, b = (boxes[:, i] for i in range(4))
-    ow = np.minimum(r[:, None], r[None, :]) - np.maximum(l[:, None], l[None, :])
-    oh = np.minimum(b[:, None], b[None, :]) - np.maximum(t[:, None], t[None, :])
-    hit = np.triu((ow > EPS) & (oh > EPS), 1)
-    return {(numbers[i], numbers[j]) for i, j in zip(*np.nonzero(hit))}
+    return {(numbers[i], numbers[j]) for i, j in zip(*_overlap_pairs(m))}
 
 
 Recheck = Callable[[Screen], tuple[MeasuredScreen, ScreenResult]]
