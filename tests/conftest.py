@@ -44,3 +44,29 @@ def check_boxes(boxes: list[tuple[int, int, int, int]], rulesets: list[str], den
 @pytest.fixture
 def demo() -> Path:
     return DEMO
+
+
+APP = "org.fernwick.allotments"  # the demo's invented app
+
+
+def dump_node(index: int, bounds: tuple[int, int, int, int], *, text: str = "", rid: str = "", desc: str = "",
+              cls: str = "android.widget.Button", clickable: bool = True, enabled: bool = True,
+              inner: str = "", pkg: str = APP) -> str:
+    """One <node> as `uiautomator dump` writes it: every attribute, in its order, on one line (compare
+    screens_demo/android/*.xml)."""
+    def flag(on: bool) -> str:
+        return "true" if on else "false"
+
+    l, t, r, b = bounds
+    head = (f'<node index="{index}" text="{text}" resource-id="{rid}" class="{cls}" package="{pkg}" '
+            f'content-desc="{desc}" checkable="false" checked="false" clickable="{flag(clickable)}" '
+            f'enabled="{flag(enabled)}" focusable="{flag(clickable)}" focused="false" scrollable="false" '
+            f'long-clickable="false" password="false" selected="false" bounds="[{l},{t}][{r},{b}]"')
+    return f"{head}>{inner}</node>" if inner else f"{head} />"
+
+
+def dump_xml(*nodes: str, size: tuple[int, int] = (1080, 2340)) -> str:
+    """A one-window dump: a full-screen FrameLayout holding `nodes`."""
+    root = dump_node(0, (0, 0, *size), cls="android.widget.FrameLayout", clickable=False, inner="".join(nodes))
+    return f"<?xml version='1.0' encoding='UTF-8' standalone='yes' ?><hierarchy rotation=\"0\">{root}</hierarchy>"
+

@@ -10,7 +10,7 @@ import shutil
 from pathlib import Path
 
 import pytest
-from conftest import DEMO
+from conftest import DEMO, dump_node, dump_xml
 from PIL import Image
 
 from tapgauge.cli import main
@@ -19,25 +19,11 @@ V1 = DEMO / "releases" / "v1"
 PKG = "org.fernwick.allotments"
 
 
-def _node(index: int, bounds: tuple[int, int, int, int], *, text: str = "", rid: str = "", desc: str = "",
-          cls: str = "android.widget.Button", clickable: bool = True, enabled: bool = True, inner: str = "") -> str:
-    """One <node> as `uiautomator dump` writes it: every attribute, in its order, on one line (from memory
-    of the dumps the platform tool writes; compare screens_demo/android/*.xml)."""
-    def flag(on: bool) -> str:
-        return "true" if on else "false"
-
-    l, t, r, b = bounds
-    head = (f'<node index="{index}" text="{text}" resource-id="{rid}" class="{cls}" package="{PKG}" '
-            f'content-desc="{desc}" checkable="false" checked="false" clickable="{flag(clickable)}" '
-            f'enabled="{flag(enabled)}" focusable="{flag(clickable)}" focused="false" scrollable="false" '
-            f'long-clickable="false" password="false" selected="false" bounds="[{l},{t}][{r},{b}]"')
-    return f"{head}>{inner}</node>" if inner else f"{head} />"
+_node = dump_node
 
 
 def _dump(*nodes: str) -> str:
-    root = _node(0, (0, 0, 1080, 2340), cls="android.widget.FrameLayout", clickable=False, inner="".join(nodes))
-    return ("<?xml version='1.0' encoding='UTF-8' standalone='yes' ?>"
-            f'<hierarchy rotation="0">{root}</hierarchy>')
+    return dump_xml(*nodes)
 
 
 @pytest.fixture

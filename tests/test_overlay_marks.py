@@ -171,13 +171,20 @@ def test_failing_mark_is_corner_brackets_not_an_outline() -> None:
     assert INK in _band(pic, l, t, l + depth, t + depth)
 
 
-def test_failing_corners_on_the_demo_cluster(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
-                                             capsys: pytest.CaptureFixture[str]) -> None:
+def _overlay_of(screen: Path, tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+                capsys: pytest.CaptureFixture[str]) -> tuple[dict, Image.Image]:
+    """A demo screen's record and the overlay `check --overlay` draws for it."""
     monkeypatch.chdir(REPO)
     out = tmp_path / "ov"
-    main(["check", str(DEMO / "android" / "plot_detail.xml"), "-f", "json", "--overlay", str(out), "--quiet"])
+    main(["check", str(screen), "-f", "json", "--overlay", str(out), "--quiet"])
     record = json.loads(capsys.readouterr().out)["screens"][0]
-    pic = Image.open(out / overlay_name(record)).convert("RGB")
+    return record, Image.open(out / overlay_name(record))
+
+
+def test_failing_corners_on_the_demo_cluster(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+                                             capsys: pytest.CaptureFixture[str]) -> None:
+    record, picture = _overlay_of(DEMO / "android" / "plot_detail.xml", tmp_path, monkeypatch, capsys)
+    pic = picture.convert("RGB")
     failing = [t for t in record["targets"] if t["status"] == "fail"]
     assert len(failing) >= 5
     for t in failing:
@@ -274,12 +281,9 @@ def _saturated_near(arr: np.ndarray, hue: float) -> np.ndarray:
 def test_marker_strokes_are_knocked_back(tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
                                          capsys: pytest.CaptureFixture[str]) -> None:
     # tool_shed.png: a screenshot with the tester's boxes drawn in magenta (the default marker).
-    monkeypatch.chdir(REPO)
-    out = tmp_path / "ov"
-    main(["check", str(DEMO / "marked" / "tool_shed.png"), "-f", "json", "--overlay", str(out), "--quiet"])
-    screen = json.loads(capsys.readouterr().out)["screens"][0]
+    screen, picture = _overlay_of(DEMO / "marked" / "tool_shed.png", tmp_path, monkeypatch, capsys)
     source = np.asarray(Image.open(DEMO / "marked" / "tool_shed.png").convert("RGB"))
-    pic = np.asarray(Image.open(out / overlay_name(screen)).convert("RGB"))[:source.shape[0]]
+    pic = np.asarray(picture.convert("RGB"))[:source.shape[0]]
     stroke = _saturated_near(source[::2, ::2], MARKER_HUES["magenta"])
     assert stroke.sum() > 1000  # the pen's strokes are there to begin with
     assert not _saturated_near(pic[::2, ::2], MARKER_HUES["magenta"]).any()  # and gone from the overlay
@@ -291,7 +295,7 @@ def test_marker_strokes_are_knocked_back(tmp_path: Path, monkeypatch: pytest.Mon
     # The marked-box reader finds nothing in the overlay: neither the tester's boxes nor ours.
     for pen in ("magenta", "red"):
         assert find_boxes(np.ascontiguousarray(pic), MARKER_HUES[pen]) == []
-    legend = Image.open(out / overlay_name(screen)).height - source.shape[0]
+    legend = picture.height - source.shape[0]
     assert legend > 0
 
 

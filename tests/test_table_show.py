@@ -8,6 +8,7 @@ import re
 from pathlib import Path
 
 import pytest
+from conftest import dump_node, dump_xml
 
 from tapgauge.cli import main
 
@@ -15,21 +16,14 @@ PKG = "org.fernwick.allotments"
 SUMMARY = re.compile(r"\d+ screens?, \d+ targets?: .*\(exit \d\)")
 
 
-def _node(index: int, bounds: tuple[int, int, int, int], *, text: str = "", rid: str = "", desc: str = "",
-          cls: str = "android.widget.ImageButton", clickable: bool = True, inner: str = "") -> str:
-    """One <node> as `uiautomator dump` writes it, every attribute on one line (from memory)."""
-    flag = "true" if clickable else "false"
-    l, t, r, b = bounds
-    head = (f'<node index="{index}" text="{text}" resource-id="{rid and PKG + ":id/" + rid}" class="{cls}" '
-            f'package="{PKG}" content-desc="{desc}" checkable="false" checked="false" clickable="{flag}" '
-            f'enabled="true" focusable="{flag}" focused="false" scrollable="false" long-clickable="false" '
-            f'password="false" selected="false" bounds="[{l},{t}][{r},{b}]"')
-    return f"{head}>{inner}</node>" if inner else f"{head} />"
+def _node(index: int, bounds: tuple[int, int, int, int], *, rid: str = "", cls: str = "android.widget.ImageButton",
+          **kw: object) -> str:
+    """A node of the shared dump shape, its resource id given short (`save` for PKG:id/save)."""
+    return dump_node(index, bounds, rid=rid and f"{PKG}:id/{rid}", cls=cls, **kw)  # type: ignore[arg-type]
 
 
 def _dump(*nodes: str) -> str:
-    root = _node(0, (0, 0, 1080, 2340), cls="android.widget.FrameLayout", clickable=False, inner="".join(nodes))
-    return f"<?xml version='1.0' encoding='UTF-8' standalone='yes' ?><hierarchy rotation=\"0\">{root}</hierarchy>"
+    return dump_xml(*nodes)
 
 
 @pytest.fixture
