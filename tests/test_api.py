@@ -199,7 +199,7 @@ def test_assert_fails_when_nothing_was_compared(tmp_path: Path, monkeypatch: pyt
     monkeypatch.chdir(tmp_path)
     disabled = TWO_SMALL_ONE_LARGE.replace('clickable="true"', 'clickable="true" enabled="false"')
     result = check_source(disabled, density=640)
-    assert result.passed and result.verdict == "nothing-compared"  # no failing target, yet nothing measured
+    assert not result.passed and result.verdict == "nothing-compared"  # nothing measured is never a pass
     with pytest.raises(AssertionError, match="nothing compared"):
         result.assert_passed()
 

@@ -158,8 +158,9 @@ class ScreenCheck:
 
     @property
     def passed(self) -> bool:
-        """No target has an open finding at or above the fail level (the CLI's rule)."""
-        return not self.failing
+        """Something was compared and no target has an open finding at or above the fail level (the CLI's
+        rule: a screen on which nothing was measured is never a pass)."""
+        return self.verdict == "pass"
 
     @property
     def compared(self) -> int:
