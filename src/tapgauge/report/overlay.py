@@ -499,17 +499,22 @@ def _planned(picture: Image.Image, area: Rect, box: Rect, sc: Scale) -> None:
     l, t, r, b = (round(v) for v in area)
     if r <= l or b <= t:
         return
-    ring = Image.new("L", picture.size, 0)
-    mask = ImageDraw.Draw(ring)
-    mask.rectangle([l, t, r - 1, b - 1], fill=255)
-    mask.rectangle([round(box[0]), round(box[1]), round(box[2]) - 1, round(box[3]) - 1], fill=0)
-    hatch = Image.new("L", picture.size, 0)
-    lines = ImageDraw.Draw(hatch)
-    step = sc.px(6)
-    for x in range(l - (b - t), r, step):  # lines at 45 degrees across the planned area
-        lines.line([(x, b), (x + (b - t), t)], fill=255, width=sc.px(1))
-    picture.paste(Image.new("RGB", picture.size, CIRCLE), (0, 0), Image.fromarray(
-        np.minimum(np.asarray(ring), np.asarray(hatch))))
+    # The masks cover only the part of the area inside the picture (not the whole picture): the
+    # same pixels, drawn in that window's coordinates (whole-pixel shifts), at a fraction of the cost.
+    x0, y0, x1, y1 = max(l, 0), max(t, 0), min(r, picture.width), min(b, picture.height)
+    if x1 > x0 and y1 > y0:
+        size = (x1 - x0, y1 - y0)
+        ring = Image.new("L", size, 0)
+        mask = ImageDraw.Draw(ring)
+        mask.rectangle([l - x0, t - y0, r - 1 - x0, b - 1 - y0], fill=255)
+        mask.rectangle([round(box[0]) - x0, round(box[1]) - y0, round(box[2]) - 1 - x0, round(box[3]) - 1 - y0],
+                       fill=0)
+        hatch = Image.new("L", size, 0)
+        lines = ImageDraw.Draw(hatch)
+        step = sc.px(6)
+        for x in range(l - (b - t), r, step):  # lines at 45 degrees across the planned area
+            lines.line([(x - x0, b - y0), (x + (b - t) - x0, t - y0)], fill=255, width=sc.px(1))
+        picture.paste(CIRCLE, (x0, y0, x1, y1), Image.fromarray(np.minimum(np.asarray(ring), np.asarray(hatch))))
     ImageDraw.Draw(picture).rectangle([l, t, r - 1, b - 1], outline=CIRCLE, width=sc.px(1))
 
 
