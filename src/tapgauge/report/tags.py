@@ -6,7 +6,7 @@ Pure geometry on numpy arrays (boxes in, tag rectangles out), so it is tested wi
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import NamedTuple
 
@@ -179,24 +179,50 @@ class _Look:
         wide = (window[0] - self.gap, window[1] - self.gap, window[2] + self.gap, window[3] + self.gap)
         placed = _near(self.placed, wide)  # tags are judged grown by the gap
         others, seg = _near(self.others, window), _near_lines(self.lines, window)
-        on_tags = _overlap_areas(grown, placed).sum(axis=1) if len(placed) else np.zeros(n)
+        # The costs are compared in order (as a lexicographic sort would), each worked out only for
+        # the spots that tie on every cost before it: most spots drop out at the first, cheap ones.
+        keep = np.arange(n)
+        least: list[float] = []
+
+        def narrow(values: np.ndarray) -> np.ndarray:
+            nonlocal keep
+            low = values.min()
+            least.append(float(low))
+            tied = values == low
+            keep = keep[tied]
+            return tied
+
+        narrow(_overlap_areas(grown, placed).sum(axis=1) if len(placed) else np.zeros(n))  # other tags covered
+        narrow(_overlap_areas(rects[keep], others).sum(axis=1) if len(others) else np.zeros(len(keep)))  # boxes
+        on_own = _overlap_areas(rects[keep], self.own[None, :])[:, 0]
+        on_own = on_own[narrow(on_own * (not self.roomy))]
+        dist = _gaps(rects[keep], self.box)
+        moved = dist > self.g + 0.5  # set away from its box: it needs a leader
+        a, z = _leaders(rects[keep], self.box)
         # A tag over an earlier leader hides it; a leader through an earlier tag is lost under it.
-        over_lines = (_crossings(seg[:, :2], seg[:, 2:], grown).sum(axis=0) if len(seg) else np.zeros(n))
-        on_boxes = _overlap_areas(rects, others).sum(axis=1) if len(others) else np.zeros(n)
-        on_own = _overlap_areas(rects, self.own[None, :])[:, 0]
-        dist = _gaps(rects, self.box)
-        moved = dist > self.g + 0.5
-        a, z = _leaders(rects, self.box)
-        lead_tags = np.where(moved, _crossings(a, z, _grown(placed, self.gap)).sum(axis=1), 0)
-        lead_lines = np.where(moved, _segments_cross(a, z, seg).sum(axis=1), 0)
-        lead_boxes = np.where(moved, _crossings(a, z, others).sum(axis=1), 0)
-        crossed = over_lines + lead_tags
-        on_small = on_own * (not self.roomy)
-        keys = (on_tags, on_boxes, on_small, crossed, lead_lines, lead_boxes, on_own, dist)
-        k = int(np.lexsort((np.arange(n), *keys[::-1]))[0])
-        rect = tuple(float(v) for v in rects[k])
-        leader = ((float(a[k, 0]), float(a[k, 1])), (float(z[k, 0]), float(z[k, 1]))) if moved[k] else None
-        return _Spot((*(float(v[k]) for v in keys), rank), rect, leader)  # type: ignore[arg-type]
+        over_lines = (_crossings(seg[:, :2], seg[:, 2:], grown[keep]).sum(axis=0) if len(seg)
+                      else np.zeros(len(keep)))
+        tied = narrow(over_lines + _led(moved, a, z, lambda p, q: _crossings(p, q, _grown(placed, self.gap))))
+        for cost in (lambda p, q: _segments_cross(p, q, seg), lambda p, q: _crossings(p, q, others)):
+            on_own, dist, moved, a, z = on_own[tied], dist[tied], moved[tied], a[tied], z[tied]
+            tied = narrow(_led(moved, a, z, cost))  # earlier leaders, then other boxes, its leader crosses
+        on_own, dist, moved, a, z = on_own[tied], dist[tied], moved[tied], a[tied], z[tied]
+        tied = narrow(on_own)
+        dist, moved, a, z = dist[tied], moved[tied], a[tied], z[tied]
+        tied = narrow(dist)
+        moved, a, z = moved[tied], a[tied], z[tied]
+        rect = tuple(float(v) for v in rects[keep[0]])  # ties go to the spot listed first
+        leader = ((float(a[0, 0]), float(a[0, 1])), (float(z[0, 0]), float(z[0, 1]))) if moved[0] else None
+        return _Spot((*least, rank), rect, leader)  # type: ignore[arg-type]
+
+
+def _led(moved: np.ndarray, a: np.ndarray, z: np.ndarray,
+         crossed: Callable[[np.ndarray, np.ndarray], np.ndarray]) -> np.ndarray:
+    """How many things each spot's leader (a -> z) crosses, counted only for spots set away from their box."""
+    out = np.zeros(len(moved))
+    if moved.any():
+        out[moved] = crossed(a[moved], z[moved]).sum(axis=1)
+    return out
 
 
 def _near(rects: np.ndarray, window: Rect) -> np.ndarray:
