@@ -197,7 +197,7 @@ def progress() -> Iterator[Callable[[int, int], None] | None]:
     if not sys.stderr.isatty() or os.environ.get("CI"):
         yield None
         return
-        from rich.console import Console
+    from rich.console import Console
     from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
 
     with Progress("checking", BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
