@@ -15,6 +15,21 @@ DEMO = REPO / "screens_demo"
 DATA = Path(__file__).resolve().parent / "data"
 
 
+def pytest_configure(config: pytest.Config) -> None:
+    config.addinivalue_line("markers", "document: reads the JSON report as users get it (report/document.py)")
+
+
+@pytest.fixture(autouse=True)
+def whole_records(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Most tests read results through the CLI's JSON report, and there they read the whole record:
+    with the sentences, names and millimetres that the table, Markdown, HTML, SARIF and JUnit
+    writers print from it. The JSON report itself leaves those out (report/document.py); tests
+    marked `document` read it as users get it (its shape, schema and size are tested there).
+    Worker processes are forked, so they see the same."""
+    if request.node.get_closest_marker("document") is None:
+        monkeypatch.setattr("tapgauge.report.document.screen_document", lambda rec: rec)
+
+
 def screen_of(boxes: list[tuple[int, int, int, int]], platform: str = "android") -> Screen:
     """A screen whose targets are the given pixel boxes, later ones drawn on top.
 

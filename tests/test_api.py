@@ -76,6 +76,7 @@ def test_table_is_the_cli_table(screen: Path, in_repo: Path, capsys: pytest.Capt
     assert check_source(screen).table(width=80) == capsys.readouterr().out
 
 
+@pytest.mark.document
 def test_report_json_is_a_valid_report_and_the_cli_one(in_repo: Path, capsys: pytest.CaptureFixture[str]) -> None:
     main(["check", str(SEED_TRAY), "-f", "json", "--quiet"])
     cli = json.loads(capsys.readouterr().out)

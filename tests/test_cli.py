@@ -35,6 +35,7 @@ def run_json(args: list[str], capsys: pytest.CaptureFixture[str]) -> tuple[int, 
     return code, json.loads(out)
 
 
+@pytest.mark.document
 def test_demo_matches_golden_json_and_schema(in_repo: Path, capsys: pytest.CaptureFixture[str]) -> None:
     code, report = run_json(["screens_demo"], capsys)
     jsonschema.validate(report, _schema())

@@ -257,6 +257,7 @@ def test_ios_device_line_gives_scale_and_ppi_with_their_sources(tmp_path: Path,
     assert "scale 3 (command line)" in line and "460 ppi (sidecar device.txt)" in line
 
 
+@pytest.mark.document
 def test_ios_record_keeps_points_per_inch_and_the_scale_source(tmp_path: Path,
                                                                capsys: pytest.CaptureFixture[str]) -> None:
     # 460 pixels per inch at 3 pixels per point is 460 / 3 points per inch (arithmetic).

@@ -46,8 +46,9 @@ def test_a_miss_chart_per_profile_with_every_target_and_the_rule_minimums(demo: 
     for s in report["screens"]:
         art = _article(doc, s)
         charts = art.xpath(".//div[@class='charts']//svg")
-        scored = [t for t in s["targets"] if t["size_mm"] and t["status"] != "unchecked"
-                  and any(d["miss_probability"] is not None for d in t["difficulty"])]
+        # The JSON report gives mm through the device's ppi (report schema v2) and misses per profile.
+        scored = [t for t in s["targets"] if s["device"]["xdpi"] and t["status"] != "unchecked"
+                  and any(m is not None for m in t["miss_probability"])]
         if not scored:
             assert not charts  # no ppi, no miss: no chart pretending otherwise
             continue
@@ -74,6 +75,7 @@ def test_a_miss_chart_per_profile_with_every_target_and_the_rule_minimums(demo: 
 
 def test_badges_say_the_severity(demo: tuple) -> None:
     doc, report, _ = demo
+    severity = {r["id"]: r["severity"] for rs in report["rulesets"] for r in rs["rules"]}  # a finding's is its rule's
     for s in report["screens"]:
         art = _article(doc, s)
         rows = {int(re.match(r"#(\d+)", r.xpath("string(./th)").strip()).group(1)): r
@@ -83,9 +85,9 @@ def test_badges_say_the_severity(demo: tuple) -> None:
                 continue
             row = rows[t["number"]]
             words = [b.text for b in row.xpath(".//ul[@class='findings']//span[contains(@class, 'badge')]")]
-            assert words == [f["severity"] for f in t["findings"]]
+            assert words == [severity[f["rule"]] for f in t["findings"]]
             if t["status"] == "fail":
-                worst = max((f["severity"] for f in t["findings"] if not f["waiver"]),
+                worst = max((severity[f["rule"]] for f in t["findings"] if "waiver" not in f),
                             key=["note", "warning", "error"].index)
                 assert row.xpath("string(./th//span[contains(@class, 's-fail')])") == f"fail ({worst})"
 
@@ -99,10 +101,11 @@ def test_misses_come_with_their_caveat_and_relative_to_the_typical_adult(demo: t
     row = next(r for r in art.xpath(".//tr[contains(@class, 'target')]")
                if r.xpath("string(./th)").strip().startswith(f"#{t['number']} "))
     text = " ".join(row.xpath("string(./td[2])").split())
-    base = next(d["miss_probability"] for d in t["difficulty"] if d["profile"] == "typical-adult")
-    for d in t["difficulty"]:
-        ratio = "" if d["profile"] == "typical-adult" else f" ({d['miss_probability'] / base:.1f}x)"
-        assert f"{d['profile']} {d['miss_probability']:.0%}{ratio}" in text
+    miss = dict(zip((p["id"] for p in report["profiles"]), t["miss_probability"]))  # in the profiles' order
+    base = miss["typical-adult"]
+    for profile, m in miss.items():
+        ratio = "" if profile == "typical-adult" else f" ({m / base:.1f}x)"
+        assert f"{profile} {m:.0%}{ratio}" in text
 
 
 def test_markdown_names_the_profile_of_its_miss_column(demo: tuple) -> None:

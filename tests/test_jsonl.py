@@ -26,6 +26,7 @@ def _schemas() -> tuple[dict, Registry]:
     return lines, registry
 
 
+@pytest.mark.document
 def test_json_lines_match_the_json_report_and_their_schema(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     assert main(["check", str(DEMO), "-f", "jsonl", "-o", str(tmp_path / "r.jsonl"), "--quiet"]) == 1
     assert main(["check", str(DEMO), "-f", "json", "-o", str(tmp_path / "r.json"), "--quiet"]) == 1
@@ -45,6 +46,7 @@ def test_json_lines_match_the_json_report_and_their_schema(tmp_path: Path, capsy
         validator.validate(value)
 
 
+@pytest.mark.document
 def test_json_lines_stream_even_when_nothing_was_read(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     (tmp_path / "empty").mkdir()
     assert main(["check", str(tmp_path / "empty"), "-f", "jsonl"]) == 2

@@ -50,6 +50,7 @@ from tapgauge.readers.ios import is_ios_root, read_ios
 from tapgauge.readers.pagesource import json_kind, load_json, server_error, tree_from_json
 from tapgauge.readers.xmlsafe import Document, parse_documents, status_notice
 from tapgauge.renames import current, notice
+from tapgauge.report.document import screen_text
 from tapgauge.report.records import COMPARED, Checked, Report, open_at, screen_record, screen_totals
 from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
 from tapgauge.textfile import MAX_BYTES
@@ -148,8 +149,9 @@ class ScreenCheck:
     fail_level: str  # "error", "warning" or "note"
     targets: tuple[TargetCheck, ...]
     notices: tuple[str, ...]
-    json_text: str = field(repr=False)  # the record as indented JSON
+    json_text: str = field(repr=False)  # the screen's entry in the JSON report (compact JSON)
     _context: _Context = field(repr=False, compare=False)
+    _full: str = field(repr=False, compare=False, default="")  # the whole record (with sentences), for tables
 
     @property
     def failing(self) -> tuple[TargetCheck, ...]:
@@ -180,26 +182,30 @@ class ScreenCheck:
         return orjson.loads(self.json_text)  # type: ignore[no-any-return]
 
     def to_json(self) -> str:
-        """The screen's record as indented JSON, as the CLI's JSON report holds it."""
+        """The screen's record as compact JSON, as the CLI's JSON report holds it."""
         return self.json_text
+
+    @property
+    def _whole(self) -> dict[str, Any]:
+        return orjson.loads(self._full)  # type: ignore[no-any-return]
 
     def report_json(self) -> str:
         """A whole JSON report holding this one screen, as `tapgauge check -f json` writes it."""
         from tapgauge.report.json_writer import write_json
 
         buf = io.StringIO()
-        write_json(self._report(self.record), buf)
+        write_json(self._report(self._whole), buf)
         return buf.getvalue()
 
     def table(self, width: int = 80, color: bool = False) -> str:
         """The terminal findings table for this screen, as `tapgauge check` prints it."""
-        return self._table(self.record, width, color, None)
+        return self._table(self._whole, width, color, None)
 
     def failure_table(self, width: int = 80) -> str:
         """The findings table of what fails: failing targets and their open findings at or above the
         fail level only. The totals and the verdict still count the whole screen."""
         level = Severity.parse(self.fail_level)
-        whole = self.record
+        whole = self._whole
         # Every target stays (the per-screen counts and reasons need them); only open findings at the level show.
         kept = [{**t, "findings": open_at(t, level)} for t in whole["targets"]]
         return self._table({**whole, "targets": kept}, width, False, self.fail_level, screen_totals(whole))
@@ -259,7 +265,7 @@ def _screen_check(record: dict[str, Any], level: Severity, context: _Context) ->
     return ScreenCheck(
         path=record["path"], name=record["name"], platform=record["platform"], unit=record["device"]["unit"],
         fail_level=level.label, targets=tuple(_target(t, level) for t in record["targets"]),
-        notices=tuple(record["notices"]), json_text=dumps(record), _context=context,
+        notices=tuple(record["notices"]), json_text=screen_text(record), _context=context, _full=dumps(record),
     )
 
 

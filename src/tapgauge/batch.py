@@ -13,7 +13,7 @@ import sys
 from collections import Counter
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import TextIO
 
@@ -146,8 +146,11 @@ class Run:
     level: Severity
     jobs: int
 
-    def report(self, paths: list[Path], tick: Callable[[int, int], None] | None) -> Report:
-        items = iter_results(paths, self.settings, self.jobs, tick, work=record_one)
+    def report(self, paths: list[Path], tick: Callable[[int, int], None] | None, document_only: bool = False) -> Report:
+        """The run's report; with `document_only` its screens are the JSON report's text and nothing else
+        (for the JSON writers when no overlay is drawn), made in the workers."""
+        settings = replace(self.settings, document_only=True) if document_only else self.settings
+        items = iter_results(paths, settings, self.jobs, tick, work=record_one)
         return Report(items, list(self.settings.rulesets), self.level, list(self.settings.scoring.profiles),
                       self.settings.waivers, on_error=print_input_error)
 

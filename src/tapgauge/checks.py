@@ -82,9 +82,11 @@ def check_min_size(m: MeasuredScreen, rule: Rule) -> KindResult:
         if m.covers[pos]:
             names = ", ".join(_who(m, o) for o in m.covers[pos][:3])
             message += f"; {_fmt(measured[pos])} {unit} left beside {names} drawn over it"
+        other = None
         if spacing:
             message += f"; its {need} circle intersects {_who(m, conflict[pos])}"
-        findings.append((pos, Finding(rule.id, rule.severity, measured[pos], size, unit, message)))
+            other = m.screen.targets[m.checked[conflict[pos]]].number
+        findings.append((pos, Finding(rule.id, rule.severity, measured[pos], size, unit, message, other=other)))
     return KindResult(tuple(findings), tuple(notes))
 
 
@@ -129,7 +131,8 @@ def check_min_gap(m: MeasuredScreen, rule: Rule) -> KindResult:
             where = f"overlaps {labels[other]}"
         else:
             where = f"touches {labels[other]}"
-        findings.append((pos, Finding(rule.id, rule.severity, measured[pos], gap, unit, where + need)))
+        findings.append((pos, Finding(rule.id, rule.severity, measured[pos], gap, unit, where + need,
+                                      other=m.screen.targets[m.checked[other]].number)))
     return KindResult(tuple(findings))
 
 

@@ -165,7 +165,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
         return run
     overlay_failed: list[str] = []
     with interruptible(), progress() as tick:
-        report = run.report(paths, tick)
+        report = run.report(paths, tick, document_only=fmt in ("json", "jsonl") and overlay is None)
         if overlay is not None:
             report.observe(overlay_observer(report, overlay, overlay_failed))
         if fmt == "table":

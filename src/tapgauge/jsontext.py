@@ -25,10 +25,6 @@ def dumps(obj: Any) -> str:
         return json.dumps(obj, indent=2, ensure_ascii=False)
 
 
-class Raw(str):
-    """Text that is already indented JSON: written as it is, not dumped again."""
-
-
 _MARK = "\x00tapgauge: streamed list\x00"
 
 
@@ -53,7 +49,7 @@ def write_streamed(out: TextIO, document: Callable[[Any, bool], dict[str, Any]],
     opening, closing = "{}" if mapping else "[]"
     for item in items:
         value = item[1] if mapping else item
-        text = value if isinstance(value, Raw) else dumps(value)
+        text = dumps(value)
         if mapping:
             text = dumps(str(item[0])) + ": " + text
         out.write((opening if n == 0 else ",") + pad + text.replace("\n", pad))
@@ -61,3 +57,21 @@ def write_streamed(out: TextIO, document: Callable[[Any, bool], dict[str, Any]],
     out.write(opening + closing if n == 0 else pad[:-2] + closing)
     last = dumps(document(_MARK, True))
     out.write(last[last.index(mark) + len(mark):] + "\n")
+
+
+def write_lines_streamed(out: TextIO, document: Callable[[Any, bool], dict[str, Any]], items: Iterable[str]) -> None:
+    """Write `document` as compact JSON with one list in it written item by item, one item a line.
+
+    `document` is called as for `write_streamed`; `items` are compact JSON texts. The text is
+    one JSON document (RFC 8259) whose list items each sit on a line of their own, so a large
+    report can be read with `grep` or `head` as well as with a JSON parser.
+    """
+    mark = orjson.dumps(_MARK).decode("utf-8")
+    first = orjson.dumps(document(_MARK, False)).decode("utf-8")
+    out.write(first[:first.index(mark)] + "[")
+    n = 0
+    for text in items:
+        out.write(("\n" if n == 0 else ",\n") + text)
+        n += 1
+    last = orjson.dumps(document(_MARK, True)).decode("utf-8")
+    out.write(("\n]" if n else "]") + last[last.index(mark) + len(mark):] + "\n")

@@ -199,6 +199,7 @@ class Finding(NamedTuple):
     unit: str
     message: str
     waiver: tuple[str, str, str | None] | None = None  # (reason, author, expires) when waived
+    other: int | None = None  # number of the target it is measured against (gap: the nearest; spacing: the one hit)
 
 
 class Approach(NamedTuple):

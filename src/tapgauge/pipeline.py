@@ -41,6 +41,7 @@ class Settings:
     measure: MeasureOptions = MeasureOptions()
     scoring: Scoring = Scoring()
     waivers: Waivers = Waivers()
+    document_only: bool = False  # hand back only each screen's JSON report text: all the JSON writers need
 
 
 @dataclass(frozen=True)
@@ -119,7 +120,7 @@ def record_one(path: Path, settings: Settings) -> list[Checked | InputError]:
         done = []
         for sr in check_file(path, settings):
             waived, counts = waive_screen(sr, settings.waivers)
-            done.append(Checked.of(screen_record(waived), counts))
+            done.append(Checked.of(screen_record(waived), counts, settings.document_only))
         return done
 
     return _guarded(path, work)

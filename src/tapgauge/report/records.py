@@ -18,7 +18,7 @@ import orjson
 
 from tapgauge import __version__
 from tapgauge.identity import target_keys
-from tapgauge.jsontext import Raw, dumps
+from tapgauge.jsontext import dumps
 from tapgauge.model import (
     SEVERITY_BY_LABEL,
     STATUSES,
@@ -30,6 +30,7 @@ from tapgauge.model import (
     TargetResult,
 )
 from tapgauge.profiles import Profile
+from tapgauge.report.document import screen_text
 from tapgauge.report.verdict import DISCLAIMER
 from tapgauge.waivers import Waivers, outcomes, waiver_records
 
@@ -77,7 +78,7 @@ _LABEL = {s: s.label for s in Severity}  # the enum's property is slow in a per-
 
 def _finding_record(f: Finding) -> dict[str, Any]:
     return {"rule": f.rule_id, "severity": _LABEL[f.severity], "measured": f.measured, "required": f.required,
-            "unit": f.unit, "message": f.message,
+            "unit": f.unit, "message": f.message, "other": f.other,
             "waiver": None if f.waiver is None else {"reason": f.waiver[0], "author": f.waiver[1], "expires": f.waiver[2]}}
 
 
@@ -203,39 +204,56 @@ class Checked:
     """What the pipeline hands on per screen: its record, its totals, and how many findings
     each waiver matched.
 
-    Between processes it travels as indented JSON text, not as nested dicts: text crosses
-    far more cheaply, and the JSON writer writes it as it is. Each form is made from the
-    other only when asked for, so a run that never needs one never pays for it.
+    Between processes it travels as JSON text, not as nested dicts: text crosses far more
+    cheaply, and the JSON writers write it as it is. `of(..., document_only=True)` makes the
+    report document's text at once and sends only that (the JSON and JSON Lines reports need
+    nothing else), so the worker, not the parent, pays for it. Each other form is made from
+    the record only when asked for, so a run that never needs one never pays for it.
     """
 
-    __slots__ = ("_record", "_text", "totals", "waived")
+    __slots__ = ("_doc", "_doc_only", "_record", "_text", "totals", "waived")
 
     def __init__(self, text: str | None, totals: Totals, waived: tuple[int, ...] = (),
-                 record: dict[str, Any] | None = None) -> None:
-        if text is None and record is None:
+                 record: dict[str, Any] | None = None, doc: str | None = None) -> None:
+        if text is None and record is None and doc is None:
             raise ValueError("a checked screen needs its record or its text")
         self._text = text
         self.totals = totals
         self.waived = waived
         self._record = record
+        self._doc = doc
+        self._doc_only = text is None and record is None
 
     @classmethod
-    def of(cls, record: dict[str, Any], waived: tuple[int, ...] = ()) -> Checked:
+    def of(cls, record: dict[str, Any], waived: tuple[int, ...] = (), document_only: bool = False) -> Checked:
+        if document_only:
+            return cls(None, screen_totals(record), waived, None, screen_text(record))
         return cls(None, screen_totals(record), waived, record)
 
     @property
     def text(self) -> str:
         if self._text is None:
-            self._text = dumps(self._record)
+            self._text = dumps(self.record)
         return self._text
 
     @property
     def record(self) -> dict[str, Any]:
         if self._record is None:
+            if self._doc_only:
+                raise RuntimeError("this screen was handed over as its report document only")
             self._record = orjson.loads(self.text)
         return self._record
 
-    def __reduce__(self) -> tuple[type, tuple[str, Totals, tuple[int, ...]]]:
+    @property
+    def document(self) -> str:
+        """The screen's entry in the JSON report, as compact JSON text."""
+        if self._doc is None:
+            self._doc = screen_text(self.record)
+        return self._doc
+
+    def __reduce__(self) -> tuple[type, tuple[Any, ...]]:
+        if self._doc_only:
+            return (Checked, (None, self.totals, self.waived, None, self._doc))
         return (Checked, (self.text, self.totals, self.waived))  # the dict stays behind
 
 
@@ -278,9 +296,9 @@ class Report:
         return (c.record for c in self._checked())
 
     @property
-    def screen_texts(self) -> Iterator[Raw]:
-        """Each screen's record as indented JSON text, for writers that can use it as it is."""
-        return (Raw(c.text) for c in self._checked())
+    def screen_documents(self) -> Iterator[str]:
+        """Each screen's entry in the JSON report, as compact JSON text (report/document.py)."""
+        return (c.document for c in self._checked())
 
     def _checked(self) -> Iterator[Checked]:
         if self._started:
@@ -385,10 +403,6 @@ class _Spooled(Report):
     @property
     def screens(self) -> Iterator[dict[str, Any]]:
         return (orjson.loads(text) for text in self._read())
-
-    @property
-    def screen_texts(self) -> Iterator[Raw]:
-        return (Raw(text.decode("utf-8")) for text in self._read())
 
     def _read(self) -> Iterator[bytes]:
         with self._spool.open("rb") as fh:
