@@ -3,6 +3,7 @@
 Usage:
   python bench/run_bench.py targets [--sizes 100 200 1000 10000] [--screens 20] [--repeat 3] [--filler 0] [--tall] [--modern]
   python bench/run_bench.py screens [--counts 100 1000 10000 100000] [--targets 50] [--jobs 2] [--work DIR]
+  python bench/run_bench.py batch [--screens 1000] [--targets 100] [--filler 1] [--repeat 5] [--format json]
 
 targets: one process, one core. For each size a corpus is generated, then the floor
   (lxml parsing the same files and nothing else) and tapgauge (the whole pipeline and
@@ -17,6 +18,11 @@ screens: whole processes, as a pipeline runs them. For each count, the floor (lx
   of the whole process tree (the parent plus its workers: proportional set size,
   so pages a forked worker shares with its parent count once; sampled from /proc).
 
+batch: the speed goal's own measure. One corpus (by default 1,000 dumps of 200 nodes, 100 of
+  them targets), then, alternating --repeat times: the floor, one whole process that parses every
+  file with lxml, and `tapgauge check DIR -f json -o FILE` with its default jobs; medians, their
+  ratio, and the report's bytes per byte of dumps.
+
 Prints Markdown tables. No timing is asserted anywhere; speed is a ratio to the floor.
 """
 
@@ -26,6 +32,7 @@ import argparse
 import io
 import math
 import os
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -116,6 +123,9 @@ def _floor_worker(files: list[str]) -> int:
 
 
 def floor_processes(files: list[Path], jobs: int) -> None:
+    if jobs == 1:
+        _floor_worker([str(f) for f in files])
+        return
     chunks = [[str(f) for f in files[k::jobs]] for k in range(jobs)]
     with Pool(jobs) as pool:
         pool.map(_floor_worker, chunks)
@@ -193,6 +203,29 @@ def bench_screens(counts: list[int], targets: int, jobs: int, work: Path | None)
             subprocess.run(["rm", "-rf", str(folder)], check=True)
 
 
+def bench_batch(screens: int, targets: int, filler: int, repeat: int, fmt: str, work: Path | None) -> None:
+    with tempfile.TemporaryDirectory(dir=work) as tmp:
+        folder = Path(tmp) / "corpus"
+        files = make_corpus(folder, screens, targets, filler)
+        dumps = sum(f.stat().st_size for f in files)
+        out = Path(tmp) / f"report.{fmt}"
+        floor_cmd = [sys.executable, __file__, "floor", str(folder), "--jobs", "1"]
+        tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", fmt, "-o", str(out)]
+        floor, tap = [], []
+        for _ in range(repeat):  # alternate, so both see the same machine
+            floor.append(run_measured(floor_cmd)[0])
+            tap.append(run_measured(tap_cmd)[0])
+        size = out.stat().st_size
+    f, t = statistics.median(floor), statistics.median(tap)
+    print(f"Batch: {screens:,} dumps ({dumps / 1e6:.1f} MB, {targets} targets and {targets * filler} other nodes "
+          f"each); tapgauge with its default jobs ({os.cpu_count()} cores), -f {fmt} to a file; "
+          f"medians of {repeat} alternating runs\n")
+    print("| floor: one process parsing with lxml | tapgauge | ratio to floor | report | report bytes per dump byte |")
+    print("|---:|---:|---:|---:|---:|")
+    print(f"| {f:.2f} s | {t:.2f} s | {t / f:.2f}x | {size / 1e6:.1f} MB | {size / dumps:.2f} |")
+    print(f"\n(all runs, s: floor {', '.join(f'{v:.2f}' for v in floor)}; tapgauge {', '.join(f'{v:.2f}' for v in tap)})")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
     sub = ap.add_subparsers(dest="mode", required=True)
@@ -208,6 +241,13 @@ def main() -> None:
     s.add_argument("--targets", type=int, default=50)
     s.add_argument("--jobs", type=int, default=2)
     s.add_argument("--work", type=Path, default=None, help="folder for the corpora (needs ~2 GB per 100,000 screens)")
+    b = sub.add_parser("batch")
+    b.add_argument("--screens", type=int, default=1000)
+    b.add_argument("--targets", type=int, default=100)
+    b.add_argument("--filler", type=int, default=1)
+    b.add_argument("--repeat", type=int, default=5)
+    b.add_argument("--format", default="json")
+    b.add_argument("--work", type=Path, default=None)
     fl = sub.add_parser("floor")  # used by `screens`: the floor as a whole process
     fl.add_argument("folder", type=Path)
     fl.add_argument("--jobs", type=int, default=2)
@@ -216,6 +256,8 @@ def main() -> None:
         bench_targets(a.sizes, a.screens, a.repeat, a.filler, a.tall, a.modern)
     elif a.mode == "screens":
         bench_screens(a.counts, a.targets, a.jobs, a.work)
+    elif a.mode == "batch":
+        bench_batch(a.screens, a.targets, a.filler, a.repeat, a.format, a.work)
     else:
         floor_processes(discover([a.folder])[0], a.jobs)
 

@@ -54,34 +54,30 @@ class _Need:
 
 def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet]) -> list[_Need]:
     """Per failing target whose shortfall is only size (no target drawn over it), the square to reach."""
-    rules = {r.id: r for rs in rulesets for r in rs.rules}
-    position = {k: pos for pos, k in enumerate(m.checked)}
-    k_of = {id(t.target): k for k, t in enumerate(sr.targets)}
-    out = []
     d = m.device
+    # Each size rule's square in coordinates, across and down, worked out once for the screen.
+    square: dict[str, tuple[float, float]] = {}
+    for rs in rulesets:
+        for r in rs.rules:
+            if r.kind != "min-size":
+                continue
+            size = float(r.param("size"))
+            if r.unit != "mm":
+                square[r.id] = (size * d.coords_per_unit, size * d.coords_per_unit)
+            elif d.xdpi is not None and d.ydpi is not None:
+                square[r.id] = (size / MM_PER_INCH * d.xdpi, size / MM_PER_INCH * d.ydpi)
+    position = {k: pos for pos, k in enumerate(m.checked)}
+    out = []
     hits = _overlap_positions(m)
-    for tr in sr.targets:
+    for k, tr in enumerate(sr.targets):
         if tr.status != "fail":
             continue
-        k = k_of[id(tr.target)]
         pos = position[k]
         if m.covers[pos] or m.maybe_covers and m.maybe_covers[pos]:
             continue  # a target drawn over it is the trouble: growth does not help
-        sized = [rules[f.rule_id] for f in tr.findings if not f.waiver and f.rule_id in rules
-                 and rules[f.rule_id].kind == "min-size"]
-        if not sized:
-            continue
-        sides = []
-        for r in sized:
-            size = float(r.param("size"))
-            if r.unit == "mm":
-                if d.xdpi is None or d.ydpi is None:
-                    continue
-                sides.append((size / MM_PER_INCH * d.xdpi, size / MM_PER_INCH * d.ydpi))
-            else:
-                sides.append((size * d.coords_per_unit, size * d.coords_per_unit))
-        if sides:
-            out.append(_Need(pos, tuple(r.id for r in sized), (max(s[0] for s in sides), max(s[1] for s in sides)),
+        sized = [f.rule_id for f in tr.findings if not f.waiver and f.rule_id in square]
+        if sized:
+            out.append(_Need(pos, tuple(sized), (max(square[r][0] for r in sized), max(square[r][1] for r in sized)),
                              _overlapping(m, pos, hits)))
     return out
 
@@ -114,39 +110,25 @@ def _overlap_positions(m: MeasuredScreen) -> dict[int, list[int]]:
     return out
 
 
-def _container(t: Target, m: MeasuredScreen) -> tuple[np.ndarray, list[str]]:
+def _container(t: Target, m: MeasuredScreen) -> tuple[list[float], list[str]]:
     """Where a target's touch area may reach, and what bounds each side: the screen, its window and its
     scrolling ancestors, kept one coordinate inside any edge the box does not already touch (a target
     flush with a scroller's edge reads as cut off)."""
     s = m.screen
-    box = np.array(t.bounds, dtype=float)
-    lim = np.array([0.0, 0.0, float(s.width), float(s.height)])
+    bl, bt, br, bb = t.bounds
+    lim = [0.0, 0.0, float(s.width), float(s.height)]
     names = ["the screen's edge"] * 4
     edges = []
     if 0 <= t.window < len(s.windows):
-        edges.append((np.array(s.windows[t.window].bounds, dtype=float), "its window's edge"))
-    edges += [(np.array(b, dtype=float), "its scrolling container's edge") for b, _ in t.scroll_ancestors]
-    for e, name in edges:
-        inner = e + np.array([1, 1, -1, -1])
-        inner = np.array([min(inner[0], box[0]), min(inner[1], box[1]), max(inner[2], box[2]), max(inner[3], box[3])])
+        edges.append((s.windows[t.window].bounds, "its window's edge"))
+    edges += [(b, "its scrolling container's edge") for b, _ in t.scroll_ancestors]
+    for (el, et, er, eb), name in edges:
+        inner = (min(el + 1, bl), min(et + 1, bt), max(er - 1, br), max(eb - 1, bb))
         for k in range(4):
             tighter = inner[k] > lim[k] if k < 2 else inner[k] < lim[k]
             if tighter:
-                lim[k], names[k] = inner[k], name
+                lim[k], names[k] = float(inner[k]), name
     return lim, names
-
-
-def _other_windows(screen: Screen, t: Target, box: np.ndarray) -> list[np.ndarray]:
-    """Windows other than the target's that neither hold it nor overlap it: limits to its growth."""
-    out = []
-    for w, window in enumerate(screen.windows):
-        wb = np.array(window.bounds, dtype=float)
-        if w == t.window:
-            continue
-        apart = wb[0] >= box[2] or wb[2] <= box[0] or wb[1] >= box[3] or wb[3] <= box[1]
-        if apart:
-            out.append(wb)
-    return out
 
 
 def _related(a: Target, b: Target) -> bool:
@@ -229,27 +211,36 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, all_t: list[Target], obs: np
     per_side = np.stack([np.where(use & (side == k), free, np.inf) for k in range(4)], axis=1)
     nearest = per_side.argmin(axis=2)
     nearest_room = np.take_along_axis(per_side, nearest[..., None], axis=2)[..., 0]
-    for i, pos in enumerate(rows):
+    # Per row in plain Python numbers: numpy's per-call cost outweighs four-element arithmetic.
+    rooms, whos, held = nearest_room.tolist(), nearest.tolist(), holds.any(axis=1).tolist()
+    others = screen.windows if len(screen.windows) > 1 else ()
+    for i, pos in enumerate(rows.tolist()):
         t, here = all_t[pos], boxes[pos]
+        hl, ht, hr, hb = here.tolist()
         lim, limiter = _container(t, m)
-        room = np.array([here[0] - lim[0], here[1] - lim[1], lim[2] - here[2], lim[3] - here[3]])
-        for q in np.flatnonzero(holds[i]):  # a row round this button: it grows within the row
-            within = [here[0] - obs[q, 0], here[1] - obs[q, 1], obs[q, 2] - here[2], obs[q, 3] - here[3]]
-            for k in range(4):
-                if within[k] < room[k]:
-                    room[k], limiter[k] = within[k], f"#{numbers[q]} (which holds it)"
-        for wb in _other_windows(screen, t, here):  # the keyboard, a system bar: a touch area stops at them
-            wgx = max(wb[0] - here[2], here[0] - wb[2])
-            wgy = max(wb[1] - here[3], here[1] - wb[3])
+        room = [hl - lim[0], ht - lim[1], lim[2] - hr, lim[3] - hb]
+        if held[i]:
+            for q in np.flatnonzero(holds[i]).tolist():  # a row round this button: it grows within the row
+                ql, qt, qr, qb = obs[q].tolist()
+                within = [hl - ql, ht - qt, qr - hr, qb - hb]
+                for k in range(4):
+                    if within[k] < room[k]:
+                        room[k], limiter[k] = within[k], f"#{numbers[q]} (which holds it)"
+        for w, window in enumerate(others):  # the keyboard, a system bar: a touch area stops at them
+            wl, wt, wr, wb = window.bounds
+            if w == t.window or not (wl >= hr or wr <= hl or wt >= hb or wb <= ht):
+                continue  # its own window, or one that holds or overlaps it
+            wgx = max(wl - hr, hl - wr)
+            wgy = max(wt - hb, ht - wb)
             ax = 0 if wgy < 0 or (wgx >= 0 and wgx >= wgy) else 1
-            k = (0 if wb[0] < here[0] else 2) if ax == 0 else (1 if wb[1] < here[1] else 3)
+            k = (0 if wl < hl else 2) if ax == 0 else (1 if wt < ht else 3)
             gap = max(0.0, (wgx if ax == 0 else wgy) - 1.0)  # a coordinate clear of it, as of a window's edge
             if gap < room[k]:
                 room[k], limiter[k] = gap, "another window's edge"
         for k in range(4):
-            if nearest_room[i, k] < room[k]:
-                room[k] = max(0.0, float(nearest_room[i, k]))
-                q = nearest[i, k]
+            if rooms[i][k] < room[k]:
+                room[k] = max(0.0, rooms[i][k])
+                q = whos[i][k]
                 limiter[k] = f"#{numbers[q]}" + ("*" if is_growing[q] else "")  # *: grows too, the room is shared
         need = demand[pos]
         across = _spread(float(need[0]), float(room[0]), float(room[2]))

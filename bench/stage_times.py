@@ -1,0 +1,96 @@
+"""Where a screen's time goes: each pipeline stage timed on its own, as a ratio to parsing the file.
+
+Usage:
+  python bench/stage_times.py DIR [--repeat 5]
+
+DIR holds dumps (make one with bench/make_corpus.py). One process, one core, the default rule
+sets and profiles, as `tapgauge check DIR -f json` runs each file in a worker. Each stage is run
+over every file in turn, on the previous stage's results (kept in memory), best of --repeat.
+Prints a Markdown table: milliseconds per screen and the ratio to the lxml parse of the same file.
+No timing is asserted anywhere.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import orjson
+from lxml import etree
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from run_bench import settings  # noqa: E402
+
+from tapgauge.checks import check_screen  # noqa: E402
+from tapgauge.device import resolve_device  # noqa: E402
+from tapgauge.measure import measure  # noqa: E402
+from tapgauge.pipeline import Settings, check_one_screen  # noqa: E402
+from tapgauge.readers import discover, read_screens  # noqa: E402
+from tapgauge.report.document import screen_text  # noqa: E402
+from tapgauge.report.records import Checked, screen_record  # noqa: E402
+from tapgauge.waivers import waive_screen  # noqa: E402
+
+
+def best(fn: Callable[[], Any], repeat: int) -> tuple[float, Any]:
+    times, out = [], None
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t0)
+    return min(times), out
+
+
+def stages(files: list[Path], st: Settings, repeat: int) -> list[tuple[str, float]]:
+    rulesets = list(st.rulesets)
+    rows: list[tuple[str, float]] = []
+
+    def stage(name: str, fn: Callable[[], Any]) -> Any:
+        t, out = best(fn, repeat)
+        rows.append((name, t / len(files)))
+        return out
+
+    stage("parse (lxml, the floor)", lambda: [etree.fromstring(f.read_bytes()) for f in files])
+    screens = stage("read (parse + targets)", lambda: [s for f in files for s in read_screens(f, st.read)])
+    devices = stage("device", lambda: [resolve_device(s, st.flags, *s.hints, st.config.for_path(s.path))
+                                       for s in screens])
+    measured = stage("measure", lambda: [measure(s, d, st.measure) for s, d in zip(screens, devices)])
+    checked = stage("check", lambda: [check_screen(m, rulesets, False) for m in measured])
+    scored = stage("score", lambda: [st.scoring.apply(c) for c in checked])
+    whole = stage("check + score + plan", lambda: [check_one_screen(s, d, st) for s, d in zip(screens, devices)])
+    rows[-1] = ("plan (with its re-check)", rows[-1][1] - sum(t for n, t in rows if n in ("measure", "check", "score")))
+    waived = stage("waive", lambda: [waive_screen(r, st.waivers) for r in whole])
+    records = stage("record", lambda: [screen_record(w) for w, _ in waived])
+    stage("totals", lambda: [Checked.of(r) for r in records])
+    texts = stage("document (compact JSON text)", lambda: [screen_text(r) for r in records])
+    stage("to the parent (pickle both ways)", lambda: [orjson.loads(orjson.dumps(t)) for t in texts])
+    del scored
+    return rows
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("folder", type=Path)
+    ap.add_argument("--repeat", type=int, default=5)
+    args = ap.parse_args()
+    files = discover([args.folder])[0]
+    rows = stages(files, settings(), args.repeat)
+    floor = rows[0][1]
+    print(f"Stages per screen ({len(files)} files in {args.folder}, one core, best of {args.repeat})\n")
+    print("| stage | ms/screen | ratio to parse |")
+    print("|---|---:|---:|")
+    total = 0.0
+    for name, t in rows:
+        if name.startswith("parse"):
+            print(f"| {name} | {t * 1e3:.2f} | 1.0x |")
+            continue
+        total += t
+        print(f"| {name} | {t * 1e3:.2f} | {t / floor:.1f}x |")
+    print(f"| **all stages** | {total * 1e3:.2f} | {total / floor:.1f}x |")
+
+
+if __name__ == "__main__":
+    main()
