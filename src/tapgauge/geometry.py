@@ -63,7 +63,9 @@ def candidate_pairs(boxes: FloatArray, reach: float) -> tuple[IntArray, IntArray
         i, j = np.triu_indices(n, 1)
         return _overlapping(grown, i, j)
     extent = np.maximum(grown[:, 2] - grown[:, 0], grown[:, 3] - grown[:, 1])
-    cell = max(float(np.median(extent)), 1e-6)
+    # The middle extent as the cell (any cell finds every pair; this one keeps cells few and short).
+    # np.partition, not np.median: the median costs ten times more here and imports numpy.ma at first use.
+    cell = max(float(np.partition(extent, n // 2)[n // 2]), 1e-6)
     g = np.floor(grown / cell).astype(np.int64)
     nx = g[:, 2] - g[:, 0] + 1
     ny = g[:, 3] - g[:, 1] + 1
