@@ -6,43 +6,22 @@ Exit codes: 0 nothing at or above the fail level; 1 findings at or above it;
 
 from __future__ import annotations
 
-import json
 import sys
 from pathlib import Path
-from typing import Annotated, Any, Optional
+from typing import TYPE_CHECKING, Annotated, Any, Optional
 
 import typer
 
 from tapgauge import __version__
-from tapgauge.batch import (
-    Discard,
-    Scope,
-    common_device,
-    emit_record,
-    interruptible,
-    make_scoring,
-    measure_options,
-    nothing_found,
-    overlay_observer,
-    prepare,
-    progress,
-    read_options,
-    say,
-    screen_namer,
-    table_or_json,
-    tell_verdict,
-    terminal_width,
-    write_report,
-)
-from tapgauge.config import load_config
-from tapgauge.model import InputError, Severity
-from tapgauge.pipeline import Settings
-from tapgauge.profiles import DEFAULT_PROFILES
-from tapgauge.readers.marked import DEFAULT_MARKER
-from tapgauge.report import TOTALS_FIRST, WRITERS, writer_for
-from tapgauge.report.output import atomic_text, write_atomic
-from tapgauge.report.records import EXIT_ERROR
-from tapgauge.rulesets import DEFAULT_RULESETS, builtin_rulesets, select_rulesets
+from tapgauge.report import WRITERS
+
+if TYPE_CHECKING:
+    from tapgauge.batch import Scope
+
+# Start-up: besides the standard library, this module imports only typer and the two names above.
+# Each command imports what it runs inside its body, so --help and --version load no numpy, readers
+# or checks, and `check` loads no other command's modules (measured with `python -X importtime`;
+# see bench/bench_startup.py).
 
 app = typer.Typer(
     add_completion=False,
@@ -54,10 +33,11 @@ app = typer.Typer(
 )
 
 
-# Options several commands share, declared once.
+# Options several commands share, declared once. The --rules default is rulesets.DEFAULT_RULESETS written
+# out (importing that module would load numpy for every --help), as --profiles writes out DEFAULT_PROFILES.
 RulesOpt = Annotated[Optional[str], typer.Option(
     "--rules", "-r", help="Comma-separated rule-set ids and/or paths to TOML rule files. "
-    f"Default: {','.join(DEFAULT_RULESETS)} (each applies to its own platform).")]
+    "Default: wcag-2.5.8,android-guidance,apple-hig (each applies to its own platform).")]
 DensityOpt = Annotated[Optional[str], typer.Option(
     help="Screen density in dpi, or a bucket name (mdpi, hdpi, xhdpi, xxhdpi, xxxhdpi), if no sidecar gives it.")]
 ScaleOpt = Annotated[Optional[str], typer.Option(
@@ -137,6 +117,8 @@ def check(
     quiet: QuietOpt = False,
 ) -> None:
     """Check screens and report every touch target that is too small or too close."""
+    from tapgauge.batch import Scope
+
     raise typer.Exit(_check(paths, rules, density, scale, ppi, classes, marker, overlay, fmt, output, fail_level, width,
                             profiles, param or [], start, width_model, difficulty, today, jobs,
                             Scope(all_windows, app_package, include_focusable), show, quiet))
@@ -147,6 +129,20 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
            fail_level: str | None, width: int | None, profiles: str | None, params: list[str], start: str,
            width_model: str, difficulty: bool, today: str | None, jobs: int | None = None,
            scope: Scope | None = None, show: str | None = None, quiet: bool = False) -> int:
+    from tapgauge.batch import (
+        interruptible,
+        overlay_observer,
+        prepare,
+        progress,
+        say,
+        tell_verdict,
+        terminal_width,
+        write_report,
+    )
+    from tapgauge.model import Severity
+    from tapgauge.report import TOTALS_FIRST, writer_for
+    from tapgauge.report.records import EXIT_ERROR
+
     try:
         writer = writer_for(fmt)
         if show is not None:
@@ -200,7 +196,20 @@ def baseline_cmd(
     include_focusable: FocusableOpt = None,
 ) -> None:
     """Record each target's identity, size, status and predicted difficulty, for the release gate."""
+    from tapgauge.batch import (
+        Discard,
+        Scope,
+        interruptible,
+        nothing_found,
+        prepare,
+        progress,
+        say,
+        screen_namer,
+    )
     from tapgauge.gate import check_overwrite, write_baseline
+    from tapgauge.model import InputError
+    from tapgauge.report.output import atomic_text
+    from tapgauge.report.records import EXIT_ERROR
 
     run = prepare(rules, density, scale, ppi, None, None, None, profiles, [], start, "approach", today, jobs,
                   Scope(all_windows, app_package, include_focusable))
@@ -264,9 +273,21 @@ def gate_cmd(
     import shlex
     from dataclasses import replace as _replace
 
+    from tapgauge.batch import (
+        Scope,
+        emit_record,
+        interruptible,
+        nothing_found,
+        prepare,
+        progress,
+        say,
+        screen_namer,
+    )
     from tapgauge.gate import check_baseline, check_level, gate, gate_record, waiver_snippets
+    from tapgauge.model import InputError
     from tapgauge.report.gate_report import GATE_WRITERS as writers
     from tapgauge.report.gate_report import gate_summary
+    from tapgauge.report.records import EXIT_ERROR
 
     try:
         if fmt not in writers:
@@ -336,7 +357,18 @@ def journey_cmd(
     output: RecordOutputOpt = None,
 ) -> None:
     """Predict the pointing time and misses of a task: the targets it touches, in order."""
+    from tapgauge.batch import (
+        common_device,
+        emit_record,
+        make_scoring,
+        read_options,
+        say,
+        table_or_json,
+    )
+    from tapgauge.config import load_config
     from tapgauge.journeys import parse_journey, run_journey
+    from tapgauge.model import InputError
+    from tapgauge.report.records import EXIT_ERROR
     from tapgauge.report.table import write_journey_table
 
     try:
@@ -355,6 +387,9 @@ def journey_cmd(
              context_settings={"allow_extra_args": True, "ignore_unknown_options": True})
 def renamed_flow_cmd() -> None:
     """Renamed to `tapgauge journey`; kept one version so old scripts fail with the new name."""
+    from tapgauge.batch import say
+    from tapgauge.report.records import EXIT_ERROR
+
     say("`tapgauge flow` is renamed to `tapgauge journey`; a .journey file has 'start', 'screen' and "
         "'touch' lines (see README)")
     raise typer.Exit(EXIT_ERROR)
@@ -375,8 +410,22 @@ def compare_cmd(
     output: RecordOutputOpt = None,
 ) -> None:
     """Rank two design alternatives per profile by predicted misses and time, and show which targets decide it."""
+    from tapgauge.batch import (
+        common_device,
+        emit_record,
+        make_scoring,
+        measure_options,
+        read_options,
+        say,
+        table_or_json,
+    )
     from tapgauge.compare import compare
+    from tapgauge.config import load_config
+    from tapgauge.model import InputError
+    from tapgauge.pipeline import Settings
+    from tapgauge.report.records import EXIT_ERROR
     from tapgauge.report.table import write_compare_table
+    from tapgauge.rulesets import DEFAULT_RULESETS, select_rulesets
 
     try:
         table_or_json(fmt)
@@ -403,8 +452,14 @@ def calibrate_cmd(
     fmt: Annotated[str, typer.Option("--format", "-f", help="text or json.")] = "text",
 ) -> None:
     """Fit a slope profile (Fitts's-law line and touch spread) from a study's trial log."""
+    import json
+
+    from tapgauge.batch import say
     from tapgauge.calibrate import calibrate, fit_record, profile_toml
+    from tapgauge.model import InputError
     from tapgauge.profiles import parse_profile
+    from tapgauge.report.output import write_atomic
+    from tapgauge.report.records import EXIT_ERROR
 
     try:
         if fmt not in ("text", "json"):
@@ -443,7 +498,13 @@ def calibrate_cmd(
 @app.command("config")
 def config_cmd() -> None:
     """Print the effective settings and where each came from (config file or built-in default)."""
-    from tapgauge.config import effective_settings
+    from tapgauge.batch import say
+    from tapgauge.config import effective_settings, load_config
+    from tapgauge.model import InputError
+    from tapgauge.profiles import DEFAULT_PROFILES
+    from tapgauge.readers.marked import DEFAULT_MARKER
+    from tapgauge.report.records import EXIT_ERROR
+    from tapgauge.rulesets import DEFAULT_RULESETS
 
     try:
         config = load_config(Path.cwd())
@@ -476,7 +537,9 @@ def capture_cmd(
     force: Annotated[bool, typer.Option("--force", help="Replace an existing bundle of that name.")] = False,
 ) -> None:
     """Save the current screen of an Android device (adb) or a WebDriver session as a bundle that check reads."""
+    from tapgauge.batch import say
     from tapgauge.capture import CaptureError, capture
+    from tapgauge.report.records import EXIT_ERROR
 
     if webdriver is not None and serial is not None:
         say("--webdriver and --serial cannot be used together: --serial picks an adb device, "
@@ -514,7 +577,9 @@ def list_rules(
     width: Annotated[Optional[int], typer.Option(help="Width in columns (default: the terminal's, or 80).")] = None,
 ) -> None:
     """List the built-in rule sets, their rules and published sources."""
+    from tapgauge.batch import terminal_width
     from tapgauge.report.table import _wrap as wrap  # wraps by display width, with a hanging indent
+    from tapgauge.rulesets import DEFAULT_RULESETS, builtin_rulesets
 
     cols = width or terminal_width()
     lines: list[str] = []
@@ -567,7 +632,7 @@ def main(argv: list[str] | None = None) -> int:
         command.main(args=argv if argv is not None else sys.argv[1:], prog_name="tapgauge")
     except SystemExit as exc:
         code = exc.code
-        return code if isinstance(code, int) else (0 if code is None else EXIT_ERROR)
+        return code if isinstance(code, int) else (0 if code is None else 2)  # 2: report.records.EXIT_ERROR
     return 0
 
 
