@@ -15,8 +15,12 @@ import base64
 import io
 import math
 import zlib
-from collections import Counter
+from collections import Counter, deque
+from collections.abc import Iterator
+from concurrent.futures import Future
+from dataclasses import dataclass
 from html import escape
+from itertools import chain
 from pathlib import Path
 from typing import Any, TextIO
 
@@ -183,7 +187,21 @@ def _data_uri(img: Any, fmt: str = "JPEG", quality: int = 72) -> str:
     return f"data:{mime};base64,{base64.b64encode(buf.getvalue()).decode('ascii')}"
 
 
-def _pictures(screen: dict[str, Any], report: Report) -> tuple[str, dict[int, str]]:
+@dataclass(frozen=True)
+class Head:
+    """What each screen's article needs of the report: small, so each drawing process gets it once."""
+
+    rulesets: list[dict[str, Any]]
+    profiles: list[dict[str, Any]]
+    rules: dict[str, dict[str, Any]]  # rule id -> its record
+    profile: str  # the first profile: the one the fixes' advice is worked out for
+
+    @classmethod
+    def of(cls, report: Report) -> Head:
+        return cls(report.rulesets, report.profiles, rule_index(report), first_profile(report))
+
+
+def _pictures(screen: dict[str, Any], report: Head) -> tuple[str, dict[int, str]]:
     """The scaled overlay as a data URI, and a crop per failing target (by number)."""
     from PIL import Image
 
@@ -239,7 +257,7 @@ def _miss_curve(side_mm: float, alpha: float, sigma_a: float) -> float:
     return 1.0 - float(hit_probability([side_mm], [side_mm], alpha, sigma_a)[0])  # type: ignore[arg-type]
 
 
-def _minimums_mm(screen: dict[str, Any], report: Report) -> list[tuple[str, float]]:
+def _minimums_mm(screen: dict[str, Any], report: Head) -> list[tuple[str, float]]:
     """The screen's size rules as a side in mm: (rule id, mm)."""
     d = screen["device"]
     out = []
@@ -255,7 +273,7 @@ def _minimums_mm(screen: dict[str, Any], report: Report) -> list[tuple[str, floa
     return sorted(out, key=lambda x: x[1])
 
 
-def _charts(screen: dict[str, Any], report: Report) -> str:
+def _charts(screen: dict[str, Any], report: Head) -> str:
     """Per profile, predicted miss against the target's smaller side in mm: each target a point marked by
     status, the model's curve for square targets, and the screen's size minimums as vertical lines."""
     if not screen["device"]["xdpi"]:
@@ -424,9 +442,8 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
     # One article per screen.
     h += ['<section id="screens" aria-labelledby="h-screens">', '<h2 id="h-screens">Screens</h2>']
     out.write("\n".join(h) + "\n")
-    rules, profile = rule_index(report), first_profile(report)
-    for k, scr in enumerate(report.screens):
-        out.write(_screen_html(k, scr, report, screen_rows(scr, rules, profile)) + "\n")
+    for article in _articles(report, Head.of(report)):
+        out.write(article + "\n")
     h = ["</section>"]
     # Sources.
     h += ['<section aria-labelledby="h-sources">', '<h2 id="h-sources">Rule sources</h2>', '<dl class="sources">']
@@ -498,7 +515,55 @@ def _target_row(t: dict[str, Any], unit: str, rows: dict[tuple[int, str], dict[s
             f"<td>{_misses(t)}</td></tr>")
 
 
-def _screen_html(k: int, scr: dict[str, Any], report: Report, rows: list[dict[str, str]]) -> str:
+def _articles(report: Report, head: Head) -> Iterator[str]:
+    """Each screen's article, in the report's order. With several screens and cores they are made in
+    worker processes, a few screens ahead: the pictures are most of an HTML report's work, and
+    each screen's are its own. Should a worker die (a crash in a picture library, or the kernel
+    out of memory), the screens not yet made are made here, one after another, as before."""
+    from concurrent.futures import ProcessPoolExecutor
+    from concurrent.futures.process import BrokenProcessPool
+
+    from tapgauge.pipeline import default_jobs
+
+    numbered: Iterator[tuple[int, dict[str, Any]]] = enumerate(report.screens)
+    jobs = min(default_jobs(), report.summary["screens"])
+    if jobs < 2:
+        yield from (_screen_html(k, scr, head) for k, scr in numbered)
+        return
+    pool = ProcessPoolExecutor(max_workers=jobs, initializer=_given, initargs=(head,))
+    pending: deque[tuple[tuple[int, dict[str, Any]], Future[str]]] = deque()
+    try:
+        while True:
+            while len(pending) < 4 * jobs and (item := next(numbered, None)) is not None:
+                pending.append((item, pool.submit(_drawn, *item)))
+            if not pending:
+                return
+            item, future = pending.popleft()
+            try:
+                article = future.result()
+            except BrokenProcessPool:
+                numbered = chain([item], [i for i, _ in pending], numbered)
+                pending.clear()
+                break
+            yield article
+    finally:  # done, or stopped early (a failed write): wait for no work nobody will read
+        pool.shutdown(wait=False, cancel_futures=True)
+    yield from (_screen_html(k, scr, head) for k, scr in numbered)
+
+
+_HEAD: list[Head] = []  # a drawing process's report head, set once as it starts
+
+
+def _given(head: Head) -> None:
+    _HEAD[:] = [head]
+
+
+def _drawn(k: int, scr: dict[str, Any]) -> str:
+    return _screen_html(k, scr, _HEAD[0])
+
+
+def _screen_html(k: int, scr: dict[str, Any], report: Head) -> str:
+    rows = screen_rows(scr, report.rules, report.profile)
     title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
     d = scr["device"]
     listed = [t for t in scr["targets"] if t["findings"]]
