@@ -258,6 +258,25 @@ def test_png_bytes_keeps_every_mark_colour_exact(monkeypatch: pytest.MonkeyPatch
         assert np.all(back[where] == colour), colour
 
 
+def test_png_bytes_keeps_a_wireframe_of_few_colours_pixel_for_pixel(monkeypatch: pytest.MonkeyPatch) -> None:
+    # Without its screenshot the overlay is flat colours and their anti-aliased edges: few enough for a
+    # palette (PNG spec, colour type 3: at most 256 entries), so every pixel comes back as drawn.
+    report, (screen,) = _records(monkeypatch, "android/plots.xml")
+    pic = draw_overlay(screen, report, None, max_width=720, text_scale=2.0)
+    drawn = pic.getcolors(256)
+    assert drawn is not None and len(drawn) > 64  # more than the quantized path's palette would keep
+    decoded = Image.open(io.BytesIO(png_bytes(pic)))
+    assert decoded.format == "PNG" and decoded.mode == "P"
+    assert np.array_equal(np.asarray(decoded.convert("RGB")), np.asarray(pic))
+    # One colour more than a palette holds: quantized again, the marks still exact.
+    rich = np.array(pic)
+    rich[0, :300] = [(k, 255 - k, 7) for k in range(300 - 44)] + [(1, 2, 3)] * 44
+    back = np.asarray(Image.open(io.BytesIO(png_bytes(Image.fromarray(rich)))).convert("RGB"))
+    assert len(np.unique(back.reshape(-1, 3), axis=0)) <= 64
+    fail = np.all(rich == MARKS["fail"].colour, axis=-1)
+    assert fail.any() and np.all(back[fail] == MARKS["fail"].colour)
+
+
 def test_partial_yellow_survives_where_a_plain_quantize_may_not(monkeypatch: pytest.MonkeyPatch) -> None:
     # plots.xml has a partial target: its yellow must come back exactly through png_bytes.
     report, (screen,) = _records(monkeypatch, "android/plots.xml")

@@ -23,7 +23,8 @@ marker strokes are greyed out first (`knock_back_markers`), so they cannot hide 
 
 Boxes go onto the screenshot only where its pixels can be told from the dump (see `align`);
 otherwise the overlay is a wireframe and says why, rather than stretching boxes to fit.
-`png_bytes` makes a small palette PNG of an overlay that keeps every mark colour exact.
+`png_bytes` makes a small palette PNG of an overlay that keeps every mark colour exact (and every
+pixel, when the picture has at most 256 colours).
 """
 
 from __future__ import annotations
@@ -33,7 +34,7 @@ import io
 import math
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, NamedTuple
+from typing import Any, NamedTuple, Protocol
 
 import numpy as np
 from PIL import Image, ImageDraw, ImageFont
@@ -41,7 +42,6 @@ from PIL import Image, ImageDraw, ImageFont
 from tapgauge.device import MM_PER_INCH
 from tapgauge.report.markers import knock_back_markers
 from tapgauge.report.output import write_atomic
-from tapgauge.report.records import Report
 from tapgauge.report.tags import Point, Rect, place_tags
 
 RGB = tuple[int, int, int]
@@ -82,6 +82,16 @@ CIRCLE = (86, 180, 233)  # Okabe-Ito sky blue
 MARK_COLOURS: tuple[RGB, ...] = tuple(dict.fromkeys(
     [m.colour for m in MARKS.values()] + [m.edge for m in MARKS.values() if m.edge]
     + [SQUARE, CIRCLE, INK, PAPER, WIREFRAME]))
+
+
+class RuleHead(Protocol):
+    """What an overlay needs of its report: the rule sets' records (a Report has them; so does the
+    small head the HTML report's drawing processes are given)."""
+
+    @property
+    def rulesets(self) -> list[dict[str, Any]]: ...
+
+
 DRAW_ORDER = ("unchecked", "pass", "exempt", "partial", "fail")  # the most telling on top
 TAG_ORDER = ("fail", "partial", "exempt", "pass", "unchecked")  # the most telling get the best spots
 
@@ -196,11 +206,11 @@ def _circle(draw: ImageDraw.ImageDraw, cx: float, cy: float, rx: float, ry: floa
         draw.arc([cx - rx, cy - ry, cx + rx, cy + ry], k, k + 12, fill=colour, width=width)
 
 
-def _size_rules(report: Report) -> set[str]:
+def _size_rules(report: RuleHead) -> set[str]:
     return {r["id"] for rs in report.rulesets for r in rs["rules"] if r["kind"] == "min-size"}
 
 
-def _spacing_rules(report: Report) -> dict[str, float]:
+def _spacing_rules(report: RuleHead) -> dict[str, float]:
     return {r["id"]: r["params"]["size"] for rs in report.rulesets for r in rs["rules"]
             if r["params"].get("spacing_exception")}
 
@@ -280,7 +290,7 @@ def _inside(bounds: list[float], pw: int, ph: int) -> bool:
     return l >= 0 and t >= 0 and r <= pw and b <= ph
 
 
-def draw_overlay(screen: dict[str, Any], report: Report, image: Image.Image | None,
+def draw_overlay(screen: dict[str, Any], report: RuleHead, image: Image.Image | None,
                  max_width: int | None = None, text_scale: float = 1.0) -> Image.Image:
     """The overlay of one screen record as a new picture (the screenshot is not changed)."""
     return render(screen, report, image, max_width, text_scale)[0]
@@ -343,7 +353,7 @@ def _leader(draw: ImageDraw.ImageDraw, line: tuple[Point, Point], sc: Scale) -> 
     draw.ellipse([b[0] - d, b[1] - d, b[0] + d, b[1] + d], fill=INK)
 
 
-def render(screen: dict[str, Any], report: Report, image: Image.Image | None,
+def render(screen: dict[str, Any], report: RuleHead, image: Image.Image | None,
            max_width: int | None = None, text_scale: float = 1.0) -> tuple[Image.Image, Alignment | None]:
     """The overlay of one screen record, and how it sits on the screenshot (None without one).
 
@@ -570,26 +580,47 @@ def _legend_swatch(draw: ImageDraw.ImageDraw, kind: str, box: Rect, sc: Scale) -
 
 
 def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
-    """A palette PNG of `img` in at most `colours` colours, every mark colour kept exact.
+    """A palette PNG of `img` that keeps every mark colour exact.
 
-    The picture's colours share the palette's places but the marks' (Pillow's fast octree, no
-    dithering); then every pixel that is exactly a mark's colour takes that mark's own entry,
-    so a mark can never drift to a neighbour's colour (a status must not read as another).
+    A picture of at most 256 colours (a wireframe, a flat screen: marks, text and their
+    anti-aliased edges) is kept exactly, every pixel its own colour. A richer one (a screenshot)
+    goes into at most `colours` colours: the picture's colours share the palette's places but the
+    marks' (Pillow's fast octree, no dithering); then every pixel that is exactly a mark's colour
+    takes that mark's own entry, so a mark can never drift to a neighbour's colour (a status must
+    not read as another).
     """
     rgb = img if img.mode == "RGB" else img.convert("RGB")
+    # Each pixel as one number, read straight from Pillow's 4-byte pixels (red in the low byte):
+    # a third of the work of packing three channel arrays.
+    packed = np.asarray(rgb.convert("RGBX")).view("<u4")[..., 0] & 0xFFFFFF
+    found = rgb.getcolors(256)
+    if found is not None:  # every colour gets its own entry: nothing to choose, nothing lost
+        exact = [c for _, c in found]
+        table = _colour_table()
+        table[[r | (g << 8) | (b << 16) for r, g, b in exact]] = np.arange(len(exact), dtype=np.uint8)
+        return _png(table[packed], [v for c in exact for v in c])
     marks = list(dict.fromkeys(MARK_COLOURS))
     rest = max(1, colours - len(marks))
     quantized = rgb.quantize(rest, method=Image.Quantize.FASTOCTREE, dither=Image.Dither.NONE)
     palette = (quantized.getpalette() or [])[:3 * rest]
     palette += [0] * (3 * rest - len(palette))
     index = np.array(quantized, dtype=np.uint8)
-    # Each pixel as one number, read straight from Pillow's 4-byte pixels (red in the low byte):
-    # a third of the work of packing three channel arrays.
-    packed = np.asarray(rgb.convert("RGBX")).view("<u4")[..., 0] & 0xFFFFFF
     for k, (r, g, b) in enumerate(marks):
         index[packed == (r | (g << 8) | (b << 16))] = rest + k
+    return _png(index, palette + [v for c in marks for v in c])
+
+
+@functools.cache
+def _colour_table() -> np.ndarray:
+    """A palette index for every 24-bit colour, looked up in one step; reused from picture to picture,
+    each setting the entries of its own colours before reading them (16 MB of address space, of which
+    only the pages of colours used are ever touched)."""
+    return np.zeros(1 << 24, dtype=np.uint8)
+
+
+def _png(index: np.ndarray, palette: list[int]) -> bytes:
     out = Image.fromarray(index, "P")
-    out.putpalette(palette + [v for c in marks for v in c])
+    out.putpalette(palette)
     buf = io.BytesIO()
     out.save(buf, "PNG")
     return buf.getvalue()
@@ -609,7 +640,7 @@ class Written(NamedTuple):
     notice: str  # what the user should hear about this picture (on stderr); "" when all went well
 
 
-def write_overlay(screen: dict[str, Any], report: Report, folder: Path, text_scale: float = 1.0) -> Written:
+def write_overlay(screen: dict[str, Any], report: RuleHead, folder: Path, text_scale: float = 1.0) -> Written:
     """A screen's overlay under `folder`, written atomically; the screenshot is let go at once."""
     image = None
     notice = ""
