@@ -624,9 +624,91 @@ def _plain_metavars(command: Any) -> Any:
     return command
 
 
+def _no_pydantic(command: Any) -> Any:
+    """Convert option values without pydantic, on typer versions that would import it for them.
+
+    typer 0.29 converts every value, even a plain str and even an option left out, through a
+    pydantic TypeAdapter; importing pydantic for that was a fifth of a one-screen check's
+    start-up (70-90 ms). Our values are str, int, float, bool, Path and lists of them, which need
+    no schema: each parameter gets a converter of typer's own kind (its RuntimeParam, paths
+    through its own path checks) before typer builds one. The hook is typer's internals, so it
+    is guarded: a typer without it (before 0.29, or changed since) keeps converting its own way.
+    """
+    try:
+        from dataclasses import dataclass
+
+        from typer._coercion import RuntimeParam
+        from typer._param_types import coerce_cli_path
+    except ImportError:
+        return command
+
+    def leaf(kind: Any) -> Any:
+        if kind in (int, float):
+            word = "integer" if kind is int else "number"
+
+            def number(value: Any, param: Any, ctx: Any) -> Any:
+                try:
+                    return kind(value)
+                except (TypeError, ValueError):
+                    raise typer.BadParameter(f"{value!r} is not a valid {word}.", ctx=ctx, param=param) from None
+            return number
+        if kind is str:
+            return lambda value, param, ctx: value if isinstance(value, str) else str(value)
+        if kind is bool:
+            return lambda value, param, ctx: value if isinstance(value, bool) else str(value).lower() in TRUE_WORDS
+        if kind is Path:
+            return lambda value, param, ctx: Path(coerce_cli_path(  # its exists/readable checks; str in, str out
+                value, param.type_descriptor.parameter_info, path_type=None, param=param, ctx=ctx))
+        return None
+
+    @dataclass(frozen=True)
+    class Plain(RuntimeParam):  # type: ignore[misc]
+        convert: Any
+        many: bool
+
+        def _coerce_value(self, value: Any, param: Any, ctx: Any) -> Any:
+            if self.many:
+                return [self.convert(v, param, ctx) for v in value]
+            return self.convert(value, param, ctx)
+
+    def lean(param: Any) -> None:
+        desc = getattr(param, "type_descriptor", None)
+        if desc is None or desc.file_annotation is not None or getattr(param, "_runtime_param", False) is not None:
+            return  # not typer 0.29's kind of parameter, a file, or converted already
+        kind = desc.annotation
+        many = getattr(kind, "__origin__", None) is list and len(kind.__args__) == 1
+        convert = leaf(kind.__args__[0] if many else kind)
+        if convert is not None:
+            param._runtime_param = Plain(desc.parameter_info, kind, convert, many)
+
+    def walk(cmd: Any) -> None:
+        for sub in getattr(cmd, "commands", {}).values():
+            walk(sub)
+        for param in cmd.params:
+            lean(param)
+        made = cmd.get_help_option  # typer makes -h/--help per run, when it first needs it
+
+        def help_option(ctx: Any) -> Any:
+            option = made(ctx)
+            if option is not None:
+                lean(option)
+            return option
+
+        cmd.get_help_option = help_option
+
+    try:
+        walk(command)
+    except TypeError:  # typer's RuntimeParam changed shape: what is left converts typer's way
+        pass
+    return command
+
+
+TRUE_WORDS = frozenset({"1", "true", "t", "yes", "y", "on"})  # as click reads a flag's value from text
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the CLI in-process and return its exit code (tests call this)."""
-    command = _plain_metavars(typer.main.get_command(app))
+    command = _no_pydantic(_plain_metavars(typer.main.get_command(app)))
     try:
         # Standalone mode prints usage errors itself and always ends in SystemExit.
         command.main(args=argv if argv is not None else sys.argv[1:], prog_name="tapgauge")
