@@ -706,12 +706,32 @@ def _no_pydantic(command: Any) -> Any:
 TRUE_WORDS = frozenset({"1", "true", "t", "yes", "y", "on"})  # as click reads a flag's value from text
 
 
+def _app_for(args: list[str]) -> typer.Typer:
+    """The app to build for these arguments: with only the command they name, when they name one.
+
+    typer reads every command's signature and types to build the group (about 10 ms for all
+    ten); a run needs one. The root takes no option values, so the first word is the command.
+    The whole app for the command list and for names it does not know (it suggests the nearest).
+    """
+    import copy
+
+    word = next((a for a in args if not a.startswith("-")), None)
+    chosen = [c for c in app.registered_commands
+              if word is not None and word == (c.name or c.callback.__name__.replace("_", "-"))]
+    if not chosen:
+        return app
+    one = copy.copy(app)  # the same settings and root callback
+    one.registered_commands = chosen
+    return one
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the CLI in-process and return its exit code (tests call this)."""
-    command = _no_pydantic(_plain_metavars(typer.main.get_command(app)))
+    args = argv if argv is not None else sys.argv[1:]
+    command = _no_pydantic(_plain_metavars(typer.main.get_command(_app_for(args))))
     try:
         # Standalone mode prints usage errors itself and always ends in SystemExit.
-        command.main(args=argv if argv is not None else sys.argv[1:], prog_name="tapgauge")
+        command.main(args=args, prog_name="tapgauge")
     except SystemExit as exc:
         code = exc.code
         return code if isinstance(code, int) else (0 if code is None else 2)  # 2: report.records.EXIT_ERROR
