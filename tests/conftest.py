@@ -27,7 +27,11 @@ def whole_records(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatc
     marked `document` read it as users get it (its shape, schema and size are tested there).
     Worker processes are forked, so they see the same."""
     if request.node.get_closest_marker("document") is None:
+        from tapgauge.report.records import Checked, screen_record
+
         monkeypatch.setattr("tapgauge.report.document.screen_document", lambda rec: rec)
+        monkeypatch.setattr(Checked, "document_of",
+                            classmethod(lambda cls, sr, waived=(): cls.of(screen_record(sr), waived)))
 
 
 def screen_of(boxes: list[tuple[int, int, int, int]], platform: str = "android") -> Screen:

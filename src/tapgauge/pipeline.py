@@ -120,7 +120,8 @@ def record_one(path: Path, settings: Settings) -> list[Checked | InputError]:
         done = []
         for sr in check_file(path, settings):
             waived, counts = waive_screen(sr, settings.waivers)
-            done.append(Checked.of(screen_record(waived), counts, settings.document_only))
+            done.append(Checked.document_of(waived, counts) if settings.document_only
+                        else Checked.of(screen_record(waived), counts))
         return done
 
     return _guarded(path, work)

@@ -25,9 +25,12 @@ from typing import Any
 
 import orjson
 
+from tapgauge.model import TargetResult
+
 
 def screen_document(rec: dict[str, Any]) -> dict[str, Any]:
-    """A screen's record as the JSON report holds it."""
+    """A screen's record as the JSON report holds it. (Workers build the same straight from the
+    results, `target_document`, when nothing else needs the record: a test holds the two equal.)"""
     return {**rec, "targets": [_target(t) for t in rec["targets"]]}
 
 
@@ -76,4 +79,50 @@ def _target(t: dict[str, Any]) -> dict[str, Any]:
         out["miss_probability"] = [d["miss_probability"] for d in t["difficulty"]]
     if t["plan"] is not None:
         out["plan"] = _plan(t["plan"])
+    return out
+
+
+def _round_all(values: Any) -> list[float]:
+    return [round(v, 2) for v in values]
+
+
+def target_document(tr: TargetResult, key: str) -> dict[str, Any]:
+    """`_target(target_record(tr, key))`, without making the record first."""
+    t = tr.target
+    out: dict[str, Any] = {"number": t.number, "key": key, "line": t.line, "class": t.cls, "label": t.label,
+                           "resource_id": t.resource_id}
+    name = t.name
+    if name != t.label:
+        out["name"] = name
+    out["bounds"] = list(t.bounds)
+    out["size"] = list(tr.size_unit)
+    out["status"] = tr.status
+    if tr.reason:
+        out["reason"] = tr.reason
+    findings = []
+    for f in tr.findings:
+        fd: dict[str, Any] = {"rule": f.rule_id, "measured": f.measured, "required": f.required}
+        if f.other is not None:
+            fd["other"] = f.other
+        if f.waiver is not None:
+            fd["waiver"] = {"reason": f.waiver[0], "author": f.waiver[1], "expires": f.waiver[2]}
+        findings.append(fd)
+    out["findings"] = findings
+    if tr.notes:
+        out["notes"] = list(tr.notes)
+    if tr.approach is not None:
+        a = tr.approach
+        out["approach"] = {"width": a.width, "distance": a.distance, "id_bits": a.id_bits}
+    if tr.difficulty:
+        out["time_ms"] = [d.time_ms for d in tr.difficulty]
+        out["miss_probability"] = [d.miss for d in tr.difficulty]
+    p = tr.plan
+    if p is not None:
+        if p.kind == "grow":
+            out["plan"] = {"kind": "grow", "bounds": _round_all(p.bounds), "rules": list(p.rules)}
+        else:
+            plan: dict[str, Any] = {"kind": p.kind, "missing": round(p.missing, 2), "rules": list(p.rules)}
+            if p.mover is not None:
+                plan["move"] = {"target": p.mover, "dx": round(p.move[0], 2), "dy": round(p.move[1], 2)}
+            out["plan"] = plan
     return out

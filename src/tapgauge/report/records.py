@@ -30,7 +30,7 @@ from tapgauge.model import (
     TargetResult,
 )
 from tapgauge.profiles import Profile
-from tapgauge.report.document import screen_text
+from tapgauge.report.document import screen_text, target_document
 from tapgauge.report.verdict import DISCLAIMER
 from tapgauge.waivers import Waivers, outcomes, waiver_records
 
@@ -115,22 +115,24 @@ def _plan_record(p: Any) -> dict[str, Any]:
             "rules": list(p.rules), "text": p.text}
 
 
-def _plan_summary(targets: list[dict[str, Any]], unit: str) -> dict[str, Any]:
+def _plan_summary(sr: ScreenResult) -> dict[str, Any]:
     """How many failures the plans fix by touch area alone, how many need a move, and the area added."""
-    grow = [t for t in targets if t["plan"] and t["plan"]["kind"] == "grow"]
+    grow = [t for t in sr.targets if t.plan is not None and t.plan.kind == "grow"]
     added = 0.0
     for t in grow:
-        w0, h0 = t["size"]["width"], t["size"]["height"]
-        g = t["plan"]["growth"]
-        added += (w0 + g["left"] + g["right"]) * (h0 + g["top"] + g["bottom"]) - w0 * h0
-    return {"grow": len(grow), "move": sum(1 for t in targets if t["plan"] and t["plan"]["kind"] == "move"),
-            "area_added": round(added, 1), "unit": f"{unit}2"}
+        w0, h0 = t.size_unit
+        left, top, right, bottom = (round(g, 2) for g in t.plan.growth)  # as the record states them
+        added += (w0 + left + right) * (h0 + top + bottom) - w0 * h0
+    return {"grow": len(grow), "move": sum(1 for t in sr.targets if t.plan is not None and t.plan.kind == "move"),
+            "area_added": round(added, 1), "unit": f"{sr.device.unit}2"}
 
 
-def screen_record(sr: ScreenResult) -> dict[str, Any]:
+def screen_record(sr: ScreenResult, document: bool = False) -> dict[str, Any]:
+    """The screen's whole record; with `document`, as the JSON report holds it (report/document.py)."""
     d = sr.device
     keys = target_keys([t.target for t in sr.targets])
-    targets = [target_record(t, k) for t, k in zip(sr.targets, keys)]
+    make = target_document if document else target_record
+    targets = [make(t, k) for t, k in zip(sr.targets, keys)]
     return {
         "path": display_path(sr.screen.path),
         "name": sr.screen.name,
@@ -152,7 +154,7 @@ def screen_record(sr: ScreenResult) -> dict[str, Any]:
         "notices": list(sr.notices),
         "targets": targets,
         "summary": _status_counts(targets),
-        "plans": _plan_summary(targets, d.unit),
+        "plans": _plan_summary(sr),
     }
 
 
@@ -189,6 +191,21 @@ def screen_totals(rec: dict[str, Any]) -> Totals:
                   tuple(sorted(worst.items())))
 
 
+def result_totals(sr: ScreenResult) -> Totals:
+    """`screen_totals(screen_record(sr))`, without making the record."""
+    counts: Counter[str] = Counter()
+    worst: Counter[int] = Counter()
+    statuses = Counter(t.status for t in sr.targets)
+    for t in sr.targets:
+        if t.status == "fail":
+            levels = [f.severity for f in t.findings if not f.waiver]
+            counts.update(_LABEL[s] for s in levels)
+            if levels:
+                worst[int(max(levels))] += 1
+    return Totals(tuple((s, statuses.get(s, 0)) for s in STATUSES), tuple(sorted(counts.items())),
+                  tuple(sorted(worst.items())))
+
+
 def open_at(t: dict[str, Any], level: Severity) -> list[dict[str, Any]]:
     """A target's open findings at or above the fail level: what fails a run, and a JUnit case.
 
@@ -205,8 +222,8 @@ class Checked:
     each waiver matched.
 
     Between processes it travels as JSON text, not as nested dicts: text crosses far more
-    cheaply, and the JSON writers write it as it is. `of(..., document_only=True)` makes the
-    report document's text at once and sends only that (the JSON and JSON Lines reports need
+    cheaply, and the JSON writers write it as it is. `document_of` makes the report document's
+    text at once, straight from the results, and sends only that (the JSON and JSON Lines reports need
     nothing else), so the worker, not the parent, pays for it. Each other form is made from
     the record only when asked for, so a run that never needs one never pays for it.
     """
@@ -225,10 +242,13 @@ class Checked:
         self._doc_only = text is None and record is None
 
     @classmethod
-    def of(cls, record: dict[str, Any], waived: tuple[int, ...] = (), document_only: bool = False) -> Checked:
-        if document_only:
-            return cls(None, screen_totals(record), waived, None, screen_text(record))
+    def of(cls, record: dict[str, Any], waived: tuple[int, ...] = ()) -> Checked:
         return cls(None, screen_totals(record), waived, record)
+
+    @classmethod
+    def document_of(cls, sr: ScreenResult, waived: tuple[int, ...] = ()) -> Checked:
+        """The screen as its JSON report text only, made straight from its results (no record)."""
+        return cls(None, result_totals(sr), waived, None, orjson.dumps(screen_record(sr, document=True)).decode("utf-8"))
 
     @property
     def text(self) -> str:
