@@ -52,7 +52,8 @@ class _Need:
     overlaps: tuple[str, ...] = ()  # other targets its box overlaps: no growth can pass until they part
 
 
-def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet]) -> list[_Need]:
+def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet],
+           pairs: tuple[np.ndarray, np.ndarray]) -> list[_Need]:
     """Per failing target whose shortfall is only size (no target drawn over it), the square to reach."""
     d = m.device
     # Each size rule's square in coordinates, across and down, worked out once for the screen.
@@ -68,7 +69,7 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet]) -> list
                 square[r.id] = (size / MM_PER_INCH * d.xdpi, size / MM_PER_INCH * d.ydpi)
     position = {k: pos for pos, k in enumerate(m.checked)}
     out = []
-    hits = _overlap_positions(m)
+    hits = _overlap_positions(pairs)
     for k, tr in enumerate(sr.targets):
         if tr.status != "fail":
             continue
@@ -102,11 +103,11 @@ def _overlap_pairs(m: MeasuredScreen) -> tuple[np.ndarray, np.ndarray]:
     return i[keep], j[keep]
 
 
-def _overlap_positions(m: MeasuredScreen) -> dict[int, list[int]]:
+def _overlap_positions(pairs: tuple[np.ndarray, np.ndarray]) -> dict[int, list[int]]:
     out: dict[int, list[int]] = {}
-    for i, j in zip(*_overlap_pairs(m)):
-        out.setdefault(int(i), []).append(int(j))
-        out.setdefault(int(j), []).append(int(i))
+    for i, j in zip(*(p.tolist() for p in pairs)):
+        out.setdefault(i, []).append(j)
+        out.setdefault(j, []).append(i)
     return out
 
 
@@ -262,10 +263,11 @@ def _findings(sr: ScreenResult) -> set[tuple[int, str]]:
     return {(tr.target.number, f.rule_id) for tr in sr.targets for f in tr.findings if not f.waiver}
 
 
-def _overlaps(m: MeasuredScreen) -> set[tuple[int, int]]:
+def _overlaps(m: MeasuredScreen, pairs: tuple[np.ndarray, np.ndarray] | None = None) -> set[tuple[int, int]]:
     """Pairs of checked targets (by number) whose boxes overlap."""
     numbers = [m.screen.targets[k].number for k in m.checked]
-    return {(numbers[i], numbers[j]) for i, j in zip(*_overlap_pairs(m))}
+    i, j = pairs if pairs is not None else _overlap_pairs(m)
+    return {(numbers[a], numbers[b]) for a, b in zip(i.tolist(), j.tolist())}
 
 
 Recheck = Callable[[Screen], tuple[MeasuredScreen, ScreenResult]]
@@ -274,13 +276,14 @@ Recheck = Callable[[Screen], tuple[MeasuredScreen, ScreenResult]]
 def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], recheck: Recheck) -> ScreenResult:
     """The screen's results with a plan on each target too small; `recheck` measures and checks a screen
     whose targets have their planned bounds, as the pipeline did the original."""
-    needs = _needs(m, sr, rulesets)
+    pairs = _overlap_pairs(m)
+    needs = _needs(m, sr, rulesets, pairs)
     if not needs:
         return sr
     applied = [rs for rs in rulesets if rs.id in sr.rulesets]
     gaps = [float(r.param("gap")) for rs in applied for r in rs.rules if r.kind == "min-gap"]
     margin = max(gaps, default=0.0) * m.device.coords_per_unit
-    before, overlapping = _findings(sr), _overlaps(m)
+    before, overlapping = _findings(sr), _overlaps(m, pairs)
     number = {n.pos: m.screen.targets[m.checked[n.pos]].number for n in needs}
     keep = {n.pos for n in needs if not n.overlaps}
     planned: dict[int, tuple[np.ndarray, str]] = {}

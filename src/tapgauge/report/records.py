@@ -193,15 +193,18 @@ def screen_totals(rec: dict[str, Any]) -> Totals:
 
 def result_totals(sr: ScreenResult) -> Totals:
     """`screen_totals(screen_record(sr))`, without making the record."""
-    counts: Counter[str] = Counter()
-    worst: Counter[int] = Counter()
-    statuses = Counter(t.status for t in sr.targets)
+    counts: dict[str, int] = {}
+    worst: dict[int, int] = {}
+    statuses: dict[str, int] = {}
     for t in sr.targets:
+        statuses[t.status] = statuses.get(t.status, 0) + 1
         if t.status == "fail":
             levels = [f.severity for f in t.findings if not f.waiver]
-            counts.update(_LABEL[s] for s in levels)
+            for s in levels:
+                counts[_LABEL[s]] = counts.get(_LABEL[s], 0) + 1
             if levels:
-                worst[int(max(levels))] += 1
+                w = int(max(levels))
+                worst[w] = worst.get(w, 0) + 1
     return Totals(tuple((s, statuses.get(s, 0)) for s in STATUSES), tuple(sorted(counts.items())),
                   tuple(sorted(worst.items())))
 
