@@ -657,7 +657,12 @@ def _no_pydantic(command: Any) -> Any:
         if kind is str:
             return lambda value, param, ctx: value if isinstance(value, str) else str(value)
         if kind is bool:
-            return lambda value, param, ctx: value if isinstance(value, bool) else str(value).lower() in TRUE_WORDS
+            def flag(value: Any, param: Any, ctx: Any) -> bool:
+                word = str(value).strip().lower()
+                if isinstance(value, bool) or word in FLAG_WORDS:
+                    return value if isinstance(value, bool) else FLAG_WORDS[word]
+                raise typer.BadParameter(f"{value!r} is not a valid boolean.", ctx=ctx, param=param)
+            return flag
         if kind is Path:
             return lambda value, param, ctx: Path(coerce_cli_path(  # its exists/readable checks; str in, str out
                 value, param.type_descriptor.parameter_info, path_type=None, param=param, ctx=ctx))
@@ -699,13 +704,16 @@ def _no_pydantic(command: Any) -> Any:
         cmd.get_help_option = help_option
 
     try:
-        walk(command)
-    except TypeError:  # typer's RuntimeParam changed shape: what is left converts typer's way
-        pass
+        Plain(None, str, leaf(str), False)
+    except TypeError:  # typer's RuntimeParam changed shape: leave every value to typer
+        return command
+    walk(command)
     return command
 
 
-TRUE_WORDS = frozenset({"1", "true", "t", "yes", "y", "on"})  # as click reads a flag's value from text
+# A flag's value given as text, read as click reads it.
+FLAG_WORDS = {**dict.fromkeys(("1", "true", "t", "yes", "y", "on"), True),
+              **dict.fromkeys(("0", "false", "f", "no", "n", "off"), False)}
 
 
 def _app_for(args: list[str]) -> typer.Typer:
