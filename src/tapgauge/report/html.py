@@ -251,10 +251,11 @@ POINTS = {"fail": ("#a23c00", "triangle", True), "partial": ("#8a3466", "diamond
           "exempt": ("#00684c", "square", True), "pass": ("#005a8c", "circle", False)}
 
 
-def _miss_curve(side_mm: float, alpha: float, sigma_a: float) -> float:
+def _miss_curve(sides_mm: list[float], alpha: float, sigma_a: float) -> list[float]:
+    """The predicted miss of a square target of each side (one call for the whole curve)."""
     from tapgauge.difficulty import hit_probability
 
-    return 1.0 - float(hit_probability([side_mm], [side_mm], alpha, sigma_a)[0])  # type: ignore[arg-type]
+    return [1.0 - float(h) for h in hit_probability(sides_mm, sides_mm, alpha, sigma_a)]  # type: ignore[arg-type]
 
 
 def _minimums_mm(screen: dict[str, Any], report: Head) -> list[tuple[str, float]]:
@@ -324,8 +325,9 @@ def _charts(screen: dict[str, Any], report: Head) -> str:
                        f'stroke-dasharray="4 3"><title>{escape(rule)}: {mm:.1f} mm</title></line>')
             out.append(f'<text x="{X(mm) + 3:.1f}" y="{Y(1) + 10 + 11 * n:.1f}" font-size="9" fill="#4a4a4a">'
                        f"{n + 1}</text>")
-        curve = " ".join(f"{X(v):.1f},{Y(_miss_curve(v, profile['alpha'], profile['sigma_a_mm'])):.1f}"
-                         for v in (xmax * q / 60 for q in range(1, 61)))
+        sides = [xmax * q / 60 for q in range(1, 61)]
+        curve = " ".join(f"{X(v):.1f},{Y(m):.1f}"
+                         for v, m in zip(sides, _miss_curve(sides, profile["alpha"], profile["sigma_a_mm"])))
         out.append(f'<polyline points="{curve}" fill="none" stroke="#7a7a7a" stroke-width="1"/>')
         for side, miss, status, number in pts:
             colour, shape, filled = POINTS[status]

@@ -590,15 +590,15 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     not read as another).
     """
     rgb = img if img.mode == "RGB" else img.convert("RGB")
-    # Each pixel as one number, read straight from Pillow's 4-byte pixels (red in the low byte):
-    # a third of the work of packing three channel arrays.
-    packed = np.asarray(rgb.convert("RGBX")).view("<u4")[..., 0] & 0xFFFFFF
+    # Each pixel as one number (blue + green * 256 + red * 65536), read straight from Pillow's
+    # 4-byte pixels (whose fourth byte it packs as 0): no channel arrays to combine.
+    packed = np.frombuffer(rgb.tobytes("raw", "BGRX"), dtype="<u4").reshape(rgb.height, rgb.width)
     found = rgb.getcolors(256)
     if found is not None:  # every colour gets its own entry: nothing to choose, nothing lost
         exact = [c for _, c in found]
         table = _colour_table()
-        table[[r | (g << 8) | (b << 16) for r, g, b in exact]] = np.arange(len(exact), dtype=np.uint8)
-        return _png(table[packed], [v for c in exact for v in c])
+        table[[b | (g << 8) | (r << 16) for r, g, b in exact]] = np.arange(len(exact), dtype=np.uint8)
+        return _png(table.take(packed), [v for c in exact for v in c])
     marks = list(dict.fromkeys(MARK_COLOURS))
     rest = max(1, colours - len(marks))
     quantized = rgb.quantize(rest, method=Image.Quantize.FASTOCTREE, dither=Image.Dither.NONE)
@@ -606,7 +606,7 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     palette += [0] * (3 * rest - len(palette))
     index = np.array(quantized, dtype=np.uint8)
     for k, (r, g, b) in enumerate(marks):
-        index[packed == (r | (g << 8) | (b << 16))] = rest + k
+        index[packed == (b | (g << 8) | (r << 16))] = rest + k
     return _png(index, palette + [v for c in marks for v in c])
 
 
