@@ -210,7 +210,7 @@ def bench_batch(screens: int, targets: int, filler: int, repeat: int, fmt: str, 
         dumps = sum(f.stat().st_size for f in files)
         out = Path(tmp) / f"report.{fmt}"
         floor_cmd = [sys.executable, __file__, "floor", str(folder), "--jobs", "1"]
-        tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", fmt, "-o", str(out)]
+        tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", fmt, "-o", str(out), "--quiet"]
         floor, tap = [], []
         for _ in range(repeat):  # alternate, so both see the same machine
             floor.append(run_measured(floor_cmd)[0])

@@ -38,10 +38,20 @@ class Plan:
     bounds: Box  # the planned touch area (grow), or the target's box as it is (move)
     growth: tuple[float, float, float, float]  # left, top, right, bottom, in the platform unit
     rules: tuple[str, ...]  # the size rules the plan passes
-    text: str  # the plan in words, for tables
     missing: float = 0.0  # move: room missing, in the platform unit
     move: tuple[float, float] = (0.0, 0.0)  # move: dx, dy in the platform unit that would make room
     mover: int | None = None  # move: the number of the neighbour to move (None: no move of one helps)
+    # What the sentence is made of. It is written only when a report shows it: the JSON report holds
+    # none, and writing every plan's sentence cost a tenth of checking a batch to JSON.
+    unit: str = ""
+    k_unit: float = 1.0  # coordinates per unit
+    why: str = ""  # "limits:side=who;...", "short:axis:missing:low:high:room:room", "overlaps" or ""
+    overlaps: tuple[str, ...] = ()  # the targets it overlaps, named
+
+    @property
+    def text(self) -> str:
+        """The plan in words, for tables."""
+        return _sentence(self)
 
 
 @dataclass(frozen=True)
@@ -349,51 +359,64 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[np.nda
         if pos is None:
             continue
         box, why = planned[pos]
-        old = boxes[pos]
+        old = boxes[pos].tolist()
         rules = needs[pos].rules
         if box is not None and why.startswith("limits:"):
-            growth = tuple(float(v) / k_unit for v in (old[0] - box[0], old[1] - box[1], box[2] - old[2], box[3] - old[3]))
-            parts = [f"{_fmt(g)} {unit} {name}" for g, name in zip(growth, SIDES) if g > 0.05]
-            text = ("grow the touch area " + ", ".join(parts) + f" (to {_fmt((box[2] - box[0]) / k_unit)} x "
-                    f"{_fmt((box[3] - box[1]) / k_unit)} {unit})") if parts else "no growth needed"
-            limits = [part.split("=") for part in why.removeprefix("limits:").split(";") if part]
-            if limits:
-                text += "; " + "; ".join(f"the {side} side is limited by {who}" for side, who in limits)
-            plan = Plan("grow", tuple(float(v) for v in box), growth, rules, text)  # type: ignore[arg-type]
+            new = box.tolist()
+            growth = ((old[0] - new[0]) / k_unit, (old[1] - new[1]) / k_unit, (new[2] - old[2]) / k_unit,
+                      (new[3] - old[3]) / k_unit)
+            plan = Plan("grow", tuple(new), growth, rules, unit=unit, k_unit=k_unit, why=why)  # type: ignore[arg-type]
         elif why == "overlaps":
-            plan = Plan("move", tuple(float(v) for v in old), (0.0, 0.0, 0.0, 0.0), rules,  # type: ignore[arg-type]
-                        f"it overlaps {', '.join(needs[pos].overlaps)}: part them first; no touch area passes while "
-                        "they overlap")
+            plan = Plan("move", tuple(old), (0.0, 0.0, 0.0, 0.0), rules, unit=unit, k_unit=k_unit,  # type: ignore[arg-type]
+                        why=why, overlaps=needs[pos].overlaps)
         else:
-            plan = _move(old, why, rules, k_unit, unit)
+            plan = _move(tuple(old), why, rules, k_unit, unit)
         targets[k] = tr._replace(plan=plan)
     return replace(sr, targets=tuple(targets))
 
 
-def _move(box: np.ndarray, why: str, rules: tuple[str, ...], k_unit: float, unit: str) -> Plan:
+def _move(box: Box, why: str, rules: tuple[str, ...], k_unit: float, unit: str) -> Plan:
     """No room: how much is missing between the two limits on the tight axis, and the smallest move of a
     neighbour that opens it (moving the target itself between two fixed limits opens nothing)."""
-    keep = tuple(float(v) for v in box)
     if not why.startswith("short:"):
-        return Plan("move", keep, (0.0, 0.0, 0.0, 0.0), rules,  # type: ignore[arg-type]
-                    "no touch area that passes fits here without crowding a neighbour: move it apart from its "
-                    "neighbours, or make room around it")
+        return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, unit=unit, k_unit=k_unit, why=why)
     _, axis_s, short_s, low, high, _, _ = why.split(":", 6)
     axis, short = int(axis_s), float(short_s) / k_unit
-    what = "across" if axis == 0 else "down"
-    between = f"between {low.rstrip('*')} and {high.rstrip('*')}"
     # A neighbour that also grows shares the room it opens: it must move twice as far.
     side = next(((lim, +1) for lim in (high,) if lim.startswith("#")), None) or \
         next(((lim, -1) for lim in (low,) if lim.startswith("#")), None)
     if side is None:
-        return Plan("move", keep, (0.0, 0.0, 0.0, 0.0), rules,  # type: ignore[arg-type]
-                    f"no room to grow: {_fmt(short)} {unit} missing {what} {between}; it cannot reach the minimum "
-                    "there: give it a larger container or another place", short)
+        return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, short, unit=unit, k_unit=k_unit, why=why)
     who, sign = side
     distance = short * (2 if who.endswith("*") else 1)
     number = int(who.lstrip("#").split()[0].rstrip("*"))
-    word = ("right" if sign > 0 else "left") if axis == 0 else ("down" if sign > 0 else "up")
     dx, dy = (sign * distance, 0.0) if axis == 0 else (0.0, sign * distance)
-    text = (f"no room to grow: {_fmt(short)} {unit} missing {what} {between}; move #{number} {_fmt(distance)} "
-            f"{unit} {word}, away from it, to make that room")
-    return Plan("move", keep, (0.0, 0.0, 0.0, 0.0), rules, text, short, (dx, dy), number)  # type: ignore[arg-type]
+    return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, short, (dx, dy), number, unit=unit, k_unit=k_unit, why=why)
+
+
+def _sentence(p: Plan) -> str:
+    unit = p.unit
+    if p.kind == "grow":
+        box = p.bounds
+        parts = [f"{_fmt(g)} {unit} {name}" for g, name in zip(p.growth, SIDES) if g > 0.05]
+        text = ("grow the touch area " + ", ".join(parts) + f" (to {_fmt((box[2] - box[0]) / p.k_unit)} x "
+                f"{_fmt((box[3] - box[1]) / p.k_unit)} {unit})") if parts else "no growth needed"
+        limits = [part.split("=") for part in p.why.removeprefix("limits:").split(";") if part]
+        if limits:
+            text += "; " + "; ".join(f"the {side} side is limited by {who}" for side, who in limits)
+        return text
+    if p.why == "overlaps":
+        return f"it overlaps {', '.join(p.overlaps)}: part them first; no touch area passes while they overlap"
+    if not p.why.startswith("short:"):
+        return ("no touch area that passes fits here without crowding a neighbour: move it apart from its "
+                "neighbours, or make room around it")
+    _, axis_s, _, low, high, _, _ = p.why.split(":", 6)
+    what = "across" if axis_s == "0" else "down"
+    between = f"between {low.rstrip('*')} and {high.rstrip('*')}"
+    if p.mover is None:
+        return (f"no room to grow: {_fmt(p.missing)} {unit} missing {what} {between}; it cannot reach the minimum "
+                "there: give it a larger container or another place")
+    dx, dy = p.move
+    word = ("right" if dx > 0 else "left") if axis_s == "0" else ("down" if dy > 0 else "up")
+    return (f"no room to grow: {_fmt(p.missing)} {unit} missing {what} {between}; move #{p.mover} "
+            f"{_fmt(abs(dx) + abs(dy))} {unit} {word}, away from it, to make that room")
