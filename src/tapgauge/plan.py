@@ -224,6 +224,7 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, all_t: list[Target], obs: np
     nearest_room = np.take_along_axis(per_side, nearest[..., None], axis=2)[..., 0]
     # Per row in plain Python numbers: numpy's per-call cost outweighs four-element arithmetic.
     rooms, whos, held = nearest_room.tolist(), nearest.tolist(), holds.any(axis=1).tolist()
+    demands, grows = demand.tolist(), is_growing.tolist()
     others = screen.windows if len(screen.windows) > 1 else ()
     for i, pos in enumerate(rows.tolist()):
         t, here = all_t[pos], boxes[pos]
@@ -252,20 +253,20 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, all_t: list[Target], obs: np
             if rooms[i][k] < room[k]:
                 room[k] = max(0.0, rooms[i][k])
                 q = whos[i][k]
-                limiter[k] = f"#{numbers[q]}" + ("*" if is_growing[q] else "")  # *: grows too, the room is shared
-        need = demand[pos]
-        across = _spread(float(need[0]), float(room[0]), float(room[2]))
-        down = _spread(float(need[1]), float(room[1]), float(room[3]))
+                limiter[k] = f"#{numbers[q]}" + ("*" if grows[q] else "")  # *: grows too, the room is shared
+        need = demands[pos]
+        across = _spread(need[0], room[0], room[2])
+        down = _spread(need[1], room[1], room[3])
         if across is None or down is None:
             ax = 0 if across is None else 1
-            short = float(need[ax] - room[ax] - room[ax + 2])
-            out[int(pos)] = (here, f"short:{ax}:{short}:{limiter[ax]}:{limiter[ax + 2]}:{room[ax]}:{room[ax + 2]}")
+            short = need[ax] - room[ax] - room[ax + 2]
+            out[pos] = (here, f"short:{ax}:{short}:{limiter[ax]}:{limiter[ax + 2]}:{room[ax]}:{room[ax + 2]}")
             continue
         growth = (across[0], down[0], across[1], down[1])
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
         tight = [f"{name}={limiter[k].rstrip('*')}" for k, name in enumerate(SIDES)
                  if limiter[k].startswith("#") and growth[k] > EPS and growth[k] >= room[k] - EPS]
-        out[int(pos)] = (here + np.array([-across[0], -down[0], across[1], down[1]]), "limits:" + ";".join(tight))
+        out[pos] = (here + np.array([-across[0], -down[0], across[1], down[1]]), "limits:" + ";".join(tight))
     return out
 
 
