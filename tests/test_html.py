@@ -154,3 +154,21 @@ def test_filters_work_in_the_browser(demo_html: tuple[Path, dict], tmp_path: Pat
     assert rendered.xpath("string(//p[@id='f-count'])").startswith(f"{expected} finding")
     visible = [a for a in rendered.xpath("//article[@data-screen]") if a.get("hidden") is None]
     assert [a.get("data-screen") for a in visible] == [chosen]
+
+
+def test_pictures_drawn_in_worker_processes_give_the_same_report(monkeypatch: pytest.MonkeyPatch) -> None:
+    # Common practice for parallel output: the same bytes in the same order, whatever the number of
+    # processes drawing (each screen's article is made apart and written in the report's order).
+    from tapgauge.batch import prepare
+    from tapgauge.report.html import write_html
+
+    monkeypatch.chdir(DEMO.parent)
+    written = []
+    for jobs in (1, 2):
+        run = prepare(None, None, None, None, None, None, None, None, [], "centre", "approach", "2027-01-31", jobs=1)
+        assert not isinstance(run, int)
+        with run.report([DEMO / "android", DEMO / "marked"], None).spooled() as report:
+            out = io.StringIO()
+            write_html(report, out, jobs=jobs)
+            written.append(out.getvalue())
+    assert written[0] == written[1] and written[0].count('<article class="screen"') == 6

@@ -380,8 +380,9 @@ def _count_findings(report: Report) -> tuple[int, Counter[str], Counter[str]]:
     return total, open_, waived
 
 
-def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
-    """Totals and summaries first, so it reads a spooled report's screens several times."""
+def write_html(report: Report, out: TextIO, width: int | None = None, jobs: int | None = None) -> None:
+    """Totals and summaries first, so it reads a spooled report's screens several times. The screens'
+    pictures are drawn in `jobs` processes (default: one per core)."""
     s = report.summary
     n_findings, rule_counts, waived = _count_findings(report)
     rulesets = [rs["id"] for rs in report.rulesets]
@@ -444,7 +445,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None) -> None:
     # One article per screen.
     h += ['<section id="screens" aria-labelledby="h-screens">', '<h2 id="h-screens">Screens</h2>']
     out.write("\n".join(h) + "\n")
-    for article in _articles(report, Head.of(report)):
+    for article in _articles(report, Head.of(report), jobs):
         out.write(article + "\n")
     h = ["</section>"]
     # Sources.
@@ -517,7 +518,7 @@ def _target_row(t: dict[str, Any], unit: str, rows: dict[tuple[int, str], dict[s
             f"<td>{_misses(t)}</td></tr>")
 
 
-def _articles(report: Report, head: Head) -> Iterator[str]:
+def _articles(report: Report, head: Head, jobs: int | None = None) -> Iterator[str]:
     """Each screen's article, in the report's order. With several screens and cores they are made in
     worker processes, a few screens ahead: the pictures are most of an HTML report's work, and
     each screen's are its own. Should a worker die (a crash in a picture library, or the kernel
@@ -528,7 +529,7 @@ def _articles(report: Report, head: Head) -> Iterator[str]:
     from tapgauge.pipeline import default_jobs
 
     numbered: Iterator[tuple[int, dict[str, Any]]] = enumerate(report.screens)
-    jobs = min(default_jobs(), report.summary["screens"])
+    jobs = min(jobs or default_jobs(), report.summary["screens"])
     if jobs < 2:
         yield from (_screen_html(k, scr, head) for k, scr in numbered)
         return
