@@ -29,7 +29,7 @@ class KindResult:
 
 @dataclass(frozen=True)
 class Kind:
-    run: Callable[[MeasuredScreen, Rule], KindResult]
+    run: Callable[[MeasuredScreen, Rule, bool], KindResult]  # (screen, rule, words): see check_screen
     params: dict[str, tuple[type, bool]]  # name -> (type, required)
     doc: str
     validate: Callable[[dict[str, object], str], str | None] = lambda params, unit: None  # -> error or None
@@ -57,7 +57,7 @@ def _unit(rule: Rule) -> str:
     return "mm" if rule.unit == "mm" else "platform"
 
 
-def check_min_size(m: MeasuredScreen, rule: Rule) -> KindResult:
+def check_min_size(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindResult:
     size = float(rule.param("size"))
     spacing = bool(dict(rule.params).get("spacing_exception", False))
     unit = display_unit(m, rule)
@@ -78,14 +78,15 @@ def check_min_size(m: MeasuredScreen, rule: Rule) -> KindResult:
         if spacing and conflict[pos] < 0:
             notes.append((pos, passes_note))
             continue
-        message = f"{_fmt(w[pos])} x {_fmt(h[pos])} {unit}, needs a {need} square"
-        if m.covers[pos]:
-            names = ", ".join(_who(m, o) for o in m.covers[pos][:3])
-            message += f"; {_fmt(measured[pos])} {unit} left beside {names} drawn over it"
-        other = None
-        if spacing:
-            message += f"; its {need} circle intersects {_who(m, conflict[pos])}"
-            other = m.screen.targets[m.checked[conflict[pos]]].number
+        other = m.screen.targets[m.checked[conflict[pos]]].number if spacing else None
+        message = ""
+        if words:
+            message = f"{_fmt(w[pos])} x {_fmt(h[pos])} {unit}, needs a {need} square"
+            if m.covers[pos]:
+                names = ", ".join(_who(m, o) for o in m.covers[pos][:3])
+                message += f"; {_fmt(measured[pos])} {unit} left beside {names} drawn over it"
+            if spacing:
+                message += f"; its {need} circle intersects {_who(m, conflict[pos])}"
         findings.append((pos, Finding(rule.id, rule.severity, measured[pos], size, unit, message, other=other)))
     return KindResult(tuple(findings), tuple(notes))
 
@@ -105,7 +106,7 @@ def _presumed_cover_notes(m: MeasuredScreen, rule: Rule, side: np.ndarray, size:
     return notes
 
 
-def check_min_gap(m: MeasuredScreen, rule: Rule) -> KindResult:
+def check_min_gap(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindResult:
     gap = float(rule.param("gap"))
     unit = display_unit(m, rule)
     boxes = m.boxes(_unit(rule))
@@ -122,10 +123,12 @@ def check_min_gap(m: MeasuredScreen, rule: Rule) -> KindResult:
     if len(positions):
         overlapping[positions] = intersection_areas(boxes[positions], boxes[who[positions]]) > 0
     measured, labels = np.round(nearest, 3).tolist(), m.labels
-    need = f"; needs {_fmt(gap)} {unit} clear"
+    need = f"; needs {_fmt(gap)} {unit} clear" if words else ""
     for pos in positions.tolist():
         d, other = gaps[pos], others[pos]
-        if d > EPS:
+        if not words:
+            where = ""
+        elif d > EPS:
             where = f"{_fmt(d)} {unit} from {labels[other]}"
         elif overlapping[pos]:
             where = f"overlaps {labels[other]}"
@@ -136,7 +139,7 @@ def check_min_gap(m: MeasuredScreen, rule: Rule) -> KindResult:
     return KindResult(tuple(findings))
 
 
-def check_max_miss(m: MeasuredScreen, rule: Rule) -> KindResult:
+def check_max_miss(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindResult:
     profile = find_profile(str(rule.param("profile")))
     limit = float(rule.param("max_miss"))
     boxes = m.boxes("mm")
@@ -146,7 +149,7 @@ def check_max_miss(m: MeasuredScreen, rule: Rule) -> KindResult:
     findings = [
         (pos, Finding(rule.id, rule.severity, round(misses[pos] * 100, 1), round(limit * 100, 1), "%",
                       f"predicted miss {misses[pos]:.0%} for {profile.id} on {_fmt(wl[pos])} x {_fmt(hl[pos])} mm; "
-                      f"limit {limit:.0%}"))
+                      f"limit {limit:.0%}" if words else ""))
         for pos in np.flatnonzero(miss > limit + EPS).tolist()
     ]
     return KindResult(tuple(findings))
@@ -200,7 +203,10 @@ def _sizes(m: MeasuredScreen) -> tuple[list[list[float]], list[list[float]] | No
     return in_unit, np.round(np.stack([w / dev.xdpi, h / dev.ydpi], axis=1) * MM_PER_INCH, 2).tolist()
 
 
-def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool) -> ScreenResult:
+def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool, words: bool = True) -> ScreenResult:
+    """Every rule of the rule sets that apply, on one measured screen. With `words` false the findings carry
+    no sentence (empty messages): for a re-check that asks only which rules fail, and for the JSON
+    report, which holds none."""
     notices: list[str] = [*m.screen.notices, *m.device.notices, *m.notices]
     applied: list[str] = []
     findings: dict[int, list[Finding]] = {}
@@ -218,7 +224,7 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
         for rule in rs.rules:
             if rule.id in skipped_mm:
                 continue
-            result = KINDS[rule.kind].run(m, rule)
+            result = KINDS[rule.kind].run(m, rule, words)
             for pos, f in result.findings:
                 findings.setdefault(pos, []).append(f)
             for pos, note in result.notes:

@@ -70,11 +70,13 @@ def check_one_screen(screen: Screen, device: Device, settings: Settings) -> Scre
     """One screen's stages after reading: measure, check, score, plan (the plan re-checks in memory)."""
     rulesets = list(settings.rulesets)
     measured = measure(screen, device, settings.measure)
-    scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips))
+    # The JSON report holds no sentences: a run that writes only it makes none.
+    words = not settings.document_only
+    scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips, words))
 
     def recheck(trial: Screen) -> tuple[MeasuredScreen, ScreenResult]:
         again = measure(trial, device, settings.measure)
-        return again, check_screen(again, rulesets, False)
+        return again, check_screen(again, rulesets, False, words=False)  # which rules fail is all it asks
 
     return plan_screen(measured, scored, rulesets, recheck)
 
