@@ -26,13 +26,13 @@ from tapgauge.model import Severity
 from tapgauge.readers.marked import MARKER_HUES, find_boxes
 from tapgauge.report.markers import knock_back_markers
 from tapgauge.report.overlay import (
-    _key_block,
     CIRCLE,
     INK,
     MARK_COLOURS,
     MARKS,
     PAPER,
     SQUARE,
+    _key_block,
     draw_overlay,
     overlay_name,
     picture_scale,
