@@ -192,7 +192,7 @@ def bench_screens(counts: list[int], targets: int, jobs: int, work: Path | None)
             files = make_corpus(folder, count, targets)
             out = Path(tmp) / "report.json"
             floor_cmd = [sys.executable, __file__, "floor", str(folder), "--jobs", str(jobs)]
-            tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", "json", "-o", str(out),
+            tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", "json", "-o", str(out), "--quiet",
                        "-j", str(jobs)]
             f, f_mem = run_measured(floor_cmd)
             t, t_mem = run_measured(tap_cmd)
