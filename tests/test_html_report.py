@@ -134,3 +134,17 @@ def test_the_report_is_the_same_every_run(tmp_path: Path) -> None:
                         "--quiet"], env={**os.environ, "PYTHONHASHSEED": seed}, timeout=300)
         texts.append(out.read_bytes())
     assert texts[0] == texts[1]
+
+
+def test_one_job_draws_the_pictures_in_the_process_itself(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    # --jobs 1 is one process for everything, pictures included: no pool may start.
+    import concurrent.futures
+
+    class NoPool:
+        def __init__(self, *args: object, **kwargs: object) -> None:
+            raise AssertionError("a process pool was started with --jobs 1")
+
+    monkeypatch.setattr(concurrent.futures, "ProcessPoolExecutor", NoPool)
+    out = tmp_path / "r.html"
+    assert main(["check", str(DEMO / "android"), "-f", "html", "-o", str(out), "-j", "1", "--quiet"]) == 1
+    assert out.read_text(encoding="utf-8").count("<article") >= 2

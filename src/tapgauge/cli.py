@@ -171,7 +171,8 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
                 r, out, width=width or (terminal_width() if output is None else 80),
                 color=output is None and sys.stdout.isatty(), difficulty=difficulty, show=show))
         else:
-            code = write_report(report, output, lambda r, out: writer(r, out, width=width), fmt in TOTALS_FIRST)
+            extra = {"jobs": run.jobs} if fmt == "html" else {}  # its pictures are drawn in as many processes
+            code = write_report(report, output, lambda r, out: writer(r, out, width=width, **extra), fmt in TOTALS_FIRST)
     if overlay_failed:
         say(f"{overlay}: cannot write overlay pictures: {overlay_failed[0]}")
         return EXIT_ERROR
