@@ -188,3 +188,38 @@ def test_a_touch_area_stops_at_the_keyboard(tmp_path: Path, capsys: pytest.Captu
     assert note["plan"]["kind"] == "grow"
     assert note["plan"]["bounds"][3] <= 599  # never under the keyboard
     assert note["plan"]["growth"]["bottom"] == 5.0 and note["plan"]["growth"]["top"] == 13.0
+
+
+def test_the_re_check_near_the_growth_finds_what_the_whole_screen_does(monkeypatch: pytest.MonkeyPatch) -> None:
+    # The plans' re-check checks only the targets near a growth (and what covers them): every plan,
+    # kept or withdrawn, must come out as a re-check of the whole screen makes it. Seeded layouts of
+    # 2-40 boxes anywhere on the screen, overlapping at times; with the three rule sets together some
+    # plans are withdrawn only because of a neighbour near the growth (a re-check that looked at no
+    # neighbour gets 2 of them wrong).
+    import random
+
+    import tapgauge.plan as plan_module
+    from conftest import screen_of
+    from tapgauge.device import resolve_device
+    from tapgauge.model import DeviceHints
+    from tapgauge.pipeline import Settings, check_one_screen
+    from tapgauge.rulesets import select_rulesets
+
+    settings_ = Settings(tuple(select_rulesets(["wcag-2.5.8", "android-guidance", "motor-mm"])))
+    near_part = plan_module._near_part
+    rng = random.Random(7)
+    checked = 0
+    for _ in range(120):
+        boxes = []
+        for _ in range(rng.randint(2, 40)):
+            x, y, w, h = rng.randint(0, 1000), rng.randint(0, 2200), rng.randint(10, 200), rng.randint(10, 200)
+            boxes.append((x, y, min(1080, x + w), min(2340, y + h)))
+        screen = screen_of(boxes)
+        for density in (420, 560):
+            device = resolve_device(screen, DeviceHints(density_dpi=density, xdpi=400.0, ydpi=400.0, source="test"))
+            monkeypatch.setattr(plan_module, "_near_part", near_part)
+            near = [t.plan for t in check_one_screen(screen, device, settings_).targets]
+            monkeypatch.setattr(plan_module, "_near_part", lambda again, grown, reach: again)  # the whole screen
+            assert near == [t.plan for t in check_one_screen(screen, device, settings_).targets], boxes
+            checked += sum(1 for p in near if p is not None)
+    assert checked > 1000

@@ -74,9 +74,9 @@ def check_one_screen(screen: Screen, device: Device, settings: Settings) -> Scre
     words = not settings.document_only
     scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips, words))
 
-    def recheck(trial: Screen) -> tuple[MeasuredScreen, ScreenResult]:
+    def recheck(trial: Screen, part: Callable[[MeasuredScreen], MeasuredScreen]) -> tuple[MeasuredScreen, ScreenResult]:
         again = measure(trial, device, settings.measure)
-        return again, check_screen(again, rulesets, False, words=False)  # which rules fail is all it asks
+        return again, check_screen(part(again), rulesets, False, words=False)  # which rules fail is all it asks
 
     return plan_screen(measured, scored, rulesets, recheck)
 

@@ -281,7 +281,69 @@ def _overlaps(m: MeasuredScreen, pairs: tuple[np.ndarray, np.ndarray] | None = N
     return {(numbers[a], numbers[b]) for a, b in zip(i.tolist(), j.tolist())}
 
 
-Recheck = Callable[[Screen], tuple[MeasuredScreen, ScreenResult]]
+# Measures a trial screen whole and checks the part of it that `part` keeps.
+Recheck = Callable[[Screen, Callable[[MeasuredScreen], MeasuredScreen]], tuple[MeasuredScreen, ScreenResult]]
+LOCAL_KINDS = ("min-size", "min-gap", "max-miss")  # rule kinds whose reach `_reach` knows
+
+
+def _reach(rulesets: list[RuleSet], m: MeasuredScreen) -> float:
+    """How far, in coordinates, a target's growth can change another target's findings: the widest
+    clear gap a rule asks for, or the widest circle of a spacing exception; infinite for a rule kind
+    whose reach is not known here."""
+    d = m.device
+    per_mm = max(d.xdpi or 0.0, d.ydpi or 0.0) / MM_PER_INCH
+    far = 0.0
+    for rs in rulesets:
+        for r in rs.rules:
+            if r.kind not in LOCAL_KINDS:
+                return float("inf")
+            params = dict(r.params)
+            if r.kind == "min-gap":
+                length = float(params["gap"])
+            elif r.kind == "min-size" and params.get("spacing_exception"):
+                length = float(params["size"])
+            else:
+                continue
+            far = max(far, length * (per_mm if r.unit == "mm" else d.coords_per_unit))
+    return far + 1.0
+
+
+def _near_part(again: MeasuredScreen, grown: list[np.ndarray], reach: float) -> MeasuredScreen:
+    """The re-measured screen with only the targets a growth can change checked: those within `reach`
+    of a grown box, and every target drawn over them; the rest are set aside.
+
+    What the re-check asks is which findings are new. Only a target near a growth can gain one, and
+    it keeps every neighbour that bears on it (all within `reach`, and what covers it); a target
+    left out can only lose findings (a nearest gap grows, a circle clears, a square frees up),
+    never gain one. So the new findings are the whole screen's, for a fraction of the checking."""
+    if not np.isfinite(reach) or not len(again.checked):
+        return again
+    boxes = np.asarray(again.boxes_px, dtype=float)
+    g = np.array(grown, dtype=float).reshape(-1, 4)
+    dx = np.maximum(boxes[:, None, 0] - g[None, :, 2], g[None, :, 0] - boxes[:, None, 2])
+    dy = np.maximum(boxes[:, None, 1] - g[None, :, 3], g[None, :, 1] - boxes[:, None, 3])
+    near = np.flatnonzero(((dx <= reach) & (dy <= reach)).any(axis=1)).tolist()
+    keep = set(near)
+    for p in near:
+        keep.update(again.covers[p])
+        if again.maybe_covers:
+            keep.update(again.maybe_covers[p])
+    if len(keep) == len(again.checked):
+        return again
+    kept = sorted(keep)
+    index = {p: i for i, p in enumerate(kept)}
+
+    def within(ps: tuple[int, ...]) -> tuple[int, ...]:
+        return tuple(index[q] for q in ps if q in index)
+
+    aside = [(k, "set aside in the plans' re-check") for p, k in enumerate(again.checked) if p not in index]
+    return MeasuredScreen(
+        screen=again.screen, device=again.device, checked=tuple(again.checked[p] for p in kept),
+        unchecked=tuple(sorted((*again.unchecked, *aside))), boxes_px=again.boxes_px[kept],
+        covers=tuple(within(again.covers[p]) for p in kept), clipped_by=tuple(again.clipped_by[p] for p in kept),
+        notices=again.notices,
+        maybe_covers=tuple(within(again.maybe_covers[p]) for p in kept) if again.maybe_covers else (),
+    )
 
 
 def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], recheck: Recheck) -> ScreenResult:
@@ -295,6 +357,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
     gaps = [float(r.param("gap")) for rs in applied for r in rs.rules if r.kind == "min-gap"]
     margin = max(gaps, default=0.0) * m.device.coords_per_unit
     before, overlapping = _findings(sr), _overlaps(m, pairs)
+    reach = _reach(applied, m)
     number = {n.pos: m.screen.targets[m.checked[n.pos]].number for n in needs}
     keep = {n.pos for n in needs if not n.overlaps}
     planned: dict[int, tuple[np.ndarray, str]] = {}
@@ -303,7 +366,8 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
         grown = {pos: box for pos, (box, why) in planned.items() if why.startswith("limits:")}
         if not grown:
             break
-        m2, sr2 = recheck(_apply(m.screen, m, grown))
+        boxes = list(grown.values())
+        m2, sr2 = recheck(_apply(m.screen, m, grown), lambda again: _near_part(again, boxes, reach))
         after = _findings(sr2)
         failed = {pos for pos in grown if any((number[pos], r) in after for r in _need(needs, pos).rules)}
         new = after - before
