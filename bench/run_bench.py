@@ -42,7 +42,6 @@ from multiprocessing import Pool
 from pathlib import Path
 
 from lxml import etree
-
 from timing import median_seconds
 
 from tapgauge.checks import check_screen

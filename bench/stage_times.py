@@ -25,15 +25,15 @@ from typing import Any
 from lxml import etree
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from run_bench import settings  # noqa: E402
+from run_bench import settings
 
-from tapgauge.checks import check_screen  # noqa: E402
-from tapgauge.device import resolve_device  # noqa: E402
-from tapgauge.measure import measure  # noqa: E402
-from tapgauge.pipeline import Settings, check_one_screen  # noqa: E402
-from tapgauge.readers import discover, read_screens  # noqa: E402
-from tapgauge.report.records import Checked, screen_record  # noqa: E402
-from tapgauge.waivers import waive_screen  # noqa: E402
+from tapgauge.checks import check_screen
+from tapgauge.device import resolve_device
+from tapgauge.measure import measure
+from tapgauge.pipeline import Settings, check_one_screen
+from tapgauge.readers import discover, read_screens
+from tapgauge.report.records import Checked, screen_record
+from tapgauge.waivers import waive_screen
 
 
 def best(fn: Callable[[], Any], repeat: int) -> tuple[float, Any]:

@@ -18,20 +18,24 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, replace
+from typing import Any, NamedTuple
 
 import numpy as np
 
 from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import as_boxes, candidate_pairs, intersection_areas
 from tapgauge.measure import MeasuredScreen
-from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target
+from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult
 
 SIDES = ("left", "top", "right", "bottom")
 EPS = 1e-6
 
 
-@dataclass(frozen=True)
-class Plan:
+Why = tuple[Any, ...]  # what a plan's sentence is made of: see Plan.why
+WITHDRAWN: Why = ("withdrawn",)
+
+
+class Plan(NamedTuple):
     """What to change for one failing target, in the source's coordinates and the platform unit."""
 
     kind: str  # "grow": a larger touch area; "move": no room where it is
@@ -45,7 +49,9 @@ class Plan:
     # none, and writing every plan's sentence cost a tenth of checking a batch to JSON.
     unit: str = ""
     k_unit: float = 1.0  # coordinates per unit
-    why: str = ""  # "limits:side=who;...", "short:axis:missing:low:high:room:room", "overlaps" or ""
+    # ("limits", ((side, who), ...)), ("short", axis, missing in coordinates, low limit, high limit),
+    # ("overlaps",) or ("withdrawn",)
+    why: Why = ("withdrawn",)
     overlaps: tuple[str, ...] = ()  # the targets it overlaps, named
 
     @property
@@ -160,7 +166,7 @@ def _spread(need: float, low: float, high: float) -> tuple[float, float] | None:
     return a, need - a
 
 
-def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int]) -> dict[int, tuple[np.ndarray, str]]:
+def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int]) -> dict[int, tuple[np.ndarray, Why]]:
     """Planned boxes (coordinates) per position for the needs in `keep`; or why there is no room.
 
     Per growing target, every other target is an obstacle on one axis (the one they are apart on,
@@ -181,7 +187,7 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
                          max(0.0, n.side[1] - (boxes[n.pos, 3] - boxes[n.pos, 1])))
     is_growing = np.zeros(len(all_t), dtype=bool)
     is_growing[list(growing)] = True
-    out: dict[int, tuple[np.ndarray, str]] = {}
+    out: dict[int, tuple[np.ndarray, Why]] = {}
     every = np.array(sorted(growing), dtype=int)
     # Growing targets against every obstacle, a block of rows at a time: (rows x obstacles) arrays,
     # so memory stays bounded on a screen of thousands of targets.
@@ -196,8 +202,8 @@ ROWS = 64  # growing targets planned together: 64 x 10,000 obstacles is a few MB
 
 def _plan_rows(m: MeasuredScreen, rows: np.ndarray, all_t: list[Target], obs: np.ndarray, windows: np.ndarray,
                numbers: list[int], boxes: np.ndarray, demand: np.ndarray, is_growing: np.ndarray,
-               margin: float) -> dict[int, tuple[np.ndarray, str]]:
-    out: dict[int, tuple[np.ndarray, str]] = {}
+               margin: float) -> dict[int, tuple[np.ndarray, Why]]:
+    out: dict[int, tuple[np.ndarray, Why]] = {}
     screen = m.screen
     box = boxes[rows][:, None, :]
     ob = obs[None, :, :]
@@ -260,13 +266,13 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, all_t: list[Target], obs: np
         if across is None or down is None:
             ax = 0 if across is None else 1
             short = need[ax] - room[ax] - room[ax + 2]
-            out[pos] = (here, f"short:{ax}:{short}:{limiter[ax]}:{limiter[ax + 2]}:{room[ax]}:{room[ax + 2]}")
+            out[pos] = (here, ("short", ax, short, limiter[ax], limiter[ax + 2]))
             continue
         growth = (across[0], down[0], across[1], down[1])
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
-        tight = [f"{name}={limiter[k].rstrip('*')}" for k, name in enumerate(SIDES)
-                 if limiter[k].startswith("#") and growth[k] > EPS and growth[k] >= room[k] - EPS]
-        out[pos] = (here + np.array([-across[0], -down[0], across[1], down[1]]), "limits:" + ";".join(tight))
+        tight = tuple((name, limiter[k].rstrip("*")) for k, name in enumerate(SIDES)
+                      if limiter[k].startswith("#") and growth[k] > EPS and growth[k] >= room[k] - EPS)
+        out[pos] = (here + np.array([-across[0], -down[0], across[1], down[1]]), ("limits", tight))
     return out
 
 
@@ -360,10 +366,10 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
     reach = _reach(applied, m)
     number = {n.pos: m.screen.targets[m.checked[n.pos]].number for n in needs}
     keep = {n.pos for n in needs if not n.overlaps}
-    planned: dict[int, tuple[np.ndarray, str]] = {}
+    planned: dict[int, tuple[np.ndarray, Why]] = {}
     while keep:
         planned = _plans(m, needs, margin, keep)
-        grown = {pos: box for pos, (box, why) in planned.items() if why.startswith("limits:")}
+        grown = {pos: box for pos, (box, why) in planned.items() if why[0] == "limits"}
         if not grown:
             break
         boxes = list(grown.values())
@@ -382,8 +388,8 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
         if not failed:
             break
         keep -= failed
-    return _attach(sr, m, {n.pos: (None, "overlaps") if n.overlaps else planned.get(n.pos, (None, "withdrawn"))
-                           if n.pos in keep else (None, "withdrawn") for n in needs}, {n.pos: n for n in needs})
+    return _attach(sr, m, {n.pos: (None, ("overlaps",)) if n.overlaps else planned.get(n.pos, (None, WITHDRAWN))
+                           if n.pos in keep else (None, WITHDRAWN) for n in needs}, {n.pos: n for n in needs})
 
 
 def _need(needs: list[_Need], pos: int) -> _Need:
@@ -412,7 +418,7 @@ def _fmt(v: float) -> str:
     return f"{round(v, 1):g}"
 
 
-def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[np.ndarray | None, str]],
+def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[np.ndarray | None, Why]],
             needs: dict[int, _Need]) -> ScreenResult:
     k_unit = m.device.coords_per_unit
     unit = m.device.unit
@@ -426,27 +432,28 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[np.nda
         box, why = planned[pos]
         old = boxes[pos].tolist()
         rules = needs[pos].rules
-        if box is not None and why.startswith("limits:"):
+        if box is not None and why[0] == "limits":
             new = box.tolist()
             growth = ((old[0] - new[0]) / k_unit, (old[1] - new[1]) / k_unit, (new[2] - old[2]) / k_unit,
                       (new[3] - old[3]) / k_unit)
             plan = Plan("grow", tuple(new), growth, rules, unit=unit, k_unit=k_unit, why=why)  # type: ignore[arg-type]
-        elif why == "overlaps":
+        elif why[0] == "overlaps":
             plan = Plan("move", tuple(old), (0.0, 0.0, 0.0, 0.0), rules, unit=unit, k_unit=k_unit,  # type: ignore[arg-type]
                         why=why, overlaps=needs[pos].overlaps)
         else:
             plan = _move(tuple(old), why, rules, k_unit, unit)
-        targets[k] = tr._replace(plan=plan)
+        targets[k] = TargetResult(tr.target, tr.status, tr.reason, tr.size_unit, tr.size_mm, tr.findings, tr.notes,
+                                  tr.difficulty, tr.approach, plan)  # built directly: _replace costs more
     return replace(sr, targets=tuple(targets))
 
 
 def _move(box: Box, why: str, rules: tuple[str, ...], k_unit: float, unit: str) -> Plan:
     """No room: how much is missing between the two limits on the tight axis, and the smallest move of a
     neighbour that opens it (moving the target itself between two fixed limits opens nothing)."""
-    if not why.startswith("short:"):
+    if why[0] != "short":
         return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, unit=unit, k_unit=k_unit, why=why)
-    _, axis_s, short_s, low, high, _, _ = why.split(":", 6)
-    axis, short = int(axis_s), float(short_s) / k_unit
+    _, axis, missing, low, high = why
+    short = missing / k_unit
     # A neighbour that also grows shares the room it opens: it must move twice as far.
     side = next(((lim, +1) for lim in (high,) if lim.startswith("#")), None) or \
         next(((lim, -1) for lim in (low,) if lim.startswith("#")), None)
@@ -466,22 +473,22 @@ def _sentence(p: Plan) -> str:
         parts = [f"{_fmt(g)} {unit} {name}" for g, name in zip(p.growth, SIDES) if g > 0.05]
         text = ("grow the touch area " + ", ".join(parts) + f" (to {_fmt((box[2] - box[0]) / p.k_unit)} x "
                 f"{_fmt((box[3] - box[1]) / p.k_unit)} {unit})") if parts else "no growth needed"
-        limits = [part.split("=") for part in p.why.removeprefix("limits:").split(";") if part]
+        limits = p.why[1]
         if limits:
             text += "; " + "; ".join(f"the {side} side is limited by {who}" for side, who in limits)
         return text
-    if p.why == "overlaps":
+    if p.why[0] == "overlaps":
         return f"it overlaps {', '.join(p.overlaps)}: part them first; no touch area passes while they overlap"
-    if not p.why.startswith("short:"):
+    if p.why[0] != "short":
         return ("no touch area that passes fits here without crowding a neighbour: move it apart from its "
                 "neighbours, or make room around it")
-    _, axis_s, _, low, high, _, _ = p.why.split(":", 6)
-    what = "across" if axis_s == "0" else "down"
+    _, axis, _, low, high = p.why
+    what = "across" if axis == 0 else "down"
     between = f"between {low.rstrip('*')} and {high.rstrip('*')}"
     if p.mover is None:
         return (f"no room to grow: {_fmt(p.missing)} {unit} missing {what} {between}; it cannot reach the minimum "
                 "there: give it a larger container or another place")
     dx, dy = p.move
-    word = ("right" if dx > 0 else "left") if axis_s == "0" else ("down" if dy > 0 else "up")
+    word = ("right" if dx > 0 else "left") if axis == 0 else ("down" if dy > 0 else "up")
     return (f"no room to grow: {_fmt(p.missing)} {unit} missing {what} {between}; move #{p.mover} "
             f"{_fmt(abs(dx) + abs(dy))} {unit} {word}, away from it, to make that room")
