@@ -373,7 +373,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
         if not grown:
             break
         boxes = list(grown.values())
-        m2, sr2 = recheck(_apply(m.screen, m, grown), lambda again: _near_part(again, boxes, reach))
+        m2, sr2 = recheck(_apply(m.screen, m, grown), lambda again, boxes=boxes: _near_part(again, boxes, reach))
         after = _findings(sr2)
         failed = {pos for pos in grown if any((number[pos], r) in after for r in _need(needs, pos).rules)}
         new = after - before
