@@ -5,6 +5,8 @@ from __future__ import annotations
 
 import json
 import math
+import os
+import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -118,3 +120,34 @@ def test_the_report_is_smaller_than_the_dumps(tmp_path: Path) -> None:
     report = json.loads(out.read_text())
     assert report["summary"]["targets"] == 400 and report["summary"]["fail"] > 200
     assert out.stat().st_size <= dumps
+
+
+@pytest.mark.document
+def test_waived_findings_keep_their_waiver_on_both_paths(tmp_path: Path) -> None:
+    # A project waiver (README "Waivers") on the demo's star buttons: workers writing the JSON text
+    # straight from the results and the whole-record path (taken when an overlay is drawn) agree,
+    # and each waived finding carries its reason, author and expiry.
+    screens = tmp_path / "screens"
+    screens.mkdir()
+    shutil.copy(DEMO / "android" / "plots.xml", screens / "plots.xml")
+    shutil.copy(DEMO / "android" / "plots.xml", screens / "plots2.xml")  # two files: the workers run
+    shutil.copy(DEMO / "android" / "device.txt", screens / "device.txt")
+    (screens / "tapgauge.toml").write_text(
+        '[[waivers]]\nscreen = "plots.xml"\ntarget = "id:org.fernwick.allotments:id/star"\n'
+        'rule = "android-guidance/*"\nreason = "Rating stars repeat the row\'s own tap target"\n'
+        'author = "Review, 2026-12"\nexpires = 2027-06-30\n', encoding="utf-8")
+    one, two = tmp_path / "one.json", tmp_path / "two.json"
+    cwd = os.getcwd()
+    os.chdir(screens)
+    try:
+        main(["check", ".", "-f", "json", "-o", str(one), "-j", "1", "--overlay", str(tmp_path / "o"), "--quiet",
+              "--today", "2026-12-02"])
+        main(["check", ".", "-f", "json", "-o", str(two), "-j", "2", "--quiet", "--today", "2026-12-02"])
+    finally:
+        os.chdir(cwd)
+    assert one.read_bytes() == two.read_bytes()
+    report = json.loads(two.read_text())
+    waived = [f["waiver"] for s in report["screens"] for t in s["targets"] for f in t["findings"] if "waiver" in f]
+    assert len(waived) == 4 and waived[0] == {"reason": "Rating stars repeat the row's own tap target",
+                                              "author": "Review, 2026-12", "expires": "2027-06-30"}
+    assert report["summary"]["exempt"] == 4  # the four stars of plots.xml; plots2.xml is not waived
