@@ -53,3 +53,22 @@ def test_json_lines_stream_even_when_nothing_was_read(tmp_path: Path, capsys: py
     (line,) = capsys.readouterr().out.splitlines()
     closing = json.loads(line)
     assert closing["summary"]["verdict"] == "nothing-compared"
+
+
+@pytest.mark.document
+def test_a_label_holding_line_separators_stays_on_its_line(tmp_path: Path) -> None:
+    # Labels come from apps: U+2028 and U+0085 are valid in XML and in JSON strings (RFC 8259 leaves
+    # them unescaped), and a line-by-line reader splits JSON Lines on "\n" only (jsonlines.org).
+    from conftest import dump_node, dump_xml
+
+    screens = tmp_path / "screens"
+    screens.mkdir()
+    for k in range(2):
+        (screens / f"s{k}.xml").write_text(dump_xml(dump_node(1, (0, 0, 300, 300), text="Plot\u2028B7\u0085 north")),
+                                           encoding="utf-8")
+    out = tmp_path / "r.jsonl"
+    main(["check", str(screens), "-f", "jsonl", "-o", str(out), "--density", "420", "--quiet"])
+    lines = out.read_text(encoding="utf-8").split("\n")
+    assert lines[-1] == "" and len(lines) == 4  # two screens, the closing line, the final newline
+    labels = [t["label"] for line in lines[:2] for t in json.loads(line)["targets"]]
+    assert labels == ["Plot\u2028B7\u0085 north"] * 2

@@ -18,7 +18,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from tapgauge.cli import main
-from tapgauge.jsontext import dumps, write_streamed
+from tapgauge.jsontext import dumps, write_lines_streamed, write_streamed
 from tapgauge.model import STATUSES, InputError, Severity
 from tapgauge.pipeline import Settings, iter_results
 from tapgauge.readers import discover
@@ -65,6 +65,26 @@ def test_streamed_document_is_the_whole_document(head: dict, items: list, tail: 
     out = io.StringIO()
     write_streamed(out, document, pairs if mapping else items, mapping=mapping)
     assert out.getvalue() == _stdlib(document(streamed, True)) + "\n"
+
+
+@settings(max_examples=150, deadline=None)
+@given(head=st.dictionaries(st.text(max_size=5), _values, max_size=3), items=st.lists(_values, max_size=5),
+       tail=_values, nested=st.booleans())
+def test_one_item_a_line_is_the_whole_document(head: dict, items: list, tail: object, nested: bool) -> None:
+    """The JSON report's form: the same JSON value as the document at once (oracle: the standard
+    library's parser), each item on a line of its own."""
+    def document(marker: object, final: bool) -> dict:
+        body = {"list": marker, "tail": tail if final else None}
+        inner = {"runs": [{"x": 1, **body}]} if nested else body
+        return {**{f"h{k}": v for k, v in head.items()}, **inner}
+
+    out = io.StringIO()
+    write_lines_streamed(out, document, (json.dumps(v, ensure_ascii=False) for v in items))
+    text = out.getvalue()
+    assert json.loads(text) == document(items, True) and text.endswith("\n")
+    lines = text.split("\n")[:-1]  # JSON Lines' separator; text may hold U+0085 or U+2028, which splitlines() splits on
+    assert len(lines) == (len(items) + 2 if items else 1)
+    assert [json.loads(line.rstrip(",")) for line in lines[1:-1]] == items
 
 
 def _record(path: str, statuses: list[str]) -> dict:
