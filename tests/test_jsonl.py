@@ -9,9 +9,9 @@ from pathlib import Path
 
 import jsonschema
 import pytest
+from conftest import DEMO
 from referencing import Registry, Resource
 
-from conftest import DEMO
 from tapgauge.cli import main
 
 
