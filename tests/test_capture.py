@@ -8,15 +8,11 @@ The recordings follow AOSP's own wording: WindowManagerShellCommand's `Physical 
 from __future__ import annotations
 
 import json
-import os
-import stat
-import sys
 from pathlib import Path
 
 import pytest
-from PIL import Image
+from fakeadb import install_adb
 
-from conftest import DEMO
 from tapgauge.cli import main
 
 FAKE_ADB = r'''#!{python}
@@ -32,36 +28,16 @@ out = sys.stdout.buffer
 if args == ["get-state"]:
     if mode == "offline":
         sys.stderr.write("error: device offline\n"); sys.exit(1)
-    out.write(b"unauthorized\n" if mode == "unauthorized" else b"device\n")
-elif args[:3] == ["shell", "uiautomator", "dump"]:
-    out.write(("UI hierchary dumped to: " + args[3] + "\n").encode())
-elif args[:2] == ["exec-out", "cat"]:
-    out.write(open(os.path.join(data, "dump.xml"), "rb").read())
-elif args == ["exec-out", "screencap", "-p"]:
-    out.write(open(os.path.join(data, "screen.png"), "rb").read())
-elif args == ["shell", "wm", "density"]:
-    out.write(b"Physical density: 440\n")
-elif args == ["shell", "wm", "size"]:
-    out.write(b"Physical size: 1080x2340\n")
-elif args == ["shell", "dumpsys", "display"]:
-    out.write(b"DISPLAY MANAGER (dumpsys display)\n  mDisplayDeviceInfo=DisplayDeviceInfo{\"Built-in Screen\": uniqueId=\"local:0\", 1080 x 2340, modeId 1, density 440, 409.432 x 411.891 dpi, type INTERNAL}\n  mBaseDisplayInfo=DisplayInfo{\"Built-in Screen\", displayId 0, real 1080 x 2340, rotation 0, density 440 (409.432 x 411.891) dpi}\n  mScreenState=ON\n")
-else:
-    sys.stderr.write("unexpected: %r\n" % args); sys.exit(2)
-'''
+    out.write(b"unauthorized\n" if mode == "unauthorized" else b"device\n")'''
+DISPLAY = ("DISPLAY MANAGER (dumpsys display)\n  mDisplayDeviceInfo=DisplayDeviceInfo{\"Built-in Screen\": "
+           "uniqueId=\"local:0\", 1080 x 2340, modeId 1, density 440, 409.432 x 411.891 dpi, type INTERNAL}\n"
+           "  mBaseDisplayInfo=DisplayInfo{\"Built-in Screen\", displayId 0, real 1080 x 2340, rotation 0, "
+           "density 440 (409.432 x 411.891) dpi}\n  mScreenState=ON\n")
 
 
 @pytest.fixture
 def fake_adb(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
-    bin_dir, data = tmp_path / "bin", tmp_path / "data"
-    bin_dir.mkdir()
-    data.mkdir()
-    exe = bin_dir / "adb"
-    exe.write_text(FAKE_ADB.replace("{python}", sys.executable))
-    exe.chmod(exe.stat().st_mode | stat.S_IEXEC)
-    (data / "dump.xml").write_bytes((DEMO / "android" / "plots.xml").read_bytes())
-    Image.new("RGB", (1080, 2340), (250, 250, 250)).save(data / "screen.png")
-    monkeypatch.setenv("PATH", f"{bin_dir}{os.pathsep}{os.environ['PATH']}")
-    monkeypatch.setenv("FAKE_ADB_DATA", str(data))
+    install_adb(tmp_path, monkeypatch, FAKE_ADB, DISPLAY)
     return tmp_path
 
 

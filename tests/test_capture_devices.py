@@ -15,15 +15,11 @@ Serials and devices are invented.
 
 from __future__ import annotations
 
-import os
-import stat
-import sys
 from pathlib import Path
 
 import pytest
-from PIL import Image
+from fakeadb import install_adb
 
-from conftest import DEMO
 from tapgauge.capture import Listed, choose_device, parse_devices
 from tapgauge.cli import main
 
@@ -45,22 +41,9 @@ if args[1] not in ready:
 args = args[2:]
 data = os.environ["FAKE_ADB_DATA"]
 if args == ["get-state"]:
-    out.write(b"device\n")
-elif args[:3] == ["shell", "uiautomator", "dump"]:
-    out.write(("UI hierchary dumped to: " + args[3] + "\n").encode())
-elif args[:2] == ["exec-out", "cat"]:
-    out.write(open(os.path.join(data, "dump.xml"), "rb").read())
-elif args == ["exec-out", "screencap", "-p"]:
-    out.write(open(os.path.join(data, "screen.png"), "rb").read())
-elif args == ["shell", "wm", "density"]:
-    out.write(b"Physical density: 440\n")
-elif args == ["shell", "wm", "size"]:
-    out.write(b"Physical size: 1080x2340\n")
-elif args == ["shell", "dumpsys", "display"]:
-    out.write(b"  mBaseDisplayInfo=DisplayInfo{\"Built-in Screen\", displayId 0, real 1080 x 2340, rotation 0, density 440 (409.432 x 411.891) dpi}\n")
-else:
-    sys.stderr.write("unexpected: %r\n" % args); sys.exit(2)
-'''
+    out.write(b"device\n")'''
+DISPLAY = ("  mBaseDisplayInfo=DisplayInfo{\"Built-in Screen\", displayId 0, real 1080 x 2340, rotation 0, "
+           "density 440 (409.432 x 411.891) dpi}\n")
 
 HEAD = "List of devices attached\n"
 
@@ -68,16 +51,7 @@ HEAD = "List of devices attached\n"
 @pytest.fixture
 def adb(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
     """A stand-in adb on PATH; returns the log of the commands it was given."""
-    bin_dir, data = tmp_path / "bin", tmp_path / "data"
-    bin_dir.mkdir()
-    data.mkdir()
-    exe = bin_dir / "adb"
-    exe.write_text(FAKE_ADB.replace("{python}", sys.executable))
-    exe.chmod(exe.stat().st_mode | stat.S_IEXEC)
-    (data / "dump.xml").write_bytes((DEMO / "android" / "plots.xml").read_bytes())
-    Image.new("RGB", (1080, 2340), (250, 250, 250)).save(data / "screen.png")
-    monkeypatch.setenv("PATH", f"{bin_dir}{os.pathsep}{os.environ['PATH']}")
-    monkeypatch.setenv("FAKE_ADB_DATA", str(data))
+    install_adb(tmp_path, monkeypatch, FAKE_ADB, DISPLAY)
     monkeypatch.setenv("FAKE_ADB_LOG", str(tmp_path / "adb.log"))
     return tmp_path / "adb.log"
 
