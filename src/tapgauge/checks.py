@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -33,6 +34,9 @@ class Kind:
     params: dict[str, tuple[type, bool]]  # name -> (type, required)
     doc: str
     validate: Callable[[dict[str, object], str], str | None] = lambda params, unit: None  # -> error or None
+    # How far from a target, in the rule's unit, another target can change this rule's finding on it
+    # (the fix plans' re-check looks no farther); None: not known, look at the whole screen.
+    reach: Callable[[dict[str, Any]], float] | None = None
 
 
 def _fmt(v: float) -> str:
@@ -175,12 +179,14 @@ KINDS: dict[str, Kind] = {
         "A size x size square must fit in the part of the target not covered by targets drawn over it. "
         "With spacing_exception, an undersized target still passes when a circle of diameter `size` on "
         "its centre intersects no other target and no other undersized target's circle (WCAG 2.2 SC 2.5.8).",
+        reach=lambda params: float(params["size"]) if params.get("spacing_exception") else 0.0,  # circles' diameter
     ),
     "min-gap": Kind(
         check_min_gap,
         {"gap": (float, True), "exempt_at_size": (float, False)},
         "The edge-to-edge distance to the nearest other target (not nested in it) must be at least `gap`. "
         "With exempt_at_size, a target in which a square of that size fits is not failed.",
+        reach=lambda params: float(params["gap"]),
     ),
     "max-miss": Kind(
         check_max_miss,
@@ -188,6 +194,7 @@ KINDS: dict[str, Kind] = {
         "The predicted probability of missing the target (dual-Gaussian endpoint model, centred aim, "
         "the named slope profile) must not exceed `max_miss`. Needs the physical ppi.",
         _validate_max_miss,
+        reach=lambda params: 0.0,  # the target's own size
     ),
 }
 

@@ -22,6 +22,7 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
+from tapgauge.checks import KINDS
 from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import as_boxes, candidate_pairs, intersection_areas
 from tapgauge.measure import MeasuredScreen
@@ -289,28 +290,20 @@ def _overlaps(m: MeasuredScreen, pairs: tuple[np.ndarray, np.ndarray] | None = N
 
 # Measures a trial screen whole and checks the part of it that `part` keeps.
 Recheck = Callable[[Screen, Callable[[MeasuredScreen], MeasuredScreen]], tuple[MeasuredScreen, ScreenResult]]
-LOCAL_KINDS = ("min-size", "min-gap", "max-miss")  # rule kinds whose reach `_reach` knows
 
 
 def _reach(rulesets: list[RuleSet], m: MeasuredScreen) -> float:
-    """How far, in coordinates, a target's growth can change another target's findings: the widest
-    clear gap a rule asks for, or the widest circle of a spacing exception; infinite for a rule kind
-    whose reach is not known here."""
+    """How far, in coordinates, a target's growth can change another target's findings: the most any
+    rule kind says it reaches (checks.Kind.reach); infinite for a kind that does not say."""
     d = m.device
     per_mm = max(d.xdpi or 0.0, d.ydpi or 0.0) / MM_PER_INCH
     far = 0.0
     for rs in rulesets:
         for r in rs.rules:
-            if r.kind not in LOCAL_KINDS:
+            reach = KINDS[r.kind].reach
+            if reach is None:
                 return float("inf")
-            params = dict(r.params)
-            if r.kind == "min-gap":
-                length = float(params["gap"])
-            elif r.kind == "min-size" and params.get("spacing_exception"):
-                length = float(params["size"])
-            else:
-                continue
-            far = max(far, length * (per_mm if r.unit == "mm" else d.coords_per_unit))
+            far = max(far, reach(dict(r.params)) * (per_mm if r.unit == "mm" else d.coords_per_unit))
     return far + 1.0
 
 
