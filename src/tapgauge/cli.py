@@ -142,7 +142,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
         write_report,
     )
     from tapgauge.model import Severity
-    from tapgauge.report import TOTALS_FIRST, writer_for
+    from tapgauge.report import DOCUMENT_ONLY, TOTALS_FIRST, writer_for
     from tapgauge.report.records import EXIT_ERROR
 
     try:
@@ -163,7 +163,7 @@ def _check(paths: list[Path], rules: str | None, density: str | None, scale: str
         return run
     overlay_failed: list[str] = []
     with interruptible(), progress() as tick:
-        report = run.report(paths, tick, document_only=fmt in ("json", "jsonl") and overlay is None)
+        report = run.report(paths, tick, document_only=fmt in DOCUMENT_ONLY and overlay is None)
         if overlay is not None:
             report.observe(overlay_observer(report, overlay, overlay_failed))
         if fmt == "table":

@@ -25,6 +25,7 @@ WRITERS: dict[str, tuple[str, str]] = {
     "html": ("tapgauge.report.html", "write_html"),
 }
 TOTALS_FIRST = frozenset({"junit", "md", "html"})
+DOCUMENT_ONLY = frozenset({"json", "jsonl"})  # need nothing but each screen's JSON report text
 
 
 def writer_for(name: str) -> Writer:
@@ -36,4 +37,4 @@ def writer_for(name: str) -> Writer:
     return writer
 
 
-__all__ = ["TOTALS_FIRST", "WRITERS", "writer_for"]
+__all__ = ["DOCUMENT_ONLY", "TOTALS_FIRST", "WRITERS", "writer_for"]

@@ -231,7 +231,7 @@ class Checked:
     the record only when asked for, so a run that never needs one never pays for it.
     """
 
-    __slots__ = ("_doc", "_doc_only", "_record", "_text", "totals", "waived")
+    __slots__ = ("_doc", "_record", "_text", "totals", "waived")
 
     def __init__(self, text: str | None, totals: Totals, waived: tuple[int, ...] = (),
                  record: dict[str, Any] | None = None, doc: str | None = None) -> None:
@@ -242,7 +242,6 @@ class Checked:
         self.waived = waived
         self._record = record
         self._doc = doc
-        self._doc_only = text is None and record is None
 
     @classmethod
     def of(cls, record: dict[str, Any], waived: tuple[int, ...] = ()) -> Checked:
@@ -252,6 +251,10 @@ class Checked:
     def document_of(cls, sr: ScreenResult, waived: tuple[int, ...] = ()) -> Checked:
         """The screen as its JSON report text only, made straight from its results (no record)."""
         return cls(None, result_totals(sr), waived, None, orjson.dumps(screen_record(sr, document=True)).decode("utf-8"))
+
+    @property
+    def _doc_only(self) -> bool:  # made by document_of: the text of the JSON report and nothing else
+        return self._text is None and self._record is None
 
     @property
     def text(self) -> str:
