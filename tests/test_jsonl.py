@@ -58,7 +58,8 @@ def test_json_lines_stream_even_when_nothing_was_read(tmp_path: Path, capsys: py
 @pytest.mark.document
 def test_a_label_holding_line_separators_stays_on_its_line(tmp_path: Path) -> None:
     # Labels come from apps: U+2028 and U+0085 are valid in XML and in JSON strings (RFC 8259 leaves
-    # them unescaped), and a line-by-line reader splits JSON Lines on "\n" only (jsonlines.org).
+    # them unescaped: only U+0000-U+001F, quote and backslash must be escaped), and a line-by-line reader
+    # splits JSON Lines on "\n" only (jsonlines.org); both from memory.
     from conftest import dump_node, dump_xml
 
     screens = tmp_path / "screens"

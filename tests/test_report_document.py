@@ -19,7 +19,7 @@ from tapgauge.report.document import (
     screen_document as to_document,  # bound before any test patches it
 )
 
-MM_PER_INCH = 25.4  # the inch, by definition (international yard and pound agreement, 1959)
+MM_PER_INCH = 25.4  # the inch, by definition (international yard and pound agreement, 1959; from memory)
 
 
 def _json(argv: list[str], capsys: pytest.CaptureFixture[str]) -> dict:

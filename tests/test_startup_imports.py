@@ -16,7 +16,8 @@ from tapgauge.rulesets import DEFAULT_RULESETS
 
 
 def _imported(*argv: str) -> set[str]:
-    # `python -X importtime` lists every module imported, one line each, on stderr (CPython docs, "-X importtime").
+    # `python -X importtime` lists every module imported, one line each, on stderr (CPython docs, "-X importtime",
+    # from memory).
     out = subprocess.run([sys.executable, "-X", "importtime", "-m", "tapgauge", *argv], capture_output=True,
                          text=True, timeout=120)
     return {m.group(1).strip() for m in re.finditer(r"^import time:.*\|\s*(\S+)\s*$", out.stderr, re.MULTILINE)}
