@@ -10,6 +10,7 @@ import sys
 from pathlib import Path
 
 from conftest import DEMO
+
 from tapgauge.cli import main
 from tapgauge.profiles import DEFAULT_PROFILES
 from tapgauge.rulesets import DEFAULT_RULESETS
@@ -18,7 +19,7 @@ from tapgauge.rulesets import DEFAULT_RULESETS
 def _imported(*argv: str) -> set[str]:
     # `python -X importtime` lists every module imported, one line each, on stderr (CPython docs, "-X importtime",
     # from memory).
-    out = subprocess.run([sys.executable, "-X", "importtime", "-m", "tapgauge", *argv], capture_output=True,
+    out = subprocess.run([sys.executable, "-X", "importtime", "-m", "tapgauge", *argv], capture_output=True, check=False,
                          text=True, timeout=120)
     return {m.group(1).strip() for m in re.finditer(r"^import time:.*\|\s*(\S+)\s*$", out.stderr, re.MULTILINE)}
 
