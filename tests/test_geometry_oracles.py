@@ -51,6 +51,27 @@ def test_candidate_pairs_find_every_pair_within_reach(boxes: np.ndarray, reach: 
                 assert (a, b) in found
 
 
+@settings(max_examples=150, deadline=None)
+@given(layouts(max_boxes=140), st.integers(min_value=0, max_value=30), st.integers(min_value=0, max_value=30),
+       st.sampled_from([(1.0, 1.0), (2.625, 2.625), (3.0, 3.0), (17.2, 16.9)]))
+def test_pairs_picked_from_a_wider_search_match_a_search_of_their_own(
+        boxes: np.ndarray, reach: int, wider: int, per: tuple[float, float]) -> None:
+    """A screen's one pair search is made in coordinates as wide as its widest rule; each rule picks its pairs
+    from it in its own unit (dp: the same scale both ways; mm: xdpi and ydpi differ). The pick must be the
+    pairs a search of its own finds, in the same order, and those hold every pair shapely puts within reach."""
+    kx, ky = per
+    in_unit = boxes / np.array([kx, ky, kx, ky])
+    among = candidate_pairs(boxes, (reach + wider) * max(kx, ky) * (1 + 1e-6) + 1e-6)
+    own, picked = candidate_pairs(in_unit, reach), candidate_pairs(in_unit, reach, among)
+    assert np.array_equal(own[0], picked[0]) and np.array_equal(own[1], picked[1])
+    found = set(zip(picked[0].tolist(), picked[1].tolist()))
+    polys = [box(*b) for b in in_unit]
+    for a in range(len(in_unit)):
+        for b in range(a + 1, len(in_unit)):
+            if polys[a].distance(polys[b]) <= reach - 1e-9:
+                assert (a, b) in found
+
+
 @settings(max_examples=25, deadline=None)
 @given(layouts(max_boxes=140, min_boxes=SMALL + 1), st.integers(min_value=0, max_value=30))
 def test_grid_broad_phase_matches_shapely_on_larger_screens(boxes: np.ndarray, reach: int) -> None:

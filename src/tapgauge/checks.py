@@ -16,7 +16,7 @@ from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import EPS, intersection_areas, nearest_gaps, sizes, spacing_conflicts
 from tapgauge.measure import MeasuredScreen
 from tapgauge.difficulty import hit_probability
-from tapgauge.model import Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult
+from tapgauge.model import Device, Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult
 from tapgauge.profiles import find_profile
 
 PLATFORM_UNITS = ("dp", "pt")  # both mean "the platform's density-independent unit"
@@ -68,7 +68,8 @@ def check_min_size(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindRes
     boxes = m.boxes(_unit(rule))
     side = m.free_squares(_unit(rule))
     under = side < size - EPS
-    conflicts = spacing_conflicts(boxes, under, size) if spacing else np.full(len(side), -1)
+    conflicts = (spacing_conflicts(boxes, under, size, m.pairs(_unit(rule), size)) if spacing and under.any()
+                 else np.full(len(side), -1))
     findings: list[tuple[int, Finding]] = []
     notes: list[tuple[int, str]] = []
     # Plain Python numbers from here on: formatting numpy scalars one by one is slow.
@@ -114,7 +115,7 @@ def check_min_gap(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindResu
     gap = float(rule.param("gap"))
     unit = display_unit(m, rule)
     boxes = m.boxes(_unit(rule))
-    nearest, who = nearest_gaps(boxes, gap)
+    nearest, who = nearest_gaps(boxes, gap, m.pairs(_unit(rule), gap))
     failing = nearest < gap - EPS
     exempt_at = dict(rule.params).get("exempt_at_size")
     if exempt_at is not None:
@@ -197,6 +198,20 @@ KINDS: dict[str, Kind] = {
         reach=lambda params: 0.0,  # the target's own size
     ),
 }
+
+
+def reach(rulesets: list[RuleSet], device: Device) -> float:
+    """How far, in coordinates, the rules look from a target for the neighbours that bear on its
+    findings: the most any rule's kind says (Kind.reach); infinite where a kind does not say."""
+    per_mm = max(device.xdpi or 0.0, device.ydpi or 0.0) / MM_PER_INCH
+    far = 0.0
+    for rs in rulesets:
+        for r in rs.rules:
+            kind_reach = KINDS[r.kind].reach
+            if kind_reach is None:
+                return float("inf")
+            far = max(far, kind_reach(dict(r.params)) * (per_mm if r.unit == "mm" else device.coords_per_unit))
+    return far
 
 
 def _sizes(m: MeasuredScreen) -> tuple[list[list[float]], list[list[float]] | None]:

@@ -15,7 +15,9 @@ import numpy as np
 from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import (
     FloatArray,
+    Pairs,
     as_boxes,
+    candidate_pairs,
     largest_free_square,
     one_cover_squares,
     scale_boxes,
@@ -49,6 +51,9 @@ class MeasuredScreen:
     notices: tuple[str, ...] = ()  # what measuring found worth saying of the whole screen
     # per checked target: positions presumed drawn over it (document order only, no drawing-order)
     maybe_covers: tuple[tuple[int, ...], ...] = ()
+    # The screen's one pair search (geometry.candidate_pairs), as far as the rules reach: (reach in
+    # coordinates, pairs). Every later search within that reach picks its pairs from it.
+    near: tuple[float, Pairs] | None = None
     # Derived arrays, computed once per unit: several rules ask for the same ones.
     _derived: dict[tuple[str, str], FloatArray] = field(default_factory=dict, repr=False)
     _labels: list[str] = field(default_factory=list, repr=False)
@@ -81,6 +86,21 @@ class MeasuredScreen:
                 side[redo] = free_sides(self.boxes(unit), tuple(both))[redo]
             self._derived[key] = side
         return self._derived[key]
+
+    def pairs(self, unit: str, reach: float) -> Pairs:
+        """candidate_pairs of the checked boxes in `unit` ("px": coordinates) within `reach` of that unit."""
+        boxes = self.boxes_px if unit == "px" else self.boxes(unit)
+        if self.near is not None:
+            if unit == "px":
+                per = 1.0
+            elif unit == "mm":
+                per = max(self.device.xdpi or 0.0, self.device.ydpi or 0.0) / MM_PER_INCH
+            else:
+                per = self.device.coords_per_unit
+            far, among = self.near
+            if reach * per <= far:
+                return candidate_pairs(boxes, reach, among)
+        return candidate_pairs(boxes, reach)
 
     @property
     def labels(self) -> list[str]:
@@ -163,7 +183,10 @@ def _role_reason(role: str, package: str) -> str:
     return f"in another app's window (package {package or 'unknown'}), not this app's target (--all-windows checks it)"
 
 
-def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOptions()) -> MeasuredScreen:
+def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOptions(),
+            reach: float = 0.0) -> MeasuredScreen:
+    """`reach`: how far (in coordinates) the rules to come look for neighbours (checks.reach): the one
+    pair search is made that wide, for every rule to pick from."""
     targets = screen.targets
     unchecked: dict[int, str] = {}
     clipped: dict[int, str] = {}
@@ -208,7 +231,9 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
         notices.append(f"none of the {len(targets)} targets on this screen was checked ({'; '.join(reasons[:3])}"
                        f"{'; ...' if len(reasons) > 3 else ''}): nothing on it was compared")
     boxes = as_boxes([targets[k].bounds for k in checked])
-    pairs = cover_pairs(boxes, [targets[k] for k in checked], roles)
+    # Searched a hair wider than `reach`, so a rule's search in its unit's (rounded) boxes falls within it.
+    near = (reach, candidate_pairs(boxes, reach * (1 + 1e-6) + 1e-6)) if np.isfinite(reach) else None
+    pairs = cover_pairs(boxes, [targets[k] for k in checked], roles, near[1] if near else None)
     covers: list[list[int]] = [[] for _ in checked]
     maybe: list[list[int]] = [[] for _ in checked]
     for u, o, known in zip(pairs.under.tolist(), pairs.over.tolist(), pairs.known.tolist()):
@@ -223,6 +248,7 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
         clipped_by=tuple(_clipped(targets[k], clipped.get(k, ""), roles, screen) for k in checked),
         notices=tuple(notices),
         maybe_covers=tuple(tuple(sorted(c)) for c in maybe),
+        near=near,
     )
 
 

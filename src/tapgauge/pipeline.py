@@ -16,7 +16,7 @@ from itertools import chain, islice
 from pathlib import Path
 from typing import TYPE_CHECKING, TypeVar
 
-from tapgauge.checks import check_screen
+from tapgauge.checks import check_screen, reach
 from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
 from tapgauge.measure import MeasuredScreen, MeasureOptions, measure
@@ -69,13 +69,14 @@ def check_file(path: Path, settings: Settings) -> list[ScreenResult]:
 def check_one_screen(screen: Screen, device: Device, settings: Settings) -> ScreenResult:
     """One screen's stages after reading: measure, check, score, plan (the plan re-checks in memory)."""
     rulesets = list(settings.rulesets)
-    measured = measure(screen, device, settings.measure)
+    near = reach(rulesets, device)  # one pair search per screen, as wide as the rules look
+    measured = measure(screen, device, settings.measure, near)
     # The JSON report holds no sentences: a run that writes only it makes none.
     words = not settings.document_only
     scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips, words))
 
     def recheck(trial: Screen, part: Callable[[MeasuredScreen], MeasuredScreen]) -> tuple[MeasuredScreen, ScreenResult]:
-        again = measure(trial, device, settings.measure)
+        again = measure(trial, device, settings.measure, near)
         return again, check_screen(part(again), rulesets, False, words=False)  # which rules fail is all it asks
 
     return plan_screen(measured, scored, rulesets, recheck)

@@ -22,9 +22,9 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
-from tapgauge.checks import KINDS
+from tapgauge.checks import reach as rules_reach
 from tapgauge.device import MM_PER_INCH
-from tapgauge.geometry import as_boxes, candidate_pairs, intersection_areas
+from tapgauge.geometry import as_boxes, intersection_areas
 from tapgauge.measure import MeasuredScreen
 from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult
 
@@ -115,7 +115,7 @@ def _overlap_pairs(m: MeasuredScreen) -> tuple[np.ndarray, np.ndarray]:
     """Positions (i < j) of checked boxes that overlap by some area: the checks' own pair search,
     so a screen of thousands of targets never builds an n x n matrix."""
     boxes = as_boxes(m.boxes_px)
-    i, j = candidate_pairs(boxes, 0.0)
+    i, j = m.pairs("px", 0.0)
     keep = intersection_areas(boxes[i], boxes[j]) > EPS
     return i[keep], j[keep]
 
@@ -293,18 +293,9 @@ Recheck = Callable[[Screen, Callable[[MeasuredScreen], MeasuredScreen]], tuple[M
 
 
 def _reach(rulesets: list[RuleSet], m: MeasuredScreen) -> float:
-    """How far, in coordinates, a target's growth can change another target's findings: the most any
-    rule kind says it reaches (checks.Kind.reach); infinite for a kind that does not say."""
-    d = m.device
-    per_mm = max(d.xdpi or 0.0, d.ydpi or 0.0) / MM_PER_INCH
-    far = 0.0
-    for rs in rulesets:
-        for r in rs.rules:
-            reach = KINDS[r.kind].reach
-            if reach is None:
-                return float("inf")
-            far = max(far, reach(dict(r.params)) * (per_mm if r.unit == "mm" else d.coords_per_unit))
-    return far + 1.0
+    """How far, in coordinates, a target's growth can change another target's findings (checks.reach),
+    and a coordinate more."""
+    return rules_reach(rulesets, m.device) + 1.0
 
 
 def _near_part(again: MeasuredScreen, grown: list[np.ndarray], reach: float) -> MeasuredScreen:
@@ -336,12 +327,21 @@ def _near_part(again: MeasuredScreen, grown: list[np.ndarray], reach: float) -> 
         return tuple(index[q] for q in ps if q in index)
 
     aside = [(k, "set aside in the plans' re-check") for p, k in enumerate(again.checked) if p not in index]
+    near = None
+    if again.near is not None:  # the pair search, kept to the pairs within the part, renumbered
+        far, (i, j) = again.near
+        renumber = np.full(len(again.checked), -1, dtype=np.intp)
+        renumber[kept] = np.arange(len(kept))
+        a, b = renumber[i], renumber[j]
+        both = (a >= 0) & (b >= 0)
+        near = (far, (a[both], b[both]))
     return MeasuredScreen(
         screen=again.screen, device=again.device, checked=tuple(again.checked[p] for p in kept),
         unchecked=tuple(sorted((*again.unchecked, *aside))), boxes_px=again.boxes_px[kept],
         covers=tuple(within(again.covers[p]) for p in kept), clipped_by=tuple(again.clipped_by[p] for p in kept),
         notices=again.notices,
         maybe_covers=tuple(within(again.maybe_covers[p]) for p in kept) if again.maybe_covers else (),
+        near=near,
     )
 
 

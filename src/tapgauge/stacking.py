@@ -21,7 +21,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from tapgauge.geometry import FloatArray, IntArray, candidate_pairs, contains, intersection_areas
+from tapgauge.geometry import FloatArray, IntArray, Pairs, candidate_pairs, contains, intersection_areas
 from tapgauge.model import Box, Screen, Target, Window
 
 # AOSP's status and navigation bars live in this package (the SystemUI app of the platform source).
@@ -134,9 +134,11 @@ class Covers(NamedTuple):
     known: np.ndarray
 
 
-def cover_pairs(boxes: FloatArray, targets: list[Target], roles: tuple[WindowRole, ...]) -> Covers:
-    """Every pair of overlapping boxes, which one is on top, and whether that is known or presumed."""
-    i, j = candidate_pairs(boxes, 0.0)
+def cover_pairs(boxes: FloatArray, targets: list[Target], roles: tuple[WindowRole, ...],
+                among: Pairs | None = None) -> Covers:
+    """Every pair of overlapping boxes, which one is on top, and whether that is known or presumed.
+    `among`: as in candidate_pairs."""
+    i, j = candidate_pairs(boxes, 0.0, among)
     if len(i):
         keep = intersection_areas(boxes[i], boxes[j]) > 0
         i, j = i[keep], j[keep]
