@@ -21,7 +21,14 @@ from typing import NamedTuple
 
 import numpy as np
 
-from tapgauge.geometry import FloatArray, IntArray, Pairs, candidate_pairs, contains, intersection_areas
+from tapgauge.geometry import (
+    FloatArray,
+    IntArray,
+    Pairs,
+    candidate_pairs,
+    contains,
+    intersection_areas,
+)
 from tapgauge.model import Box, Screen, Target, Window
 
 # AOSP's status and navigation bars live in this package (the SystemUI app of the platform source).
