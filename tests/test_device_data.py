@@ -286,3 +286,13 @@ def test_android_device_line_gives_ppi_as_given_even_turned(tmp_path: Path,
                     "409.432 x 411.891 ppi (sidecar device.txt)")
     line = _device_line([str(tmp_path / "settings_landscape.xml"), "--ppi", "400"], capsys)
     assert line.endswith("; 400 ppi (command line)")
+
+
+def test_a_sidecar_rewritten_in_place_is_read_anew(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """A folder's sidecar is parsed once for all its screens: a rewrite of the same length, in the same
+    clock tick, must still be read as it now says (`wm density` wording as in the module docstring)."""
+    screen = _android(tmp_path, "Physical density: 440\n")
+    _, first, _ = _json([str(screen), "--rules", "android-guidance"], capsys)
+    (tmp_path / "a" / "device.txt").write_text("Physical density: 480\n", encoding="utf-8")
+    _, second, _ = _json([str(screen), "--rules", "android-guidance"], capsys)
+    assert [r["screens"][0]["device"]["density_dpi"] for r in (first, second)] == [440, 480]

@@ -49,6 +49,8 @@ class DeviceDefaults:
     fallback: DeviceHints = DeviceHints()
 
     def for_path(self, path: Path) -> DeviceHints:
+        if not self.patterns:
+            return self.fallback
         rel = relative_to_base(path, self.base)
         return next((p.hints for p in self.patterns if fnmatch.fnmatchcase(rel, p.pattern)), self.fallback)
 

@@ -9,6 +9,7 @@ naming the sidecar and its line.
 
 from __future__ import annotations
 
+import functools
 from pathlib import Path
 
 from tapgauge.device import DeviceTextError, parse_device_text
@@ -35,7 +36,14 @@ def _decode(data: bytes) -> str:
 
 
 def read_sidecar(path: Path) -> DeviceHints:
-    text = _decode(read_bytes(path, "device sidecar"))
+    """The hints a sidecar gives. A folder's `device.txt` serves every screen in it: it is read for each,
+    but parsed once for as long as it says the same."""
+    return _parsed(path, read_bytes(path, "device sidecar"))
+
+
+@functools.lru_cache(maxsize=64)
+def _parsed(path: Path, data: bytes) -> DeviceHints:
+    text = _decode(data)
     try:
         hints = parse_device_text(text, source=f"sidecar {path.name}")
     except DeviceTextError as exc:
