@@ -223,3 +223,37 @@ def test_the_re_check_near_the_growth_finds_what_the_whole_screen_does(monkeypat
             assert near == [t.plan for t in check_one_screen(screen, device, settings_).targets], boxes
             checked += sum(1 for p in near if p is not None)
     assert checked > 1000
+
+
+def test_the_re_check_fails_exactly_the_rules_the_checks_do() -> None:
+    # The re-check asks only which (target, rule) pairs fail (checks.failing), without notes or sentences:
+    # it must name the same pairs as the full checks on the same screen. Seeded overlapping layouts, three
+    # rule sets (one in mm), two densities.
+    import random
+
+    from conftest import screen_of
+    from tapgauge.checks import check_screen, failing, reach
+    from tapgauge.device import resolve_device
+    from tapgauge.measure import MeasureOptions, measure
+    from tapgauge.model import DeviceHints
+    from tapgauge.rulesets import select_rulesets
+
+    rulesets = select_rulesets(["wcag-2.5.8", "android-guidance", "motor-mm"])
+    rng = random.Random(11)
+    found = 0
+    for _ in range(80):
+        boxes = []
+        for _ in range(rng.randint(2, 60)):
+            x, y, w, h = rng.randint(0, 1000), rng.randint(0, 2200), rng.randint(10, 200), rng.randint(10, 200)
+            boxes.append((x, y, min(1080, x + w), min(2340, y + h)))
+        screen = screen_of(boxes)
+        for density in (420, 560):
+            device = resolve_device(screen, DeviceHints(density_dpi=density, xdpi=400.0, ydpi=400.0, source="test"))
+            # Measured with the pair search of the pipeline (as wide as the rules look) and with none.
+            for wide in (reach(rulesets, device), 0.0):
+                m = measure(screen, device, MeasureOptions(), wide)
+                full = {(t.target.number, f.rule_id) for t in check_screen(m, rulesets, False).targets
+                        for f in t.findings}
+                assert failing(m, rulesets) == full, boxes
+                found += len(full)
+    assert found > 1000

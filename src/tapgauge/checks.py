@@ -6,8 +6,9 @@ here, registered in KINDS. An unknown kind is an error when the rule set loads.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
+from enum import IntEnum
 from typing import Any
 
 import numpy as np
@@ -22,6 +23,14 @@ from tapgauge.profiles import find_profile
 PLATFORM_UNITS = ("dp", "pt")  # both mean "the platform's density-independent unit"
 
 
+class Detail(IntEnum):
+    """How much a rule kind writes besides which targets fail it."""
+
+    FAILS = 0  # which targets fail, nothing more: the fix plans' re-check
+    NOTES = 1  # and the notes, with no sentences in the findings: the JSON report holds none
+    WORDS = 2  # and every finding's sentence
+
+
 @dataclass(frozen=True)
 class KindResult:
     findings: tuple[tuple[int, Finding], ...]  # (position among checked targets, finding)
@@ -30,7 +39,7 @@ class KindResult:
 
 @dataclass(frozen=True)
 class Kind:
-    run: Callable[[MeasuredScreen, Rule, bool], KindResult]  # (screen, rule, words): see check_screen
+    run: Callable[[MeasuredScreen, Rule, Detail], KindResult]  # (screen, rule, how much it writes)
     params: dict[str, tuple[type, bool]]  # name -> (type, required)
     doc: str
     validate: Callable[[dict[str, object], str], str | None] = lambda params, unit: None  # -> error or None
@@ -61,7 +70,8 @@ def _unit(rule: Rule) -> str:
     return "mm" if rule.unit == "mm" else "platform"
 
 
-def check_min_size(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindResult:
+def check_min_size(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS) -> KindResult:
+    words = detail >= Detail.WORDS
     size = float(rule.param("size"))
     spacing = bool(dict(rule.params).get("spacing_exception", False))
     unit = display_unit(m, rule)
@@ -77,11 +87,12 @@ def check_min_size(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindRes
     measured, conflict = np.round(side, 3).tolist(), conflicts.tolist()
     need = f"{_fmt(size)} {unit}"
     passes_note = f"{rule.id}: under {need}, passes by spacing (its {need} circle clears all other targets)"
-    if any(m.maybe_covers):
+    if detail >= Detail.NOTES and any(m.maybe_covers):
         notes += _presumed_cover_notes(m, rule, side, size, unit)
     for pos in np.flatnonzero(under).tolist():
         if spacing and conflict[pos] < 0:
-            notes.append((pos, passes_note))
+            if detail >= Detail.NOTES:
+                notes.append((pos, passes_note))
             continue
         other = m.screen.targets[m.checked[conflict[pos]]].number if spacing else None
         message = ""
@@ -111,7 +122,8 @@ def _presumed_cover_notes(m: MeasuredScreen, rule: Rule, side: np.ndarray, size:
     return notes
 
 
-def check_min_gap(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindResult:
+def check_min_gap(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS) -> KindResult:
+    words = detail >= Detail.WORDS
     gap = float(rule.param("gap"))
     unit = display_unit(m, rule)
     boxes = m.boxes(_unit(rule))
@@ -144,7 +156,8 @@ def check_min_gap(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindResu
     return KindResult(tuple(findings))
 
 
-def check_max_miss(m: MeasuredScreen, rule: Rule, words: bool = True) -> KindResult:
+def check_max_miss(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS) -> KindResult:
+    words = detail >= Detail.WORDS
     profile = find_profile(str(rule.param("profile")))
     limit = float(rule.param("max_miss"))
     boxes = m.boxes("mm")
@@ -225,28 +238,45 @@ def _sizes(m: MeasuredScreen) -> tuple[list[list[float]], list[list[float]] | No
     return in_unit, np.round(np.stack([w / dev.xdpi, h / dev.ydpi], axis=1) * MM_PER_INCH, 2).tolist()
 
 
-def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool, words: bool = True) -> ScreenResult:
-    """Every rule of the rule sets that apply, on one measured screen. With `words` false the findings carry
-    no sentence (empty messages): for a re-check that asks only which rules fail, and for the JSON
-    report, which holds none."""
-    notices: list[str] = [*m.screen.notices, *m.device.notices, *m.notices]
-    applied: list[str] = []
-    findings: dict[int, list[Finding]] = {}
-    notes: dict[int, list[str]] = {}
+def _applied(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool,
+             notices: list[str]) -> Iterator[tuple[str, list[Rule]]]:
+    """The rule sets that apply to the screen, each with the rules it can run there; what is skipped, said."""
     platform = m.device.platform
     for rs in rulesets:
         if platform not in rs.platforms:
             if announce_skips:
                 notices.append(f"rule set {rs.id} is for {', '.join(rs.platforms)} screens; not applied to this {platform} screen")
             continue
-        applied.append(rs.id)
         skipped_mm = [r.id for r in rs.rules if r.unit == "mm" and not m.device.has_mm]
         if skipped_mm:
             notices.append(f"{m.device.no_mm_because}; skipped: {', '.join(skipped_mm)}")
-        for rule in rs.rules:
-            if rule.id in skipped_mm:
-                continue
-            result = KINDS[rule.kind].run(m, rule, words)
+        yield rs.id, [rule for rule in rs.rules if rule.id not in skipped_mm]
+
+
+def failing(m: MeasuredScreen, rulesets: list[RuleSet]) -> set[tuple[int, str]]:
+    """(target number, rule id) of every finding check_screen makes on this screen, and nothing else: all
+    the fix plans' re-check asks, without the notes, the sentences or the results around them."""
+    out = set()
+    targets, checked = m.screen.targets, m.checked
+    for _, rules in _applied(m, rulesets, False, []):
+        for rule in rules:
+            out.update((targets[checked[pos]].number, rule.id)
+                       for pos, _ in KINDS[rule.kind].run(m, rule, Detail.FAILS).findings)
+    return out
+
+
+def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool, words: bool = True) -> ScreenResult:
+    """Every rule of the rule sets that apply, on one measured screen. With `words` false the findings carry
+    no sentence (empty messages): for the JSON report, which holds none."""
+    notices: list[str] = [*m.screen.notices, *m.device.notices, *m.notices]
+    applied: list[str] = []
+    findings: dict[int, list[Finding]] = {}
+    notes: dict[int, list[str]] = {}
+    detail = Detail.WORDS if words else Detail.NOTES
+    for rs_id, rules in _applied(m, rulesets, announce_skips, notices):
+        applied.append(rs_id)
+        for rule in rules:
+            result = KINDS[rule.kind].run(m, rule, detail)
             for pos, f in result.findings:
                 findings.setdefault(pos, []).append(f)
             for pos, note in result.notes:

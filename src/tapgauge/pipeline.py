@@ -16,7 +16,7 @@ from itertools import chain, islice
 from pathlib import Path
 from typing import TYPE_CHECKING, TypeVar
 
-from tapgauge.checks import check_screen, reach
+from tapgauge.checks import check_screen, failing, reach
 from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
 from tapgauge.measure import MeasuredScreen, MeasureOptions, measure
@@ -75,9 +75,9 @@ def check_one_screen(screen: Screen, device: Device, settings: Settings) -> Scre
     words = not settings.document_only
     scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips, words))
 
-    def recheck(trial: Screen, part: Callable[[MeasuredScreen], MeasuredScreen]) -> tuple[MeasuredScreen, ScreenResult]:
+    def recheck(trial: Screen, part: Callable[[MeasuredScreen], MeasuredScreen]) -> tuple[MeasuredScreen, set[tuple[int, str]]]:
         again = measure(trial, device, settings.measure, near)
-        return again, check_screen(part(again), rulesets, False, words=False)  # which rules fail is all it asks
+        return again, failing(part(again), rulesets)  # which rules fail is all it asks
 
     return plan_screen(measured, scored, rulesets, recheck)
 

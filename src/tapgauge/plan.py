@@ -288,8 +288,9 @@ def _overlaps(m: MeasuredScreen, pairs: tuple[np.ndarray, np.ndarray] | None = N
     return {(numbers[a], numbers[b]) for a, b in zip(i.tolist(), j.tolist())}
 
 
-# Measures a trial screen whole and checks the part of it that `part` keeps.
-Recheck = Callable[[Screen, Callable[[MeasuredScreen], MeasuredScreen]], tuple[MeasuredScreen, ScreenResult]]
+# Measures a trial screen whole and checks the part of it that `part` keeps: (the measured screen, the
+# (target number, rule id) of every finding: checks.failing).
+Recheck = Callable[[Screen, Callable[[MeasuredScreen], MeasuredScreen]], tuple[MeasuredScreen, set[tuple[int, str]]]]
 
 
 def _reach(rulesets: list[RuleSet], m: MeasuredScreen) -> float:
@@ -366,8 +367,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
         if not grown:
             break
         boxes = list(grown.values())
-        m2, sr2 = recheck(_apply(m.screen, m, grown), lambda again, boxes=boxes: _near_part(again, boxes, reach))
-        after = _findings(sr2)
+        m2, after = recheck(_apply(m.screen, m, grown), lambda again, boxes=boxes: _near_part(again, boxes, reach))
         failed = {pos for pos in grown if any((number[pos], r) in after for r in _need(needs, pos).rules)}
         new = after - before
         blamed = {n for n, _ in new}
