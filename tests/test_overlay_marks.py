@@ -277,6 +277,24 @@ def test_png_bytes_keeps_a_wireframe_of_few_colours_pixel_for_pixel(monkeypatch:
     assert fail.any() and np.all(back[fail] == MARKS["fail"].colour)
 
 
+@pytest.mark.parametrize(("name", "shot"), [("android/plots.xml", False), ("android/plots.xml", True),
+                                            ("marked/tool_shed.png", True), ("ios/seed_tray.xml", False)])
+def test_png_bytes_decode_the_same_in_another_decoder(monkeypatch: pytest.MonkeyPatch, name: str, shot: bool) -> None:
+    # png_bytes writes its PNG itself (filtered rows, its own chunks): libpng, inside OpenCV, reads it
+    # as Pillow does (it checks every chunk's CRC and undoes the filters; PNG spec, sections 5.3, 9.2).
+    cv2 = pytest.importorskip("cv2")
+    report, (screen,) = _records(monkeypatch, name)
+    picture = Image.open(screen["image"]) if shot else None
+    pic = draw_overlay(screen, report, picture, max_width=720, text_scale=2.0)
+    data = png_bytes(pic, 64)
+    theirs = cv2.imdecode(np.frombuffer(data, dtype=np.uint8), cv2.IMREAD_COLOR)[..., ::-1]  # BGR to RGB
+    ours = np.asarray(Image.open(io.BytesIO(data)).convert("RGB"))
+    assert theirs.shape == ours.shape == (pic.height, pic.width, 3)
+    assert np.array_equal(theirs, ours)
+    if not shot:  # a wireframe: every pixel as drawn
+        assert np.array_equal(theirs, np.asarray(pic))
+
+
 def test_partial_yellow_survives_where_a_plain_quantize_may_not(monkeypatch: pytest.MonkeyPatch) -> None:
     # plots.xml has a partial target: its yellow must come back exactly through png_bytes.
     report, (screen,) = _records(monkeypatch, "android/plots.xml")

@@ -226,7 +226,9 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, all_t: list[Target], obs: np
     free = np.where(is_growing[None, :], np.maximum(free / 2, free - theirs), free)
     side = np.where(axis == 0, np.where(ob[..., 0] < box[..., 0], 0, 2), np.where(ob[..., 1] < box[..., 1], 1, 3))
     # Per growing target and side, the nearest obstacle's room: (growing x 4), and which one it is.
-    per_side = np.stack([np.where(use & (side == k), free, np.inf) for k in range(4)], axis=1)
+    per_side = np.full((len(rows), 4, obs.shape[0]), np.inf)
+    r, o = np.nonzero(use)
+    per_side[r, side[r, o], o] = free[r, o]
     nearest = per_side.argmin(axis=2)
     nearest_room = np.take_along_axis(per_side, nearest[..., None], axis=2)[..., 0]
     # Per row in plain Python numbers: numpy's per-call cost outweighs four-element arithmetic.
