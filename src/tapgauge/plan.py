@@ -24,7 +24,7 @@ import numpy as np
 
 from tapgauge.checks import reach as rules_reach
 from tapgauge.device import MM_PER_INCH
-from tapgauge.geometry import as_boxes, intersection_areas
+from tapgauge.geometry import as_boxes, candidate_pairs, intersection_areas
 from tapgauge.measure import MeasuredScreen
 from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult
 
@@ -188,65 +188,74 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
                          max(0.0, n.side[1] - (boxes[n.pos, 3] - boxes[n.pos, 1])))
     is_growing = np.zeros(len(all_t), dtype=bool)
     is_growing[list(growing)] = True
-    out: dict[int, tuple[np.ndarray, Why]] = {}
-    every = np.array(sorted(growing), dtype=int)
-    # Growing targets against every obstacle, a block of rows at a time: (rows x obstacles) arrays,
-    # so memory stays bounded on a screen of thousands of targets.
-    for start in range(0, len(every), ROWS):
-        out.update(_plan_rows(m, every[start:start + ROWS], all_t, obs, windows, numbers, boxes, demand,
-                              is_growing, margin))
-    return out
+    every = np.array(sorted(growing), dtype=np.intp)
+    if not len(every):
+        return {}
+    # Only the obstacles that can limit a growth: one whose room is more than the growth it faces changes
+    # no plan (_spread takes as much either way, and no side it bounds is tight), and a room (its free
+    # gap, or half of it when shared) is more than any growth here beyond a gap of twice the largest
+    # demand and the spacing kept. The pair search finds every obstacle nearer than that.
+    i, j = candidate_pairs(obs, 2 * float(demand.max()) + margin + 1.0)
+    is_row = np.zeros(len(all_t), dtype=bool)
+    is_row[every] = True
+    g = np.concatenate((i[is_row[i]], j[is_row[j]]))  # (growing target, obstacle) both ways round
+    o = np.concatenate((j[is_row[i]], i[is_row[j]]))
+    return _plan_rows(m, every, g, o, all_t, obs, windows, numbers, demand, is_growing, margin)
 
 
-ROWS = 64  # growing targets planned together: 64 x 10,000 obstacles is a few MB an array
-
-
-def _plan_rows(m: MeasuredScreen, rows: np.ndarray, all_t: list[Target], obs: np.ndarray, windows: np.ndarray,
-               numbers: list[int], boxes: np.ndarray, demand: np.ndarray, is_growing: np.ndarray,
+def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray, all_t: list[Target],
+               obs: np.ndarray, windows: np.ndarray, numbers: list[int], demand: np.ndarray, is_growing: np.ndarray,
                margin: float) -> dict[int, tuple[np.ndarray, Why]]:
+    """The plans of the growing targets `rows`, from their (growing target g, obstacle o) pairs."""
     out: dict[int, tuple[np.ndarray, Why]] = {}
     screen = m.screen
-    box = boxes[rows][:, None, :]
-    ob = obs[None, :, :]
-    same = windows[None, :] == windows[rows][:, None]
-    same[np.arange(len(rows)), rows] = False
-    holds = same & (ob[..., 0] <= box[..., 0]) & (ob[..., 1] <= box[..., 1]) & (ob[..., 2] >= box[..., 2]) \
-        & (ob[..., 3] >= box[..., 3])
-    inside = same & (ob[..., 0] >= box[..., 0]) & (ob[..., 1] >= box[..., 1]) & (ob[..., 2] <= box[..., 2]) \
-        & (ob[..., 3] <= box[..., 3])
-    gx = np.maximum(ob[..., 0] - box[..., 2], box[..., 0] - ob[..., 2])
-    gy = np.maximum(ob[..., 1] - box[..., 3], box[..., 1] - ob[..., 3])
+    box, ob = obs[g], obs[o]
+    same = windows[g] == windows[o]
+    holds = same & (ob[:, 0] <= box[:, 0]) & (ob[:, 1] <= box[:, 1]) & (ob[:, 2] >= box[:, 2]) & (ob[:, 3] >= box[:, 3])
+    inside = same & (ob[:, 0] >= box[:, 0]) & (ob[:, 1] >= box[:, 1]) & (ob[:, 2] <= box[:, 2]) \
+        & (ob[:, 3] <= box[:, 3])
+    gx = np.maximum(ob[:, 0] - box[:, 2], box[:, 0] - ob[:, 2])
+    gy = np.maximum(ob[:, 1] - box[:, 3], box[:, 1] - ob[:, 3])
     # An ancestor holds its child's box or overlaps it, and overlapping pairs stay as they are: no obstacle.
     use = same & ~holds & ~inside & ~((gx < 0) & (gy < 0))
     axis = np.where((gy < 0) | ((gx >= 0) & (gx >= gy)), 0, 1)
     gap = np.where(axis == 0, gx, gy)
     free = np.maximum(0.0, gap - np.where(gap >= margin - EPS, margin, 0.0))  # keep a spacing that passes today
-    theirs = np.where(axis == 0, demand[None, :, 0], demand[None, :, 1])
+    theirs = np.where(axis == 0, demand[o, 0], demand[o, 1])
     # Room between two growing targets is shared: at least half each, more where the other needs less.
-    free = np.where(is_growing[None, :], np.maximum(free / 2, free - theirs), free)
-    side = np.where(axis == 0, np.where(ob[..., 0] < box[..., 0], 0, 2), np.where(ob[..., 1] < box[..., 1], 1, 3))
-    # Per growing target and side, the nearest obstacle's room: (growing x 4), and which one it is.
-    per_side = np.full((len(rows), 4, obs.shape[0]), np.inf)
-    r, o = np.nonzero(use)
-    per_side[r, side[r, o], o] = free[r, o]
-    nearest = per_side.argmin(axis=2)
-    nearest_room = np.take_along_axis(per_side, nearest[..., None], axis=2)[..., 0]
-    # Per row in plain Python numbers: numpy's per-call cost outweighs four-element arithmetic.
-    rooms, whos, held = nearest_room.tolist(), nearest.tolist(), holds.any(axis=1).tolist()
+    free = np.where(is_growing[o], np.maximum(free / 2, free - theirs), free)
+    side = np.where(axis == 0, np.where(ob[:, 0] < box[:, 0], 0, 2), np.where(ob[:, 1] < box[:, 1], 1, 3))
+    # Per growing target and side, the nearest obstacle's room and which one it is (the first by number
+    # among equals): the first of each (row, side) once sorted by room.
+    row_of = np.zeros(len(all_t), dtype=np.intp)
+    row_of[rows] = np.arange(len(rows))
+    u = np.flatnonzero(use)
+    u = u[np.lexsort((o[u], free[u], side[u], row_of[g[u]]))]
+    r, k = row_of[g[u]], side[u]
+    first = np.ones(len(u), dtype=bool)
+    first[1:] = (r[1:] != r[:-1]) | (k[1:] != k[:-1])
+    nearest_room = np.full((len(rows), 4), np.inf)
+    nearest = np.zeros((len(rows), 4), dtype=np.intp)
+    nearest_room[r[first], k[first]] = free[u[first]]
+    nearest[r[first], k[first]] = o[u[first]]
+    holders: dict[int, list[int]] = {}  # per row, the targets that hold it, by number
+    h = np.flatnonzero(holds)
+    for row, q in zip(row_of[g[h]].tolist(), o[h].tolist()):
+        holders.setdefault(row, []).append(q)
+    rooms, whos = nearest_room.tolist(), nearest.tolist()
     demands, grows = demand.tolist(), is_growing.tolist()
     others = screen.windows if len(screen.windows) > 1 else ()
     for i, pos in enumerate(rows.tolist()):
-        t, here = all_t[pos], boxes[pos]
+        t, here = all_t[pos], obs[pos]
         hl, ht, hr, hb = here.tolist()
         lim, limiter = _container(t, m)
         room = [hl - lim[0], ht - lim[1], lim[2] - hr, lim[3] - hb]
-        if held[i]:
-            for q in np.flatnonzero(holds[i]).tolist():  # a row round this button: it grows within the row
-                ql, qt, qr, qb = obs[q].tolist()
-                within = [hl - ql, ht - qt, qr - hr, qb - hb]
-                for k in range(4):
-                    if within[k] < room[k]:
-                        room[k], limiter[k] = within[k], f"#{numbers[q]} (which holds it)"
+        for q in sorted(holders.get(i, ())):  # a row round this button: it grows within the row
+            ql, qt, qr, qb = obs[q].tolist()
+            within = [hl - ql, ht - qt, qr - hr, qb - hb]
+            for k in range(4):
+                if within[k] < room[k]:
+                    room[k], limiter[k] = within[k], f"#{numbers[q]} (which holds it)"
         for w, window in enumerate(others):  # the keyboard, a system bar: a touch area stops at them
             wl, wt, wr, wb = window.bounds
             if w == t.window or not (wl >= hr or wr <= hl or wt >= hb or wb <= ht):
