@@ -230,10 +230,12 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray
     row_of = np.zeros(len(all_t), dtype=np.intp)
     row_of[rows] = np.arange(len(rows))
     u = np.flatnonzero(use)
-    u = u[np.lexsort((o[u], free[u], side[u], row_of[g[u]]))]
-    r, k = row_of[g[u]], side[u]
+    slot = row_of[g[u]] * 4 + side[u]  # (row, side) as one number
+    order = np.lexsort((o[u], free[u], slot))
+    u, slot = u[order], slot[order]
     first = np.ones(len(u), dtype=bool)
-    first[1:] = (r[1:] != r[:-1]) | (k[1:] != k[:-1])
+    first[1:] = slot[1:] != slot[:-1]
+    r, k = np.divmod(slot, 4)
     nearest_room = np.full((len(rows), 4), np.inf)
     nearest = np.zeros((len(rows), 4), dtype=np.intp)
     nearest_room[r[first], k[first]] = free[u[first]]
