@@ -16,6 +16,7 @@ from shapely.ops import unary_union
 
 from tapgauge.geometry import (
     SMALL,
+    SWEEP,
     candidate_pairs,
     covering_pairs,
     largest_free_square,
@@ -74,14 +75,27 @@ def test_pairs_picked_from_a_wider_search_match_a_search_of_their_own(
 
 @settings(max_examples=25, deadline=None)
 @given(layouts(max_boxes=140, min_boxes=SMALL + 1), st.integers(min_value=0, max_value=30))
-def test_grid_broad_phase_matches_shapely_on_larger_screens(boxes: np.ndarray, reach: int) -> None:
-    """Above SMALL boxes the uniform grid takes over from testing every pair: same oracle."""
+def test_sweep_broad_phase_matches_shapely_on_larger_screens(boxes: np.ndarray, reach: int) -> None:
+    """Above SMALL boxes a sweep down the screen takes over from testing every pair: same oracle, and the
+    pairs come once each in (i, j) order, as the rules that break ties by order expect."""
+    _matches_shapely(boxes, reach)
+
+
+@settings(max_examples=10, deadline=None)
+@given(layouts(max_boxes=SWEEP + 40, min_boxes=SWEEP + 1), st.integers(min_value=0, max_value=30))
+def test_grid_broad_phase_matches_shapely_on_crowded_screens(boxes: np.ndarray, reach: int) -> None:
+    """Above SWEEP boxes the uniform grid takes over: same oracle."""
+    _matches_shapely(boxes, reach)
+
+
+def _matches_shapely(boxes: np.ndarray, reach: int) -> None:
     i, j = candidate_pairs(boxes, reach)
-    found = set(zip(i.tolist(), j.tolist()))
+    pairs = list(zip(i.tolist(), j.tolist()))
+    assert pairs == sorted(set(pairs)) and all(a < b for a, b in pairs)
     polys = [box(*b) for b in boxes]
     near = {(a, b) for a in range(len(boxes)) for b in range(a + 1, len(boxes))
             if polys[a].distance(polys[b]) <= reach - 1e-9}  # oracle: shapely distance
-    assert near <= found
+    assert near <= set(pairs)
 
 
 @settings(max_examples=200, deadline=None)
