@@ -10,6 +10,7 @@ thousands of targets without building an n x n matrix.
 
 from __future__ import annotations
 
+import bisect
 import functools
 
 import numpy as np
@@ -258,54 +259,50 @@ def largest_free_square(box: FloatArray, covers: FloatArray) -> tuple[float, Flo
 
     Every free square lies inside some maximal empty rectangle, whose edges are box or
     cover edges; so searching the rectangles of the compressed grid those edges make
-    is exact. Returns (side, square as [l, t, r, b]).
+    is exact. Returns (side, square as [l, t, r, b]). In plain Python numbers: a target has
+    a handful of covers, where numpy's cost per call outweighs the arithmetic.
     """
-    box = np.asarray(box, dtype=np.float64)
-    covers = as_boxes(covers)
-    bw, bh = box[2] - box[0], box[3] - box[1]
-    if bw <= 0 or bh <= 0:
-        return 0.0, np.array([box[0], box[1], box[0], box[1]])
-    clipped = np.column_stack(
-        (
-            np.clip(covers[:, 0], box[0], box[2]),
-            np.clip(covers[:, 1], box[1], box[3]),
-            np.clip(covers[:, 2], box[0], box[2]),
-            np.clip(covers[:, 3], box[1], box[3]),
-        )
-    )
-    clipped = clipped[(clipped[:, 2] > clipped[:, 0]) & (clipped[:, 3] > clipped[:, 1])]
-    if len(clipped) == 0:
-        side = float(min(bw, bh))
-        return side, np.array([box[0], box[1], box[0] + side, box[1] + side])
-    # sorted(set()) beats np.unique on the handful of edges a target has.
-    xs = np.array(sorted({box[0], box[2], *clipped[:, 0].tolist(), *clipped[:, 2].tolist()}))
-    ys = np.array(sorted({box[1], box[3], *clipped[:, 1].tolist(), *clipped[:, 3].tolist()}))
-    free = np.ones((len(ys) - 1, len(xs) - 1), dtype=bool)
-    for c in clipped:
-        x0, x1 = np.searchsorted(xs, c[0]), np.searchsorted(xs, c[2])
-        y0, y1 = np.searchsorted(ys, c[1]), np.searchsorted(ys, c[3])
-        free[y0:y1, x0:x1] = False
-    heights = np.diff(ys)
-    best, where = 0.0, np.array([box[0], box[1], box[0], box[1]])
-    for a in range(free.shape[1]):
-        open_rows = np.ones(free.shape[0], dtype=bool)
-        for b in range(a, free.shape[1]):
-            open_rows &= free[:, b]
-            if not open_rows.any():
+    l, t, r, b = (float(v) for v in box)
+    if r - l <= 0 or b - t <= 0:
+        return 0.0, np.array([l, t, l, t])
+    clipped = []
+    for cl, ct, cr, cb in as_boxes(covers).tolist():
+        cl, ct, cr, cb = min(max(cl, l), r), min(max(ct, t), b), min(max(cr, l), r), min(max(cb, t), b)
+        if cr > cl and cb > ct:
+            clipped.append((cl, ct, cr, cb))
+    if not clipped:
+        side = min(r - l, b - t)
+        return side, np.array([l, t, l + side, t + side])
+    xs = sorted({l, r, *(c[0] for c in clipped), *(c[2] for c in clipped)})
+    ys = sorted({t, b, *(c[1] for c in clipped), *(c[3] for c in clipped)})
+    nx, ny = len(xs) - 1, len(ys) - 1
+    free = [[True] * nx for _ in range(ny)]  # free[row][column] of the compressed grid
+    for cl, ct, cr, cb in clipped:
+        x0, x1 = bisect.bisect_left(xs, cl), bisect.bisect_left(xs, cr)
+        for y in range(bisect.bisect_left(ys, ct), bisect.bisect_left(ys, cb)):
+            free[y][x0:x1] = [False] * (x1 - x0)
+    columns = list(zip(*free))
+    heights = [ys[k + 1] - ys[k] for k in range(ny)]
+    best, where = 0.0, (l, t, l, t)
+    for a in range(nx):
+        open_rows = [True] * ny
+        for c in range(a, nx):
+            open_rows = [o and f for o, f in zip(open_rows, columns[c])]
+            if not any(open_rows):
                 break
-            width = xs[b + 1] - xs[a]
+            width = xs[c + 1] - xs[a]
             if width <= best:
                 continue
             run, run_top = 0.0, 0
-            for row in range(len(open_rows)):
+            for row in range(ny):
                 if open_rows[row]:
                     if run == 0.0:
                         run_top = row
                     run += heights[row]
                     side = min(width, run)
                     if side > best:
-                        best = float(side)
-                        where = np.array([xs[a], ys[run_top], xs[a] + side, ys[run_top] + side])
+                        best = side
+                        where = (xs[a], ys[run_top], xs[a] + side, ys[run_top] + side)
                 else:
                     run = 0.0
-    return best, where
+    return best, np.array(where)
