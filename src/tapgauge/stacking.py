@@ -101,10 +101,13 @@ class Blocked(NamedTuple):
     cut: str = ""  # what covers part of it, or ""
 
 
+_CLEAR = Blocked()
+
+
 def blocking_window(target: Target, roles: tuple[WindowRole, ...], with_targets: set[int]) -> Blocked:
     """What the windows drawn over a target's own window do to it."""
-    if target.window < 0 or not roles:
-        return Blocked()
+    if target.window < 0 or len(roles) < 2:
+        return _CLEAR
     mine = roles[target.window]
     l, t, r, b = target.bounds
     cut = ""
@@ -125,7 +128,7 @@ def blocking_window(target: Target, roles: tuple[WindowRole, ...], with_targets:
         if il <= l and it <= t and ir >= r and ib >= b:
             return Blocked(f"hidden under {what} at {fmt_box(other.bounds)}")
         cut = cut or f"partly under {what} at {fmt_box(other.bounds)}"
-    return Blocked(cut=cut)
+    return Blocked(cut=cut) if cut else _CLEAR
 
 
 def fmt_box(b: Box) -> str:

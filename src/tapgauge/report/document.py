@@ -94,8 +94,8 @@ def target_document(tr: TargetResult, key: str) -> dict[str, Any]:
     name = t.name
     if name != t.label:
         out["name"] = name
-    out["bounds"] = list(t.bounds)
-    out["size"] = list(tr.size_unit)
+    out["bounds"] = t.bounds  # tuples: orjson writes them as arrays, with no list made
+    out["size"] = tr.size_unit
     out["status"] = tr.status
     if tr.reason:
         out["reason"] = tr.reason
@@ -109,7 +109,7 @@ def target_document(tr: TargetResult, key: str) -> dict[str, Any]:
         findings.append(fd)
     out["findings"] = findings
     if tr.notes:
-        out["notes"] = list(tr.notes)
+        out["notes"] = tr.notes
     if tr.approach is not None:
         a = tr.approach
         out["approach"] = {"width": a.width, "distance": a.distance, "id_bits": a.id_bits}
@@ -119,9 +119,9 @@ def target_document(tr: TargetResult, key: str) -> dict[str, Any]:
     p = tr.plan
     if p is not None:
         if p.kind == "grow":
-            out["plan"] = {"kind": "grow", "bounds": _round_all(p.bounds), "rules": list(p.rules)}
+            out["plan"] = {"kind": "grow", "bounds": _round_all(p.bounds), "rules": p.rules}
         else:
-            plan: dict[str, Any] = {"kind": p.kind, "missing": round(p.missing, 2), "rules": list(p.rules)}
+            plan: dict[str, Any] = {"kind": p.kind, "missing": round(p.missing, 2), "rules": p.rules}
             if p.mover is not None:
                 plan["move"] = {"target": p.mover, "dx": round(p.move[0], 2), "dy": round(p.move[1], 2)}
             out["plan"] = plan
