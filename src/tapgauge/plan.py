@@ -167,7 +167,7 @@ def _spread(need: float, low: float, high: float) -> tuple[float, float] | None:
     return a, need - a
 
 
-def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int]) -> dict[int, tuple[np.ndarray, Why]]:
+def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int]) -> dict[int, tuple[Box, Why]]:
     """Planned boxes (coordinates) per position for the needs in `keep`; or why there is no room.
 
     Per growing target, every other target is an obstacle on one axis (the one they are apart on,
@@ -205,9 +205,9 @@ def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int])
 
 def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray, all_t: list[Target],
                obs: np.ndarray, windows: np.ndarray, numbers: list[int], demand: np.ndarray, is_growing: np.ndarray,
-               margin: float) -> dict[int, tuple[np.ndarray, Why]]:
+               margin: float) -> dict[int, tuple[Box, Why]]:
     """The plans of the growing targets `rows`, from their (growing target g, obstacle o) pairs."""
-    out: dict[int, tuple[np.ndarray, Why]] = {}
+    out: dict[int, tuple[Box, Why]] = {}
     screen = m.screen
     box, ob = obs[g], obs[o]
     same = windows[g] == windows[o]
@@ -244,16 +244,16 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray
     h = np.flatnonzero(holds)
     for row, q in zip(row_of[g[h]].tolist(), o[h].tolist()):
         holders.setdefault(row, []).append(q)
-    rooms, whos = nearest_room.tolist(), nearest.tolist()
+    rooms, whos, obs_list = nearest_room.tolist(), nearest.tolist(), obs.tolist()
     demands, grows = demand.tolist(), is_growing.tolist()
     others = screen.windows if len(screen.windows) > 1 else ()
     for i, pos in enumerate(rows.tolist()):
-        t, here = all_t[pos], obs[pos]
-        hl, ht, hr, hb = here.tolist()
+        t = all_t[pos]
+        hl, ht, hr, hb = here = obs_list[pos]
         lim, limiter = _container(t, m)
         room = [hl - lim[0], ht - lim[1], lim[2] - hr, lim[3] - hb]
         for q in sorted(holders.get(i, ())):  # a row round this button: it grows within the row
-            ql, qt, qr, qb = obs[q].tolist()
+            ql, qt, qr, qb = obs_list[q]
             within = [hl - ql, ht - qt, qr - hr, qb - hb]
             for k in range(4):
                 if within[k] < room[k]:
@@ -286,7 +286,7 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
         tight = tuple((name, limiter[k].rstrip("*")) for k, name in enumerate(SIDES)
                       if limiter[k].startswith("#") and growth[k] > EPS and growth[k] >= room[k] - EPS)
-        out[pos] = (here + np.array([-across[0], -down[0], across[1], down[1]]), ("limits", tight))
+        out[pos] = ((hl - across[0], ht - down[0], hr + across[1], hb + down[1]), ("limits", tight))
     return out
 
 
@@ -312,7 +312,7 @@ def _reach(rulesets: list[RuleSet], m: MeasuredScreen) -> float:
     return rules_reach(rulesets, m.device) + 1.0
 
 
-def _near_part(again: MeasuredScreen, grown: list[np.ndarray], reach: float) -> MeasuredScreen:
+def _near_part(again: MeasuredScreen, grown: list[Box], reach: float) -> MeasuredScreen:
     """The re-measured screen with only the targets a growth can change checked: those within `reach`
     of a grown box, and every target drawn over them; the rest are set aside.
 
@@ -373,7 +373,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
     reach = _reach(applied, m)
     number = {n.pos: m.screen.targets[m.checked[n.pos]].number for n in needs}
     keep = {n.pos for n in needs if not n.overlaps}
-    planned: dict[int, tuple[np.ndarray, Why]] = {}
+    planned: dict[int, tuple[Box, Why]] = {}
     while keep:
         planned = _plans(m, needs, margin, keep)
         grown = {pos: box for pos, (box, why) in planned.items() if why[0] == "limits"}
@@ -402,7 +402,7 @@ def _need(needs: list[_Need], pos: int) -> _Need:
     return next(n for n in needs if n.pos == pos)
 
 
-def _near(m: MeasuredScreen, box: np.ndarray, numbers: set[int], reach: float) -> bool:
+def _near(m: MeasuredScreen, box: Box, numbers: set[int], reach: float) -> bool:
     """Whether a planned box comes within `reach` of any of these targets."""
     for t in m.screen.targets:
         if t.number in numbers:
@@ -412,7 +412,7 @@ def _near(m: MeasuredScreen, box: np.ndarray, numbers: set[int], reach: float) -
     return False
 
 
-def _apply(screen: Screen, m: MeasuredScreen, grown: dict[int, np.ndarray]) -> Screen:
+def _apply(screen: Screen, m: MeasuredScreen, grown: dict[int, Box]) -> Screen:
     targets = list(screen.targets)
     for pos, box in grown.items():
         k = m.checked[pos]
@@ -424,7 +424,7 @@ def _fmt(v: float) -> str:
     return f"{round(v, 1):g}"
 
 
-def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[np.ndarray | None, Why]],
+def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[Box | None, Why]],
             needs: dict[int, _Need]) -> ScreenResult:
     k_unit = m.device.coords_per_unit
     unit = m.device.unit
@@ -439,7 +439,7 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[np.nda
         old = boxes[pos].tolist()
         rules = needs[pos].rules
         if box is not None and why[0] == "limits":
-            new = box.tolist()
+            new = box
             growth = ((old[0] - new[0]) / k_unit, (old[1] - new[1]) / k_unit, (new[2] - old[2]) / k_unit,
                       (new[3] - old[3]) / k_unit)
             plan = Plan("grow", tuple(new), growth, rules, unit=unit, k_unit=k_unit, why=why)  # type: ignore[arg-type]
