@@ -136,12 +136,14 @@ def place_tags(boxes: Sequence[Rect], sizes: Sequence[tuple[float, float]], area
         look = _Look(box, tw, th, g, obstacles[i], others, placed, lines, gap, area, roomy)
         best = look.best(np.array(beside, dtype=float))
         if best.cost[:7] != (0,) * 7:  # not beside the box: the nearest free spot around it
-            best = min(best, look.best(_grid(box, tw, th, 8 * th, max(th / 2, 1.0)), rank=1))
+            corners, columns = _grid(box, tw, th, 8 * th, max(th / 2, 1.0))
+            best = min(best, look.best(corners, rank=1, columns=columns))
         if inside and best.cost[:7] != (0,) * 7:  # (before a spot pushed inside by the picture's edge)
             best = min(best, look.best(np.array(inside, dtype=float), rank=-1))
         if best.cost[:3] != (0,) * 3:  # every spot near covers a tag or a box: anywhere in the picture
             whole = (0.0, 0.0, float(width), float(height))
-            best = min(best, look.best(_grid(whole, tw, th, 0.0, max(th / 2, 1.0)), rank=1))
+            corners, columns = _grid(whole, tw, th, 0.0, max(th / 2, 1.0))
+            best = min(best, look.best(corners, rank=1, columns=columns))
         spots.append(TagSpot(best.rect, best.leader))
         placed = np.vstack([placed, [best.rect]])
         placed_list.append(best.rect)
@@ -163,9 +165,6 @@ def _free_beside(box: Rect, corners: list[Point], tw: float, th: float, g: float
     """
     l, t, r, b = (float(v) for v in box)
     xmax, ymax = max(0.0, area[0] - tw), max(0.0, area[1] - th)
-    lo_x, lo_y, hi_x, hi_y = obstacles[own]
-    # Boxes holding this one are no obstacle (as in place_tags).
-    others = [o for k, o in enumerate(obstacles) if k != own and not (o[0] <= l and o[1] <= t and o[2] >= r and o[3] >= b)]
     spots = []
     for k, (cx, cy) in enumerate(corners):
         x, y = min(max(float(cx), 0.0), xmax), min(max(float(cy), 0.0), ymax)
@@ -176,14 +175,22 @@ def _free_beside(box: Rect, corners: list[Point], tw: float, th: float, g: float
         dist = dx if dy == 0.0 else dy if dx == 0.0 else float(np.hypot(dx, dy))
         spots.append((dist, k, rect))
     spots.sort()
+    # Only what reaches into the spots' window (grown by the gap) can be covered by one of them.
+    x0 = min(s[2][0] for s in spots) - gap
+    y0 = min(s[2][1] for s in spots) - gap
+    x1 = max(s[2][2] for s in spots) + gap
+    y1 = max(s[2][3] for s in spots) + gap
+    near = [(k, o) for k, o in enumerate(obstacles) if o[0] < x1 and o[2] > x0 and o[1] < y1 and o[3] > y0]
+    # Boxes holding this one are no obstacle (as in place_tags); its own box is one.
+    boxes = [o for k, o in near if k == own or not (o[0] <= l and o[1] <= t and o[2] >= r and o[3] >= b)]
+    tags = [p for p in placed if p[0] < x1 and p[2] > x0 and p[1] < y1 and p[3] > y0]
     for dist, _, rect in spots:
         if dist > g + 0.5:  # it needs a leader: leave it to the arrays
             return None
-        x0, y0, x1, y1 = rect
-        if _overlaps(rect, (lo_x, lo_y, hi_x, hi_y)) or any(_overlaps(rect, o) for o in others):
+        if any(_overlaps(rect, o) for o in boxes):
             continue
-        grown = (x0 - gap, y0 - gap, x1 + gap, y1 + gap)
-        if any(_overlaps(grown, p) for p in placed) or any(_crosses(seg, grown) for seg in lines):
+        grown = (rect[0] - gap, rect[1] - gap, rect[2] + gap, rect[3] + gap)
+        if any(_overlaps(grown, p) for p in tags) or any(_crosses(seg, grown) for seg in lines):
             continue
         return rect
     return None
@@ -235,8 +242,9 @@ class _Look:
     area: tuple[float, float]
     roomy: bool  # a tag may cover a corner of its own box, rather than lead across another
 
-    def best(self, corners: np.ndarray, rank: int = 0) -> _Spot:
-        """The best of `corners` (top-left points, clamped into the picture), by `_Spot.cost`."""
+    def best(self, corners: np.ndarray, rank: int = 0, columns: int = 0) -> _Spot:
+        """The best of `corners` (top-left points, clamped into the picture), by `_Spot.cost`. With
+        `columns`, the corners are a grid of that many columns, row by row (as `_grid` makes them)."""
         x = np.minimum(np.maximum(corners[:, 0], 0.0), max(0.0, self.area[0] - self.tw))
         y = np.minimum(np.maximum(corners[:, 1], 0.0), max(0.0, self.area[1] - self.th))
         rects = np.column_stack([x, y, x + self.tw, y + self.th])
@@ -262,8 +270,16 @@ class _Look:
             keep = keep[tied]
             return tied
 
-        narrow(_overlap_areas(grown, placed).sum(axis=1) if len(placed) else np.zeros(n))  # other tags covered
-        narrow(_overlap_areas(rects[keep], others).sum(axis=1) if len(others) else np.zeros(len(keep)))  # boxes
+        if columns and len(placed) and (free := ~_touching(x[:columns], y[::columns], self.tw, self.th, self.gap,
+                                                           placed).ravel()).any():
+            narrow(~free)  # the same tie as the areas' sums: exactly the spots covering nothing
+        else:
+            narrow(_overlap_areas(grown, placed).sum(axis=1) if len(placed) else np.zeros(n))  # other tags covered
+        if columns and len(others) and (free := ~_touching(x[:columns], y[::columns], self.tw, self.th, 0.0,
+                                                           others).ravel()[keep]).any():
+            narrow(~free)
+        else:
+            narrow(_overlap_areas(rects[keep], others).sum(axis=1) if len(others) else np.zeros(len(keep)))  # boxes
         on_own = _overlap_areas(rects[keep], self.own[None, :])[:, 0]
         on_own = on_own[narrow(on_own * (not self.roomy))]
         dist = _gaps(rects[keep], self.box)
@@ -317,8 +333,24 @@ def _grown(placed: np.ndarray, gap: float) -> np.ndarray:
     return placed + np.array([-gap, -gap, gap, gap]) if len(placed) else placed
 
 
-def _grid(box: Rect, tw: float, th: float, reach: float, step: float) -> np.ndarray:
+def _touching(xs: np.ndarray, ys: np.ndarray, tw: float, th: float, grow: float, rects: np.ndarray) -> np.ndarray:
+    """For a grid of tags (top-left corners xs across, ys down; each grown by `grow`), whether each
+    covers any of `rects` (m, 4) by an area above zero: (len(ys), len(xs)).
+
+    An overlap has an area exactly when it has a width and a height, and on a grid the width
+    depends on the column alone and the height on the row: two small tables and one product of
+    counts instead of an area for every spot and rectangle. The sides are worked out in the same
+    steps as `_overlap_areas` on grown spots, so the answers are the same."""
+    across = (np.minimum((xs + tw)[:, None] + grow, rects[None, :, 2])
+              - np.maximum((xs - grow)[:, None], rects[None, :, 0])) > 0.0
+    down = (np.minimum((ys + th)[:, None] + grow, rects[None, :, 3])
+            - np.maximum((ys - grow)[:, None], rects[None, :, 1])) > 0.0
+    return down.astype(np.int32) @ across.T.astype(np.int32) > 0
+
+
+def _grid(box: Rect, tw: float, th: float, reach: float, step: float) -> tuple[np.ndarray, int]:
+    """Top-left corners on a grid around `box`, row by row, and how many columns the grid has."""
     xs = np.arange(box[0] - reach - tw, box[2] + reach + step / 2, step)
     ys = np.arange(box[1] - reach - th, box[3] + reach + step / 2, step)
     gx, gy = np.meshgrid(xs, ys)
-    return np.column_stack([gx.ravel(), gy.ravel()])
+    return np.column_stack([gx.ravel(), gy.ravel()]), len(xs)
