@@ -17,7 +17,7 @@ the room allows, which keeps the largest growth on a side as small as it can be.
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from typing import Any, NamedTuple
 
 import numpy as np
@@ -61,8 +61,7 @@ class Plan(NamedTuple):
         return _sentence(self)
 
 
-@dataclass(frozen=True)
-class _Need:
+class _Need(NamedTuple):
     pos: int  # position among the checked targets
     rules: tuple[str, ...]
     side: tuple[float, float]  # the square's side in coordinates, across and down
@@ -93,18 +92,19 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet],
         pos = position[k]
         if m.covers[pos] or m.maybe_covers and m.maybe_covers[pos]:
             continue  # a target drawn over it is the trouble: growth does not help
-        sized = [f.rule_id for f in tr.findings if not f.waiver and f.rule_id in square]
+        sized = tuple(f.rule_id for f in tr.findings if not f.waiver and f.rule_id in square)
         if sized:
-            out.append(_Need(pos, tuple(sized), (max(square[r][0] for r in sized), max(square[r][1] for r in sized)),
-                             _overlapping(m, pos, hits)))
+            side = square[sized[0]] if len(sized) == 1 else (max(square[r][0] for r in sized),
+                                                            max(square[r][1] for r in sized))
+            out.append(_Need(pos, sized, side, _overlapping(m, pos, hits[pos]) if pos in hits else ()))
     return out
 
 
-def _overlapping(m: MeasuredScreen, pos: int, hits: dict[int, list[int]]) -> tuple[str, ...]:
-    """The checked targets whose boxes overlap this one's (not one holding the other)."""
+def _overlapping(m: MeasuredScreen, pos: int, hits: list[int]) -> tuple[str, ...]:
+    """Of the checked targets whose boxes overlap this one's (`hits`), those not holding it nor held by it."""
     me = m.screen.targets[m.checked[pos]]
     out = []
-    for q in hits.get(pos, []):
+    for q in hits:
         o = m.screen.targets[m.checked[q]]
         if not _related(me, o):
             out.append(f"#{o.number} '{o.name}'")
@@ -135,18 +135,23 @@ def _container(t: Target, m: MeasuredScreen) -> tuple[list[float], list[str]]:
     s = m.screen
     bl, bt, br, bb = t.bounds
     lim = [0.0, 0.0, float(s.width), float(s.height)]
-    names = ["the screen's edge"] * 4
-    edges = []
-    if 0 <= t.window < len(s.windows):
-        edges.append((s.windows[t.window].bounds, "its window's edge"))
-    edges += [(b, "its scrolling container's edge") for b, _ in t.scroll_ancestors]
+    names = [_SCREEN_EDGE] * 4
+    edges = [(s.windows[t.window].bounds, _WINDOW_EDGE)] if 0 <= t.window < len(s.windows) else []
+    if t.scroll_ancestors:
+        edges += [(b, _SCROLLER_EDGE) for b, _ in t.scroll_ancestors]
     for (el, et, er, eb), name in edges:
-        inner = (min(el + 1, bl), min(et + 1, bt), max(er - 1, br), max(eb - 1, bb))
-        for k in range(4):
-            tighter = inner[k] > lim[k] if k < 2 else inner[k] < lim[k]
-            if tighter:
-                lim[k], names[k] = float(inner[k]), name
+        if min(el + 1, bl) > lim[0]:
+            lim[0], names[0] = float(min(el + 1, bl)), name
+        if min(et + 1, bt) > lim[1]:
+            lim[1], names[1] = float(min(et + 1, bt)), name
+        if max(er - 1, br) < lim[2]:
+            lim[2], names[2] = float(max(er - 1, br)), name
+        if max(eb - 1, bb) < lim[3]:
+            lim[3], names[3] = float(max(eb - 1, bb)), name
     return lim, names
+
+
+_SCREEN_EDGE, _WINDOW_EDGE, _SCROLLER_EDGE = "the screen's edge", "its window's edge", "its scrolling container's edge"
 
 
 def _related(a: Target, b: Target) -> bool:
@@ -249,7 +254,7 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray
     others = screen.windows if len(screen.windows) > 1 else ()
     for i, pos in enumerate(rows.tolist()):
         t = all_t[pos]
-        hl, ht, hr, hb = here = obs_list[pos]
+        hl, ht, hr, hb = obs_list[pos]
         lim, limiter = _container(t, m)
         room = [hl - lim[0], ht - lim[1], lim[2] - hr, lim[3] - hb]
         for q in sorted(holders.get(i, ())):  # a row round this button: it grows within the row
@@ -280,7 +285,7 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray
         if across is None or down is None:
             ax = 0 if across is None else 1
             short = need[ax] - room[ax] - room[ax + 2]
-            out[pos] = (here, ("short", ax, short, limiter[ax], limiter[ax + 2]))
+            out[pos] = ((hl, ht, hr, hb), ("short", ax, short, limiter[ax], limiter[ax + 2]))
             continue
         growth = (across[0], down[0], across[1], down[1])
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
@@ -372,6 +377,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
     before, overlapping = _findings(sr), _overlaps(m, pairs)
     reach = _reach(applied, m)
     number = {n.pos: m.screen.targets[m.checked[n.pos]].number for n in needs}
+    need_of = {n.pos: n for n in needs}
     keep = {n.pos for n in needs if not n.overlaps}
     planned: dict[int, tuple[Box, Why]] = {}
     while keep:
@@ -381,7 +387,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
             break
         boxes = list(grown.values())
         m2, after = recheck(_apply(m.screen, m, grown), lambda again, boxes=boxes: _near_part(again, boxes, reach))
-        failed = {pos for pos in grown if any((number[pos], r) in after for r in _need(needs, pos).rules)}
+        failed = {pos for pos in grown if any((number[pos], r) in after for r in need_of[pos].rules)}
         new = after - before
         blamed = {n for n, _ in new}
         failed |= {pos for pos in grown if number[pos] in blamed}
@@ -395,11 +401,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
             break
         keep -= failed
     return _attach(sr, m, {n.pos: (None, ("overlaps",)) if n.overlaps else planned.get(n.pos, (None, WITHDRAWN))
-                           if n.pos in keep else (None, WITHDRAWN) for n in needs}, {n.pos: n for n in needs})
-
-
-def _need(needs: list[_Need], pos: int) -> _Need:
-    return next(n for n in needs if n.pos == pos)
+                           if n.pos in keep else (None, WITHDRAWN) for n in needs}, need_of)
 
 
 def _near(m: MeasuredScreen, box: Box, numbers: set[int], reach: float) -> bool:
@@ -453,7 +455,7 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[Box | 
     return replace(sr, targets=tuple(targets))
 
 
-def _move(box: Box, why: str, rules: tuple[str, ...], k_unit: float, unit: str) -> Plan:
+def _move(box: Box, why: Why, rules: tuple[str, ...], k_unit: float, unit: str) -> Plan:
     """No room: how much is missing between the two limits on the tight axis, and the smallest move of a
     neighbour that opens it (moving the target itself between two fixed limits opens nothing)."""
     if why[0] != "short":
@@ -461,11 +463,12 @@ def _move(box: Box, why: str, rules: tuple[str, ...], k_unit: float, unit: str) 
     _, axis, missing, low, high = why
     short = missing / k_unit
     # A neighbour that also grows shares the room it opens: it must move twice as far.
-    side = next(((lim, +1) for lim in (high,) if lim.startswith("#")), None) or \
-        next(((lim, -1) for lim in (low,) if lim.startswith("#")), None)
-    if side is None:
+    if high.startswith("#"):
+        who, sign = high, +1
+    elif low.startswith("#"):
+        who, sign = low, -1
+    else:
         return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, short, unit=unit, k_unit=k_unit, why=why)
-    who, sign = side
     distance = short * (2 if who.endswith("*") else 1)
     number = int(who.lstrip("#").split()[0].rstrip("*"))
     dx, dy = (sign * distance, 0.0) if axis == 0 else (0.0, sign * distance)
