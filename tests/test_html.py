@@ -172,3 +172,24 @@ def test_pictures_drawn_in_worker_processes_give_the_same_report(monkeypatch: py
             write_html(report, out, jobs=jobs)
             written.append(out.getvalue())
     assert written[0] == written[1] and written[0].count('<article class="screen"') == 6
+
+
+def test_drawing_processes_start_where_the_c_library_has_no_mallopt(monkeypatch: pytest.MonkeyPatch) -> None:
+    # The drawing processes ask glibc to keep freed memory (mallopt); macOS's and Windows' C
+    # libraries have no such call, and there the processes must start all the same.
+    import ctypes
+
+    from tapgauge.report import html
+
+    class NoMallopt:
+        def __init__(self, name: object) -> None:
+            pass
+
+    monkeypatch.setattr(ctypes, "CDLL", NoMallopt)
+    html._keep_freed_memory()  # no AttributeError
+
+    def missing(name: object) -> None:
+        raise OSError("no C library")
+
+    monkeypatch.setattr(ctypes, "CDLL", missing)
+    html._keep_freed_memory()
