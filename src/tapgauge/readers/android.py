@@ -149,14 +149,13 @@ class _Walk:
                     self.children(child, scrollers, shown, tree, window)
                 continue
             if window < 0:  # a window's root
-                here, mine = ((0, False),), len(self.windows)
+                mine = len(self.windows)
                 self.windows.append(child)
                 self.window_boxes.append(len(raws))
             else:
-                here, mine = (*tree, (place, numbered)), window
+                mine = window
             nodes.append(child)
             raws.append(raw)
-            visible = shown and get("visible-to-user", _TRUE) == _TRUE
             # a target is anything that takes a tap, a long press or a check
             tappable = get("clickable") == _TRUE or get("long-clickable") == _TRUE or get("checkable") == _TRUE
             if not tappable and get("focusable") == _TRUE and get("scrollable") != _TRUE:
@@ -165,10 +164,15 @@ class _Walk:
             own = None if tappable else get("text") or get("content-desc")
             if own:  # a nested target's text names that target, not the one around it
                 texts.append(own.strip())
+            has_kids = len(child)
+            if not (tappable or has_kids):
+                continue  # a plain leaf: its box and text are all it gives
+            visible = shown and get("visible-to-user", _TRUE) == _TRUE
+            here = ((0, False),) if window < 0 else (*tree, (place, numbered))
             if tappable:
                 span = [len(texts), len(texts)]
                 found.append((child, len(raws), visible, scrollers, here, mine, span))
-            if len(child):
+            if has_kids:
                 if get("scrollable") == _TRUE:
                     self.children(child, (*scrollers, (_bounds(child, self.path), _scroll_axis(child))), visible,
                                   here, mine)
