@@ -8,7 +8,6 @@ when a target has neither id, label nor class does its position stand in.
 from __future__ import annotations
 
 import hashlib
-from collections import Counter
 
 from tapgauge.model import Target
 
@@ -27,12 +26,13 @@ def base_key(t: Target) -> str:
 
 def target_keys(targets: tuple[Target, ...] | list[Target]) -> list[str]:
     """Keys unique within one screen ('KEY#N'), stable when targets move or resize."""
-    seen: Counter[str] = Counter()
+    seen: dict[str, int] = {}  # a plain dict: Counter's missing-key path costs a Python call per new key
     keys = []
     for t in targets:
         k = base_key(t)
-        keys.append(f"{k}#{seen[k]}")
-        seen[k] += 1
+        n = seen.get(k, 0)
+        keys.append(f"{k}#{n}")
+        seen[k] = n + 1
     return keys
 
 
