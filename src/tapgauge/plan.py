@@ -26,7 +26,7 @@ from tapgauge.checks import reach as rules_reach
 from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import as_boxes, candidate_pairs, intersection_areas
 from tapgauge.measure import MeasuredScreen
-from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult
+from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult, Window
 
 SIDES = ("left", "top", "right", "bottom")
 EPS = 1e-6
@@ -128,32 +128,6 @@ def _overlap_positions(pairs: tuple[np.ndarray, np.ndarray]) -> dict[int, list[i
     return out
 
 
-def _container(t: Target, m: MeasuredScreen) -> tuple[list[float], list[str]]:
-    """Where a target's touch area may reach, and what bounds each side: the screen, its window and its
-    scrolling ancestors, kept one coordinate inside any edge the box does not already touch (a target
-    flush with a scroller's edge reads as cut off)."""
-    s = m.screen
-    bl, bt, br, bb = t.bounds
-    lim = [0.0, 0.0, float(s.width), float(s.height)]
-    names = [_SCREEN_EDGE] * 4
-    edges = [(s.windows[t.window].bounds, _WINDOW_EDGE)] if 0 <= t.window < len(s.windows) else []
-    if t.scroll_ancestors:
-        edges += [(b, _SCROLLER_EDGE) for b, _ in t.scroll_ancestors]
-    for (el, et, er, eb), name in edges:
-        if min(el + 1, bl) > lim[0]:
-            lim[0], names[0] = float(min(el + 1, bl)), name
-        if min(et + 1, bt) > lim[1]:
-            lim[1], names[1] = float(min(et + 1, bt)), name
-        if max(er - 1, br) < lim[2]:
-            lim[2], names[2] = float(max(er - 1, br)), name
-        if max(eb - 1, bb) < lim[3]:
-            lim[3], names[3] = float(max(eb - 1, bb)), name
-    return lim, names
-
-
-_SCREEN_EDGE, _WINDOW_EDGE, _SCROLLER_EDGE = "the screen's edge", "its window's edge", "its scrolling container's edge"
-
-
 def _related(a: Target, b: Target) -> bool:
     """One encloses the other (a row round its buttons): neither is in the other's way."""
     if a.is_ancestor_of(b) or b.is_ancestor_of(a):
@@ -245,54 +219,104 @@ def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray
     nearest = np.zeros((len(rows), 4), dtype=np.intp)
     nearest_room[r[first], k[first]] = free[u[first]]
     nearest[r[first], k[first]] = o[u[first]]
-    holders: dict[int, list[int]] = {}  # per row, the targets that hold it, by number
+    # Per row and side, the room to grow and what bounds it (_LIMITS: a code, and the target's index for
+    # a holder or an obstacle): the screen, its window, its scrolling ancestors, a holder, another
+    # window, the nearest obstacle, each taking over where it is tighter, in that order.
+    n = len(rows)
+    here, obs_list = obs[rows], obs.tolist()
+    lim = np.tile([0.0, 0.0, float(screen.width), float(screen.height)], (n, 1))
+    code = np.zeros((n, 4), dtype=np.intp)  # 0: the screen's edge
+    who = np.zeros((n, 4), dtype=np.intp)
+    win = windows[rows]
+    own = (win >= 0) & (win < len(screen.windows))
+    if own.any():  # its window, kept one coordinate inside an edge the box does not touch
+        wb = np.array([w.bounds for w in screen.windows], dtype=float).reshape(-1, 4)[np.where(own, win, 0)]
+        inner = np.concatenate((np.minimum(wb[:, :2] + 1, here[:, :2]), np.maximum(wb[:, 2:] - 1, here[:, 2:])), axis=1)
+        tighter = own[:, None] & np.concatenate((inner[:, :2] > lim[:, :2], inner[:, 2:] < lim[:, 2:]), axis=1)
+        lim, code = np.where(tighter, inner, lim), np.where(tighter, 1, code)
+    room = np.concatenate((here[:, :2] - lim[:, :2], lim[:, 2:] - here[:, 2:]), axis=1)
+    holders: dict[int, list[int]] = {}  # per row, the targets that hold it
     h = np.flatnonzero(holds)
     for row, q in zip(row_of[g[h]].tolist(), o[h].tolist()):
         holders.setdefault(row, []).append(q)
-    rooms, whos, obs_list = nearest_room.tolist(), nearest.tolist(), obs.tolist()
-    demands, grows = demand.tolist(), is_growing.tolist()
     others = screen.windows if len(screen.windows) > 1 else ()
-    for i, pos in enumerate(rows.tolist()):
-        t = all_t[pos]
+    scrolled = [i for i, pos in enumerate(rows.tolist()) if all_t[pos].scroll_ancestors]
+    if scrolled or holders or others:  # the rarer limits, row by row in plain numbers
+        room_l, code_l, who_l, lim_l = room.tolist(), code.tolist(), who.tolist(), lim.tolist()
+        for i in sorted({*scrolled, *holders, *(range(n) if others else ())}):
+            _rare_limits(all_t[rows[i]], obs_list[rows[i]], lim_l[i], room_l[i], code_l[i], who_l[i],
+                         sorted(holders.get(i, ())), obs_list, others)
+        room, code, who = np.array(room_l), np.array(code_l, dtype=np.intp), np.array(who_l, dtype=np.intp)
+    closer = nearest_room < room
+    room = np.where(closer, np.maximum(0.0, nearest_room), room)
+    code, who = np.where(closer, 5, code), np.where(closer, nearest, who)
+    # Each axis's need spread over its two sides as evenly as the room allows (_spread, all rows at once).
+    need = demand[rows]
+    low, high = room[:, :2], room[:, 2:]
+    none = need <= EPS
+    fits = none | ~(low + high + EPS < need)
+    first = np.where(none, 0.0, np.minimum(low, np.maximum(need / 2, need - high)))
+    second = np.where(none, 0.0, need - first)
+    growth = np.concatenate((first, second), axis=1)  # left, top, right, bottom
+    tight = (code >= 4) & (growth > EPS) & (growth >= room - EPS)
+    short_axis = np.where(fits[:, 0], 1, 0)
+    short = need[np.arange(n), short_axis] - low[np.arange(n), short_axis] - high[np.arange(n), short_axis]
+    rows_l, fits_l, growth_l, tight_l = rows.tolist(), fits.all(axis=1).tolist(), growth.tolist(), tight.tolist()
+    code_l, who_l, axis_l, short_l = code.tolist(), who.tolist(), short_axis.tolist(), short.tolist()
+    grows = is_growing.tolist()
+
+    def name(i: int, k: int) -> str:
+        c, q = code_l[i][k], who_l[i][k]
+        if c < 4:
+            return _LIMITS[c]
+        return f"#{numbers[q]} (which holds it)" if c == 4 else f"#{numbers[q]}" + ("*" if grows[q] else "")
+
+    for i, pos in enumerate(rows_l):
         hl, ht, hr, hb = obs_list[pos]
-        lim, limiter = _container(t, m)
-        room = [hl - lim[0], ht - lim[1], lim[2] - hr, lim[3] - hb]
-        for q in sorted(holders.get(i, ())):  # a row round this button: it grows within the row
-            ql, qt, qr, qb = obs_list[q]
-            within = [hl - ql, ht - qt, qr - hr, qb - hb]
-            for k in range(4):
-                if within[k] < room[k]:
-                    room[k], limiter[k] = within[k], f"#{numbers[q]} (which holds it)"
-        for w, window in enumerate(others):  # the keyboard, a system bar: a touch area stops at them
-            wl, wt, wr, wb = window.bounds
-            if w == t.window or not (wl >= hr or wr <= hl or wt >= hb or wb <= ht):
-                continue  # its own window, or one that holds or overlaps it
-            wgx = max(wl - hr, hl - wr)
-            wgy = max(wt - hb, ht - wb)
-            ax = 0 if wgy < 0 or (wgx >= 0 and wgx >= wgy) else 1
-            k = (0 if wl < hl else 2) if ax == 0 else (1 if wt < ht else 3)
-            gap = max(0.0, (wgx if ax == 0 else wgy) - 1.0)  # a coordinate clear of it, as of a window's edge
-            if gap < room[k]:
-                room[k], limiter[k] = gap, "another window's edge"
-        for k in range(4):
-            if rooms[i][k] < room[k]:
-                room[k] = max(0.0, rooms[i][k])
-                q = whos[i][k]
-                limiter[k] = f"#{numbers[q]}" + ("*" if grows[q] else "")  # *: grows too, the room is shared
-        need = demands[pos]
-        across = _spread(need[0], room[0], room[2])
-        down = _spread(need[1], room[1], room[3])
-        if across is None or down is None:
-            ax = 0 if across is None else 1
-            short = need[ax] - room[ax] - room[ax + 2]
-            out[pos] = ((hl, ht, hr, hb), ("short", ax, short, limiter[ax], limiter[ax + 2]))
+        if not fits_l[i]:
+            ax = axis_l[i]
+            out[pos] = ((hl, ht, hr, hb), ("short", ax, short_l[i], name(i, ax), name(i, ax + 2)))
             continue
-        growth = (across[0], down[0], across[1], down[1])
+        gl, gt, gr, gb = growth_l[i]
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
-        tight = tuple((name, limiter[k].rstrip("*")) for k, name in enumerate(SIDES)
-                      if limiter[k].startswith("#") and growth[k] > EPS and growth[k] >= room[k] - EPS)
-        out[pos] = ((hl - across[0], ht - down[0], hr + across[1], hb + down[1]), ("limits", tight))
+        limits = tuple((side, name(i, k).rstrip("*")) for k, side in enumerate(SIDES) if tight_l[i][k])
+        out[pos] = ((hl - gl, ht - gt, hr + gr, hb + gb), ("limits", limits))
     return out
+
+
+# What bounds a side of a growing target's room, by code (4: a holder, 5: the nearest obstacle, by number).
+_LIMITS = ("the screen's edge", "its window's edge", "its scrolling container's edge", "another window's edge")
+
+
+def _rare_limits(t: Target, box: list[float], lim: list[float], room: list[float], code: list[int], who: list[int],
+                 holders: list[int], obs: list[list[float]], others: tuple[Window, ...]) -> None:
+    """A row's scrolling ancestors (kept one coordinate inside an edge the box does not touch), holders
+    (a row round the button: it grows within the row) and other windows (the keyboard, a system bar: a
+    touch area stops at them), each where tighter, in place."""
+    hl, ht, hr, hb = box
+    for el, et, er, eb in (b for b, _ in t.scroll_ancestors):
+        inner = (min(el + 1, hl), min(et + 1, ht), max(er - 1, hr), max(eb - 1, hb))
+        for k in range(4):
+            if inner[k] > lim[k] if k < 2 else inner[k] < lim[k]:
+                lim[k], code[k] = float(inner[k]), 2
+                room[k] = box[k] - lim[k] if k < 2 else lim[k] - box[k]
+    for q in holders:
+        ql, qt, qr, qb = obs[q]
+        within = (hl - ql, ht - qt, qr - hr, qb - hb)
+        for k in range(4):
+            if within[k] < room[k]:
+                room[k], code[k], who[k] = within[k], 4, q
+    for w, window in enumerate(others):
+        wl, wt, wr, wb = window.bounds
+        if w == t.window or not (wl >= hr or wr <= hl or wt >= hb or wb <= ht):
+            continue  # its own window, or one that holds or overlaps it
+        wgx = max(wl - hr, hl - wr)
+        wgy = max(wt - hb, ht - wb)
+        ax = 0 if wgy < 0 or (wgx >= 0 and wgx >= wgy) else 1
+        k = (0 if wl < hl else 2) if ax == 0 else (1 if wt < ht else 3)
+        gap = max(0.0, (wgx if ax == 0 else wgy) - 1.0)  # a coordinate clear of it, as of a window's edge
+        if gap < room[k]:
+            room[k], code[k] = gap, 3
 
 
 def _findings(sr: ScreenResult) -> set[tuple[int, str]]:
