@@ -1,38 +1,28 @@
 """Fix plans: for each target too small, the least growth of its touch area that passes the size rules
 without taking taps from its neighbours; where there is no room, how much is missing and where to move.
 
-A stage after the checks. Geometry is in screen coordinates on numpy arrays; a plan is kept only once
-the screen, re-measured and re-checked in memory with every plan applied, shows that each planned
-target passes the rules its plan claims, that no finding appeared that was not there before, and
-that no two touch areas overlap that did not overlap before. A plan that fails its own re-check is
-withdrawn (and said to need a move), never printed as a fix.
-
-How room is shared: a growing target may reach up to a fixed neighbour (one that does not grow),
-keeping the spacing rule's clear gap where that gap is met today; two growing neighbours split the
-room between them, each taking at least half and more when the other needs less (so neither plan
-starves the other when both can pass). Per axis, growth is spread as evenly over the two sides as
-the room allows, which keeps the largest growth on a side as small as it can be.
+A stage after the checks. The room each target has to grow is worked out in room.py; a plan is kept
+only once the screen, re-measured and re-checked in memory with every plan applied, shows that each
+planned target passes the rules its plan claims, that no finding appeared that was not there before,
+and that no two touch areas overlap that did not overlap before. A plan that fails its own re-check
+is withdrawn (and said to need a move), never printed as a fix.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import replace
-from typing import Any, NamedTuple
+from typing import NamedTuple
 
 import numpy as np
 
 from tapgauge.checks import reach as rules_reach
 from tapgauge.device import MM_PER_INCH
-from tapgauge.geometry import as_boxes, candidate_pairs, intersection_areas
+from tapgauge.geometry import as_boxes, intersection_areas
 from tapgauge.measure import MeasuredScreen
-from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult, Window
+from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult
+from tapgauge.room import EPS, SIDES, Need, Why, grown_boxes
 
-SIDES = ("left", "top", "right", "bottom")
-EPS = 1e-6
-
-
-Why = tuple[Any, ...]  # what a plan's sentence is made of: see Plan.why
 WITHDRAWN: Why = ("withdrawn",)
 
 
@@ -61,15 +51,8 @@ class Plan(NamedTuple):
         return _sentence(self)
 
 
-class _Need(NamedTuple):
-    pos: int  # position among the checked targets
-    rules: tuple[str, ...]
-    side: tuple[float, float]  # the square's side in coordinates, across and down
-    overlaps: tuple[str, ...] = ()  # other targets its box overlaps: no growth can pass until they part
-
-
 def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet],
-           pairs: tuple[np.ndarray, np.ndarray]) -> list[_Need]:
+           pairs: tuple[np.ndarray, np.ndarray]) -> list[Need]:
     """Per failing target whose shortfall is only size (no target drawn over it), the square to reach."""
     d = m.device
     # Each size rule's square in coordinates, across and down, worked out once for the screen.
@@ -96,7 +79,7 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet],
         if sized:
             side = square[sized[0]] if len(sized) == 1 else (max(square[r][0] for r in sized),
                                                             max(square[r][1] for r in sized))
-            out.append(_Need(pos, sized, side, _overlapping(m, pos, hits[pos]) if pos in hits else ()))
+            out.append(Need(pos, sized, side, _overlapping(m, pos, hits[pos]) if pos in hits else ()))
     return out
 
 
@@ -134,189 +117,6 @@ def _related(a: Target, b: Target) -> bool:
         return True
     (al, at, ar, ab), (bl, bt, br, bb) = a.bounds, b.bounds
     return (al <= bl and at <= bt and ar >= br and ab >= bb) or (bl <= al and bt <= at and br >= ar and bb >= ab)
-
-
-def _spread(need: float, low: float, high: float) -> tuple[float, float] | None:
-    """`need` spread over two sides with room `low` and `high`, as evenly as the room allows."""
-    if need <= EPS:
-        return 0.0, 0.0
-    if low + high + EPS < need:
-        return None
-    a = min(low, max(need / 2, need - high))
-    return a, need - a
-
-
-def _plans(m: MeasuredScreen, needs: list[_Need], margin: float, keep: set[int]) -> dict[int, tuple[Box, Why]]:
-    """Planned boxes (coordinates) per position for the needs in `keep`; or why there is no room.
-
-    Per growing target, every other target is an obstacle on one axis (the one they are apart on,
-    or the wider gap when apart on both), all at once in numpy; a holder (a row round it) bounds
-    it instead."""
-    screen = m.screen
-    checked = set(m.checked)
-    order = list(m.checked) + [k for k, t in enumerate(screen.targets) if t.visible and k not in checked]
-    all_t = [screen.targets[k] for k in order]
-    obs = np.array([t.bounds for t in all_t], dtype=float).reshape(-1, 4)
-    windows = np.array([t.window for t in all_t])
-    numbers = [t.number for t in all_t]
-    boxes = obs[:len(m.checked)]
-    growing = {n.pos: n for n in needs if n.pos in keep}
-    demand = np.zeros((len(all_t), 2))
-    for n in growing.values():
-        demand[n.pos] = (max(0.0, n.side[0] - (boxes[n.pos, 2] - boxes[n.pos, 0])),
-                         max(0.0, n.side[1] - (boxes[n.pos, 3] - boxes[n.pos, 1])))
-    is_growing = np.zeros(len(all_t), dtype=bool)
-    is_growing[list(growing)] = True
-    every = np.array(sorted(growing), dtype=np.intp)
-    if not len(every):
-        return {}
-    # Only the obstacles that can limit a growth: one whose room is more than the growth it faces changes
-    # no plan (_spread takes as much either way, and no side it bounds is tight), and a room (its free
-    # gap, or half of it when shared) is more than any growth here beyond a gap of twice the largest
-    # demand and the spacing kept. The pair search finds every obstacle nearer than that.
-    i, j = candidate_pairs(obs, 2 * float(demand.max()) + margin + 1.0)
-    is_row = np.zeros(len(all_t), dtype=bool)
-    is_row[every] = True
-    g = np.concatenate((i[is_row[i]], j[is_row[j]]))  # (growing target, obstacle) both ways round
-    o = np.concatenate((j[is_row[i]], i[is_row[j]]))
-    return _plan_rows(m, every, g, o, all_t, obs, windows, numbers, demand, is_growing, margin)
-
-
-def _plan_rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray, all_t: list[Target],
-               obs: np.ndarray, windows: np.ndarray, numbers: list[int], demand: np.ndarray, is_growing: np.ndarray,
-               margin: float) -> dict[int, tuple[Box, Why]]:
-    """The plans of the growing targets `rows`, from their (growing target g, obstacle o) pairs."""
-    out: dict[int, tuple[Box, Why]] = {}
-    screen = m.screen
-    box, ob = obs[g], obs[o]
-    same = windows[g] == windows[o]
-    holds = same & (ob[:, 0] <= box[:, 0]) & (ob[:, 1] <= box[:, 1]) & (ob[:, 2] >= box[:, 2]) & (ob[:, 3] >= box[:, 3])
-    inside = same & (ob[:, 0] >= box[:, 0]) & (ob[:, 1] >= box[:, 1]) & (ob[:, 2] <= box[:, 2]) \
-        & (ob[:, 3] <= box[:, 3])
-    gx = np.maximum(ob[:, 0] - box[:, 2], box[:, 0] - ob[:, 2])
-    gy = np.maximum(ob[:, 1] - box[:, 3], box[:, 1] - ob[:, 3])
-    # An ancestor holds its child's box or overlaps it, and overlapping pairs stay as they are: no obstacle.
-    use = same & ~holds & ~inside & ~((gx < 0) & (gy < 0))
-    axis = np.where((gy < 0) | ((gx >= 0) & (gx >= gy)), 0, 1)
-    gap = np.where(axis == 0, gx, gy)
-    free = np.maximum(0.0, gap - np.where(gap >= margin - EPS, margin, 0.0))  # keep a spacing that passes today
-    theirs = np.where(axis == 0, demand[o, 0], demand[o, 1])
-    # Room between two growing targets is shared: at least half each, more where the other needs less.
-    free = np.where(is_growing[o], np.maximum(free / 2, free - theirs), free)
-    side = np.where(axis == 0, np.where(ob[:, 0] < box[:, 0], 0, 2), np.where(ob[:, 1] < box[:, 1], 1, 3))
-    # Per growing target and side, the nearest obstacle's room and which one it is (the first by number
-    # among equals): the first of each (row, side) once sorted by room.
-    row_of = np.zeros(len(all_t), dtype=np.intp)
-    row_of[rows] = np.arange(len(rows))
-    u = np.flatnonzero(use)
-    slot = row_of[g[u]] * 4 + side[u]  # (row, side) as one number
-    order = np.lexsort((o[u], free[u], slot))
-    u, slot = u[order], slot[order]
-    first = np.ones(len(u), dtype=bool)
-    first[1:] = slot[1:] != slot[:-1]
-    r, k = np.divmod(slot, 4)
-    nearest_room = np.full((len(rows), 4), np.inf)
-    nearest = np.zeros((len(rows), 4), dtype=np.intp)
-    nearest_room[r[first], k[first]] = free[u[first]]
-    nearest[r[first], k[first]] = o[u[first]]
-    # Per row and side, the room to grow and what bounds it (_LIMITS: a code, and the target's index for
-    # a holder or an obstacle): the screen, its window, its scrolling ancestors, a holder, another
-    # window, the nearest obstacle, each taking over where it is tighter, in that order.
-    n = len(rows)
-    here, obs_list = obs[rows], obs.tolist()
-    lim = np.tile([0.0, 0.0, float(screen.width), float(screen.height)], (n, 1))
-    code = np.zeros((n, 4), dtype=np.intp)  # 0: the screen's edge
-    who = np.zeros((n, 4), dtype=np.intp)
-    win = windows[rows]
-    own = (win >= 0) & (win < len(screen.windows))
-    if own.any():  # its window, kept one coordinate inside an edge the box does not touch
-        wb = np.array([w.bounds for w in screen.windows], dtype=float).reshape(-1, 4)[np.where(own, win, 0)]
-        inner = np.concatenate((np.minimum(wb[:, :2] + 1, here[:, :2]), np.maximum(wb[:, 2:] - 1, here[:, 2:])), axis=1)
-        tighter = own[:, None] & np.concatenate((inner[:, :2] > lim[:, :2], inner[:, 2:] < lim[:, 2:]), axis=1)
-        lim, code = np.where(tighter, inner, lim), np.where(tighter, 1, code)
-    room = np.concatenate((here[:, :2] - lim[:, :2], lim[:, 2:] - here[:, 2:]), axis=1)
-    holders: dict[int, list[int]] = {}  # per row, the targets that hold it
-    h = np.flatnonzero(holds)
-    for row, q in zip(row_of[g[h]].tolist(), o[h].tolist()):
-        holders.setdefault(row, []).append(q)
-    others = screen.windows if len(screen.windows) > 1 else ()
-    scrolled = [i for i, pos in enumerate(rows.tolist()) if all_t[pos].scroll_ancestors]
-    if scrolled or holders or others:  # the rarer limits, row by row in plain numbers
-        room_l, code_l, who_l, lim_l = room.tolist(), code.tolist(), who.tolist(), lim.tolist()
-        for i in sorted({*scrolled, *holders, *(range(n) if others else ())}):
-            _rare_limits(all_t[rows[i]], obs_list[rows[i]], lim_l[i], room_l[i], code_l[i], who_l[i],
-                         sorted(holders.get(i, ())), obs_list, others)
-        room, code, who = np.array(room_l), np.array(code_l, dtype=np.intp), np.array(who_l, dtype=np.intp)
-    closer = nearest_room < room
-    room = np.where(closer, np.maximum(0.0, nearest_room), room)
-    code, who = np.where(closer, 5, code), np.where(closer, nearest, who)
-    # Each axis's need spread over its two sides as evenly as the room allows (_spread, all rows at once).
-    need = demand[rows]
-    low, high = room[:, :2], room[:, 2:]
-    none = need <= EPS
-    fits = none | ~(low + high + EPS < need)
-    first = np.where(none, 0.0, np.minimum(low, np.maximum(need / 2, need - high)))
-    second = np.where(none, 0.0, need - first)
-    growth = np.concatenate((first, second), axis=1)  # left, top, right, bottom
-    tight = (code >= 4) & (growth > EPS) & (growth >= room - EPS)
-    short_axis = np.where(fits[:, 0], 1, 0)
-    short = need[np.arange(n), short_axis] - low[np.arange(n), short_axis] - high[np.arange(n), short_axis]
-    rows_l, fits_l, growth_l, tight_l = rows.tolist(), fits.all(axis=1).tolist(), growth.tolist(), tight.tolist()
-    code_l, who_l, axis_l, short_l = code.tolist(), who.tolist(), short_axis.tolist(), short.tolist()
-    grows = is_growing.tolist()
-
-    def name(i: int, k: int) -> str:
-        c, q = code_l[i][k], who_l[i][k]
-        if c < 4:
-            return _LIMITS[c]
-        return f"#{numbers[q]} (which holds it)" if c == 4 else f"#{numbers[q]}" + ("*" if grows[q] else "")
-
-    for i, pos in enumerate(rows_l):
-        hl, ht, hr, hb = obs_list[pos]
-        if not fits_l[i]:
-            ax = axis_l[i]
-            out[pos] = ((hl, ht, hr, hb), ("short", ax, short_l[i], name(i, ax), name(i, ax + 2)))
-            continue
-        gl, gt, gr, gb = growth_l[i]
-        # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
-        limits = tuple((side, name(i, k).rstrip("*")) for k, side in enumerate(SIDES) if tight_l[i][k])
-        out[pos] = ((hl - gl, ht - gt, hr + gr, hb + gb), ("limits", limits))
-    return out
-
-
-# What bounds a side of a growing target's room, by code (4: a holder, 5: the nearest obstacle, by number).
-_LIMITS = ("the screen's edge", "its window's edge", "its scrolling container's edge", "another window's edge")
-
-
-def _rare_limits(t: Target, box: list[float], lim: list[float], room: list[float], code: list[int], who: list[int],
-                 holders: list[int], obs: list[list[float]], others: tuple[Window, ...]) -> None:
-    """A row's scrolling ancestors (kept one coordinate inside an edge the box does not touch), holders
-    (a row round the button: it grows within the row) and other windows (the keyboard, a system bar: a
-    touch area stops at them), each where tighter, in place."""
-    hl, ht, hr, hb = box
-    for el, et, er, eb in (b for b, _ in t.scroll_ancestors):
-        inner = (min(el + 1, hl), min(et + 1, ht), max(er - 1, hr), max(eb - 1, hb))
-        for k in range(4):
-            if inner[k] > lim[k] if k < 2 else inner[k] < lim[k]:
-                lim[k], code[k] = float(inner[k]), 2
-                room[k] = box[k] - lim[k] if k < 2 else lim[k] - box[k]
-    for q in holders:
-        ql, qt, qr, qb = obs[q]
-        within = (hl - ql, ht - qt, qr - hr, qb - hb)
-        for k in range(4):
-            if within[k] < room[k]:
-                room[k], code[k], who[k] = within[k], 4, q
-    for w, window in enumerate(others):
-        wl, wt, wr, wb = window.bounds
-        if w == t.window or not (wl >= hr or wr <= hl or wt >= hb or wb <= ht):
-            continue  # its own window, or one that holds or overlaps it
-        wgx = max(wl - hr, hl - wr)
-        wgy = max(wt - hb, ht - wb)
-        ax = 0 if wgy < 0 or (wgx >= 0 and wgx >= wgy) else 1
-        k = (0 if wl < hl else 2) if ax == 0 else (1 if wt < ht else 3)
-        gap = max(0.0, (wgx if ax == 0 else wgy) - 1.0)  # a coordinate clear of it, as of a window's edge
-        if gap < room[k]:
-            room[k], code[k] = gap, 3
 
 
 def _findings(sr: ScreenResult) -> set[tuple[int, str]]:
@@ -405,7 +205,7 @@ def plan_screen(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet], re
     keep = {n.pos for n in needs if not n.overlaps}
     planned: dict[int, tuple[Box, Why]] = {}
     while keep:
-        planned = _plans(m, needs, margin, keep)
+        planned = grown_boxes(m, needs, margin, keep)
         grown = {pos: box for pos, (box, why) in planned.items() if why[0] == "limits"}
         if not grown:
             break
@@ -451,7 +251,7 @@ def _fmt(v: float) -> str:
 
 
 def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[Box | None, Why]],
-            needs: dict[int, _Need]) -> ScreenResult:
+            needs: dict[int, Need]) -> ScreenResult:
     k_unit = m.device.coords_per_unit
     unit = m.device.unit
     boxes = np.asarray(m.boxes_px, dtype=float)
