@@ -307,12 +307,25 @@ def test_png_bytes_keeps_a_wireframe_of_few_colours_pixel_for_pixel(monkeypatch:
     assert fail.any() and np.all(back[fail] == MARKS["fail"].colour)
 
 
+@pytest.mark.parametrize("deflater", ["zlib-ng", "zlib"])
 @pytest.mark.parametrize(("name", "shot"), [("android/plots.xml", False), ("android/plots.xml", True),
                                             ("marked/tool_shed.png", True), ("ios/seed_tray.xml", False)])
-def test_png_bytes_decode_the_same_in_another_decoder(monkeypatch: pytest.MonkeyPatch, name: str, shot: bool) -> None:
+def test_png_bytes_decode_the_same_in_another_decoder(monkeypatch: pytest.MonkeyPatch, name: str, shot: bool,
+                                                      deflater: str) -> None:
     # png_bytes writes its PNG itself (filtered rows, its own chunks): libpng, inside OpenCV, reads it
     # as Pillow does (it checks every chunk's CRC and undoes the filters; PNG spec, sections 5.3, 9.2).
+    # Deflated by zlib-ng, as installed, and by the standard library's zlib, where zlib-ng is missing.
     cv2 = pytest.importorskip("cv2")
+    if deflater == "zlib":
+        import zlib
+
+        import tapgauge.report.overlay as overlay_module
+        monkeypatch.setattr(overlay_module, "deflate", zlib)
+    else:
+        import zlib_ng.zlib_ng
+
+        import tapgauge.report.overlay as overlay_module
+        assert overlay_module.deflate is zlib_ng.zlib_ng
     report, (screen,) = _records(monkeypatch, name)
     picture = Image.open(screen["image"]) if shot else None
     pic = draw_overlay(screen, report, picture, max_width=720, text_scale=2.0)
