@@ -179,17 +179,17 @@ def test_drawing_processes_start_where_the_c_library_has_no_mallopt(monkeypatch:
     # libraries have no such call, and there the processes must start all the same.
     import ctypes
 
-    from tapgauge.report import html
+    from tapgauge.heap import keep_freed_memory
 
     class NoMallopt:
         def __init__(self, name: object) -> None:
             pass
 
     monkeypatch.setattr(ctypes, "CDLL", NoMallopt)
-    html._keep_freed_memory()  # no AttributeError
+    keep_freed_memory()  # no AttributeError
 
     def missing(name: object) -> None:
         raise OSError("no C library")
 
     monkeypatch.setattr(ctypes, "CDLL", missing)
-    html._keep_freed_memory()
+    keep_freed_memory()

@@ -8,11 +8,11 @@ import math
 from pathlib import Path
 
 import pytest
+from conftest import DEMO
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from shapely.geometry import box as rect
 
-from conftest import DEMO
 from tapgauge.cli import main
 
 APP = "org.fernwick.allotments"
@@ -198,8 +198,9 @@ def test_the_re_check_near_the_growth_finds_what_the_whole_screen_does(monkeypat
     # neighbour gets 2 of them wrong).
     import random
 
-    import tapgauge.plan as plan_module
     from conftest import screen_of
+
+    import tapgauge.plan as plan_module
     from tapgauge.device import resolve_device
     from tapgauge.model import DeviceHints
     from tapgauge.pipeline import Settings, check_one_screen
@@ -232,6 +233,7 @@ def test_the_re_check_fails_exactly_the_rules_the_checks_do() -> None:
     import random
 
     from conftest import screen_of
+
     from tapgauge.checks import check_screen, failing, reach
     from tapgauge.device import resolve_device
     from tapgauge.measure import MeasureOptions, measure

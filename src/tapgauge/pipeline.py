@@ -19,6 +19,7 @@ from typing import TYPE_CHECKING, TypeVar
 from tapgauge.checks import check_screen, failing, reach
 from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
+from tapgauge.heap import keep_freed_memory
 from tapgauge.measure import MeasuredScreen, MeasureOptions, measure
 from tapgauge.model import Device, DeviceHints, InputError, RuleSet, Screen, ScreenResult
 from tapgauge.plan import plan_screen
@@ -163,7 +164,7 @@ def _ordered(work: Callable[[Path, Settings], list[T]], items: Iterator[Path | I
 
     batches = _chunks(items, jobs)
     window = jobs * 3
-    pool = ProcessPoolExecutor(max_workers=jobs)
+    pool = ProcessPoolExecutor(max_workers=jobs, initializer=keep_freed_memory)
     pending: deque[tuple[list[Path | InputError], Future[list[list[T | InputError]]] | None]] = deque()
 
     def submit(batch: list[Path | InputError]) -> Future[list[list[T | InputError]]] | None:
@@ -189,7 +190,7 @@ def _ordered(work: Callable[[Path, Settings], list[T]], items: Iterator[Path | I
                 again = [b for b, _ in pending]  # the broken pool took these down too
                 pending.clear()
                 pool.shutdown(wait=False, cancel_futures=True)
-                pool = ProcessPoolExecutor(max_workers=jobs)
+                pool = ProcessPoolExecutor(max_workers=jobs, initializer=keep_freed_memory)
                 pending.extend((b, submit(b)) for b in again)
             yield from results
             top_up()
@@ -218,7 +219,7 @@ def _one_by_one(work: Callable[[Path, Settings], list[T]], batch: list[Path | In
         if isinstance(item, InputError):
             out.append([item])
             continue
-        with ProcessPoolExecutor(max_workers=1) as solo:
+        with ProcessPoolExecutor(max_workers=1, initializer=keep_freed_memory) as solo:
             try:
                 out.append(list(solo.submit(work, item, settings).result()))
             except BrokenProcessPool:

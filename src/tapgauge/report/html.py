@@ -25,6 +25,7 @@ from pathlib import Path
 from typing import Any, TextIO
 
 from tapgauge.device import MM_PER_INCH
+from tapgauge.heap import keep_freed_memory
 from tapgauge.report.findings import first_profile, rule_index, screen_rows
 from tapgauge.report.records import Report
 from tapgauge.report.verdict import DISCLAIMER, summary_line
@@ -559,23 +560,7 @@ _HEAD: list[Head] = []  # a drawing process's report head, set once as it starts
 
 def _given(head: Head) -> None:
     _HEAD[:] = [head]
-    _keep_freed_memory()
-
-
-def _keep_freed_memory() -> None:
-    """In a drawing process, have the C library keep the memory it frees for the next picture instead of
-    handing it back to the system: each picture's few big buffers (the overlay, its pixels as numbers,
-    the palette indices) then reuse the same pages rather than fault in fresh zeroed ones, which cost
-    these processes about a fifth of their time. glibc only (mallopt; elsewhere nothing changes);
-    the process is ours and ends with the report."""
-    import ctypes
-
-    try:
-        mallopt = ctypes.CDLL(None).mallopt
-    except (OSError, AttributeError, TypeError):  # no C library found, or not glibc
-        return
-    mallopt(-1, 1 << 28)  # M_TRIM_THRESHOLD (glibc malloc.h): keep up to 256 MiB free at the heap's top
-    mallopt(-3, 1 << 25)  # M_MMAP_THRESHOLD: blocks up to 32 MiB (glibc's limit) from the heap, not mmap
+    keep_freed_memory()
 
 
 def _drawn(k: int, scr: dict[str, Any]) -> str:
