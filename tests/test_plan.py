@@ -5,7 +5,9 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Iterator
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import pytest
 from conftest import DEMO
@@ -14,6 +16,9 @@ from hypothesis import strategies as st
 from shapely.geometry import box as rect
 
 from tapgauge.cli import main
+
+if TYPE_CHECKING:
+    from tapgauge.model import Box, Device, Screen
 
 APP = "org.fernwick.allotments"
 
@@ -196,33 +201,19 @@ def test_the_re_check_near_the_growth_finds_what_the_whole_screen_does(monkeypat
     # 2-40 boxes anywhere on the screen, overlapping at times; with the three rule sets together some
     # plans are withdrawn only because of a neighbour near the growth (a re-check that looked at no
     # neighbour gets 2 of them wrong).
-    import random
-
-    from conftest import screen_of
-
     import tapgauge.plan as plan_module
-    from tapgauge.device import resolve_device
-    from tapgauge.model import DeviceHints
     from tapgauge.pipeline import Settings, check_one_screen
     from tapgauge.rulesets import select_rulesets
 
     settings_ = Settings(tuple(select_rulesets(["wcag-2.5.8", "android-guidance", "motor-mm"])))
     near_part = plan_module._near_part
-    rng = random.Random(7)
     checked = 0
-    for _ in range(120):
-        boxes = []
-        for _ in range(rng.randint(2, 40)):
-            x, y, w, h = rng.randint(0, 1000), rng.randint(0, 2200), rng.randint(10, 200), rng.randint(10, 200)
-            boxes.append((x, y, min(1080, x + w), min(2340, y + h)))
-        screen = screen_of(boxes)
-        for density in (420, 560):
-            device = resolve_device(screen, DeviceHints(density_dpi=density, xdpi=400.0, ydpi=400.0, source="test"))
-            monkeypatch.setattr(plan_module, "_near_part", near_part)
-            near = [t.plan for t in check_one_screen(screen, device, settings_).targets]
-            monkeypatch.setattr(plan_module, "_near_part", lambda again, grown, reach: again)  # the whole screen
-            assert near == [t.plan for t in check_one_screen(screen, device, settings_).targets], boxes
-            checked += sum(1 for p in near if p is not None)
+    for boxes, screen, device in _seeded_screens(7, 120, 40):
+        monkeypatch.setattr(plan_module, "_near_part", near_part)
+        near = [t.plan for t in check_one_screen(screen, device, settings_).targets]
+        monkeypatch.setattr(plan_module, "_near_part", lambda again, grown, reach: again)  # the whole screen
+        assert near == [t.plan for t in check_one_screen(screen, device, settings_).targets], boxes
+        checked += sum(1 for p in near if p is not None)
     assert checked > 1000
 
 
@@ -230,32 +221,40 @@ def test_the_re_check_fails_exactly_the_rules_the_checks_do() -> None:
     # The re-check asks only which (target, rule) pairs fail (checks.failing), without notes or sentences:
     # it must name the same pairs as the full checks on the same screen. Seeded overlapping layouts, three
     # rule sets (one in mm), two densities.
+    from tapgauge.checks import check_screen, failing, reach
+    from tapgauge.measure import MeasureOptions, measure
+    from tapgauge.rulesets import select_rulesets
+
+    rulesets = select_rulesets(["wcag-2.5.8", "android-guidance", "motor-mm"])
+    found = 0
+    for boxes, screen, device in _seeded_screens(11, 80, 60):
+        # Measured with the pair search of the pipeline (as wide as the rules look) and with none.
+        for wide in (reach(rulesets, device), 0.0):
+            m = measure(screen, device, MeasureOptions(), wide)
+            full = {(t.target.number, f.rule_id) for t in check_screen(m, rulesets, False).targets
+                    for f in t.findings}
+            assert failing(m, rulesets) == full, boxes
+            found += len(full)
+    assert found > 1000
+
+
+def _seeded_screens(seed: int, count: int, most: int) -> Iterator[tuple[list[Box], Screen, Device]]:
+    """`count` seeded layouts of 2 to `most` boxes anywhere on a 1080 x 2340 screen (overlapping at times),
+    each at two densities: (boxes, screen, device)."""
     import random
 
     from conftest import screen_of
 
-    from tapgauge.checks import check_screen, failing, reach
     from tapgauge.device import resolve_device
-    from tapgauge.measure import MeasureOptions, measure
     from tapgauge.model import DeviceHints
-    from tapgauge.rulesets import select_rulesets
 
-    rulesets = select_rulesets(["wcag-2.5.8", "android-guidance", "motor-mm"])
-    rng = random.Random(11)
-    found = 0
-    for _ in range(80):
+    rng = random.Random(seed)
+    for _ in range(count):
         boxes = []
-        for _ in range(rng.randint(2, 60)):
+        for _ in range(rng.randint(2, most)):
             x, y, w, h = rng.randint(0, 1000), rng.randint(0, 2200), rng.randint(10, 200), rng.randint(10, 200)
             boxes.append((x, y, min(1080, x + w), min(2340, y + h)))
         screen = screen_of(boxes)
         for density in (420, 560):
-            device = resolve_device(screen, DeviceHints(density_dpi=density, xdpi=400.0, ydpi=400.0, source="test"))
-            # Measured with the pair search of the pipeline (as wide as the rules look) and with none.
-            for wide in (reach(rulesets, device), 0.0):
-                m = measure(screen, device, MeasureOptions(), wide)
-                full = {(t.target.number, f.rule_id) for t in check_screen(m, rulesets, False).targets
-                        for f in t.findings}
-                assert failing(m, rulesets) == full, boxes
-                found += len(full)
-    assert found > 1000
+            yield boxes, screen, resolve_device(screen, DeviceHints(density_dpi=density, xdpi=400.0, ydpi=400.0,
+                                                                    source="test"))
