@@ -96,12 +96,10 @@ def candidate_pairs(boxes: FloatArray, reach: float, among: Pairs | None = None)
     ends = np.append(starts[1:], len(owner))
     group_end = np.repeat(ends, ends - starts)
     later = group_end - np.arange(len(owner)) - 1  # entries after this one in its cell
-    total = int(later.sum())
-    if total == 0:
+    if not later.any():
         return empty, empty
-    first = np.repeat(np.arange(len(owner)), later)
-    step = np.arange(total) - np.repeat(np.cumsum(later) - later, later) + 1
-    a, b = owner[first], owner[first + step]
+    first, second = _each_with_the_next(later)
+    a, b = owner[first], owner[second]
     lo, hi = np.minimum(a, b), np.maximum(a, b)
     keys = np.sort(lo.astype(np.int64) * n + hi)  # sort + diff: faster here than np.unique
     keys = keys[np.concatenate(([True], keys[1:] != keys[:-1]))]
@@ -115,13 +113,16 @@ def _sweep(grown: FloatArray) -> Pairs:
     n = len(grown)
     order = np.argsort(grown[:, 1], kind="stable")
     ends = np.searchsorted(grown[order, 1], grown[order, 3], side="right")
-    counts = ends - np.arange(1, n + 1)
-    total = int(counts.sum())
-    first = np.repeat(np.arange(n), counts)
-    step = np.arange(total) - np.repeat(np.cumsum(counts) - counts, counts) + 1
-    a, b = order[first], order[first + step]
+    first, second = _each_with_the_next(ends - np.arange(1, n + 1))
+    a, b = order[first], order[second]
     keys = np.sort(np.minimum(a, b).astype(np.int64) * n + np.maximum(a, b))
     return (keys // n).astype(np.intp), (keys % n).astype(np.intp)
+
+
+def _each_with_the_next(counts: IntArray) -> Pairs:
+    """Each position p paired with the `counts[p]` positions right after it: (p, p + 1) ... (p, p + counts[p])."""
+    first = np.repeat(np.arange(len(counts)), counts)
+    return first, first + np.arange(len(first)) - np.repeat(np.cumsum(counts) - counts, counts) + 1
 
 
 @functools.lru_cache(maxsize=SMALL + 1)
