@@ -15,7 +15,7 @@ import numpy as np
 
 from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import EPS, intersection_areas, nearest_gaps, sizes, spacing_conflicts
-from tapgauge.measure import MeasuredScreen
+from tapgauge.measure import MeasuredScreen, coords_per
 from tapgauge.difficulty import hit_probability
 from tapgauge.model import Device, Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult
 from tapgauge.profiles import find_profile
@@ -216,14 +216,13 @@ KINDS: dict[str, Kind] = {
 def reach(rulesets: list[RuleSet], device: Device) -> float:
     """How far, in coordinates, the rules look from a target for the neighbours that bear on its
     findings: the most any rule's kind says (Kind.reach); infinite where a kind does not say."""
-    per_mm = max(device.xdpi or 0.0, device.ydpi or 0.0) / MM_PER_INCH
     far = 0.0
     for rs in rulesets:
         for r in rs.rules:
             kind_reach = KINDS[r.kind].reach
             if kind_reach is None:
                 return float("inf")
-            far = max(far, kind_reach(dict(r.params)) * (per_mm if r.unit == "mm" else device.coords_per_unit))
+            far = max(far, kind_reach(dict(r.params)) * coords_per(device, r.unit))
     return far
 
 

@@ -91,14 +91,8 @@ class MeasuredScreen:
         """candidate_pairs of the checked boxes in `unit` ("px": coordinates) within `reach` of that unit."""
         boxes = self.boxes_px if unit == "px" else self.boxes(unit)
         if self.near is not None:
-            if unit == "px":
-                per = 1.0
-            elif unit == "mm":
-                per = max(self.device.xdpi or 0.0, self.device.ydpi or 0.0) / MM_PER_INCH
-            else:
-                per = self.device.coords_per_unit
             far, among = self.near
-            if reach * per <= far:
+            if reach * coords_per(self.device, unit) <= far:
                 return candidate_pairs(boxes, reach, among)
         return candidate_pairs(boxes, reach)
 
@@ -122,6 +116,16 @@ def free_sides(boxes: FloatArray, covers: tuple[tuple[int, ...], ...]) -> FloatA
         if len(over) > 1:
             side[pos] = largest_free_square(boxes[pos], boxes[list(over)])[0]
     return side
+
+
+def coords_per(device: Device, unit: str) -> float:
+    """Screen coordinates in one `unit` ("px": 1; "mm": along the axis with more of them; else the
+    platform unit): how far a reach in that unit goes, at most, in coordinates."""
+    if unit == "px":
+        return 1.0
+    if unit == "mm":
+        return max(device.xdpi or 0.0, device.ydpi or 0.0) / MM_PER_INCH
+    return device.coords_per_unit
 
 
 def to_unit(boxes: FloatArray, device: Device, unit: str) -> FloatArray:
