@@ -296,3 +296,13 @@ def test_a_sidecar_rewritten_in_place_is_read_anew(tmp_path: Path, capsys: pytes
     (tmp_path / "a" / "device.txt").write_text("Physical density: 480\n", encoding="utf-8")
     _, second, _ = _json([str(screen), "--rules", "android-guidance"], capsys)
     assert [r["screens"][0]["device"]["density_dpi"] for r in (first, second)] == [440, 480]
+
+
+def test_a_sidecar_far_larger_than_adb_writes_is_still_read(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Sidecars above the size kept in memory (real ones are a few hundred bytes) are parsed each time
+    (`wm density` wording as in the module docstring); blank lines are allowed anywhere."""
+    screen = _android(tmp_path, "\n" * 100_000 + "Physical density: 440\n")
+    _, first, _ = _json([str(screen), "--rules", "android-guidance"], capsys)
+    (tmp_path / "a" / "device.txt").write_text("\n" * 100_000 + "Physical density: 480\n", encoding="utf-8")
+    _, second, _ = _json([str(screen), "--rules", "android-guidance"], capsys)
+    assert [r["screens"][0]["device"]["density_dpi"] for r in (first, second)] == [440, 480]

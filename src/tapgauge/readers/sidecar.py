@@ -38,10 +38,20 @@ def _decode(data: bytes) -> str:
 def read_sidecar(path: Path) -> DeviceHints:
     """The hints a sidecar gives. A folder's `device.txt` serves every screen in it: it is read for each,
     but parsed once for as long as it says the same."""
-    return _parsed(path, read_bytes(path, "device sidecar"))
+    data = read_bytes(path, "device sidecar")
+    # Only a sidecar of a real one's size is remembered (adb's output is a few hundred bytes): a
+    # hostile batch of huge ones must not pile up in memory.
+    return _remembered(path, data) if len(data) <= _REMEMBERED_UP_TO else _parsed(path, data)
+
+
+_REMEMBERED_UP_TO = 64 * 1024  # bytes
 
 
 @functools.lru_cache(maxsize=64)
+def _remembered(path: Path, data: bytes) -> DeviceHints:
+    return _parsed(path, data)
+
+
 def _parsed(path: Path, data: bytes) -> DeviceHints:
     text = _decode(data)
     try:
