@@ -597,15 +597,14 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     not read as another).
     """
     rgb = img if img.mode == "RGB" else img.convert("RGB")
-    # Each pixel as one number (red + green * 256 + blue * 65536): Pillow's own 4-byte pixels copied
-    # out as they are stored, their fourth byte masked off (cheaper than packing them in another order).
-    packed = np.frombuffer(rgb.tobytes("raw", "RGBX"), dtype="<u4").reshape(rgb.height, rgb.width) & 0xFFFFFF
-    found = rgb.getcolors(256)
-    if found is not None:  # every colour gets its own entry: nothing to choose, nothing lost
-        exact = [c for _, c in found]
-        table = _colour_table()
-        table[[r | (g << 8) | (b << 16) for r, g, b in exact]] = np.arange(len(exact), dtype=np.uint8)
-        return _png(table.take(packed), [v for c in exact for v in c], flat=True)
+    # Pillow's own 4-byte pixels copied out as they are stored (cheaper than packing them in another
+    # order); the fourth byte is padding, masked off where a pixel's colour is wanted.
+    pixels = np.frombuffer(rgb.tobytes("raw", "RGBX"), dtype="<u4").reshape(rgb.height, rgb.width)
+    flat = _flat_rows(pixels)
+    if flat is not None:  # every colour gets its own entry: nothing to choose, nothing lost
+        rows, palette = flat
+        return _png(rows, palette, 4)
+    packed = pixels & 0xFFFFFF  # each pixel as one number: red + green * 256 + blue * 65536
     marks = list(dict.fromkeys(MARK_COLOURS))
     rest = max(1, colours - len(marks))
     quantized = rgb.quantize(rest, method=Image.Quantize.FASTOCTREE, dither=Image.Dither.NONE)
@@ -614,7 +613,48 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     index = np.array(quantized, dtype=np.uint8)
     for k, (r, g, b) in enumerate(marks):
         index[packed == (r | (g << 8) | (b << 16))] = rest + k
-    return _png(index, palette + [v for c in marks for v in c], flat=False)
+    # Unfiltered rows at level 6, as Pillow wrote them: on a screenshot, Up makes the file a fifth larger.
+    rows = np.empty((rgb.height, rgb.width + 1), dtype=np.uint8)
+    rows[:, 0] = 0
+    rows[:, 1:] = index
+    return _png(rows, bytes(palette + [v for c in marks for v in c]), 6)
+
+
+def _flat_rows(pixels: np.ndarray) -> tuple[np.ndarray, bytes] | None:
+    """A picture of at most 256 colours as PNG rows, each filtered as its difference from the row
+    above (PNG spec, section 9.2: filter type 2, Up), and its palette; None when it has more colours.
+
+    `pixels` (height, width) are Pillow's 4-byte pixels. Up makes the rows the background, a
+    frame's sides and the legend's margins repeat all zeros, and zlib at level 4 packs them smaller
+    than unfiltered rows at level 6 in half the time. A row the same as the one above is all zeros
+    whatever its colours (about half an overlay's rows), so only the others are looked at, and in
+    them only the pixels where the colour changes: a flat picture's rows are long runs of one
+    colour. The palette is the colours in order of their number (any order decodes the same).
+    """
+    height, width = pixels.shape
+    fresh = np.empty(height, dtype=bool)  # the rows that differ from the row above (padding too: a
+    fresh[0] = True  # row differing only there is looked at, and its filtered row comes out all zeros)
+    np.any(pixels[1:] != pixels[:-1], axis=1, out=fresh[1:])
+    kept = np.flatnonzero(fresh)
+    line = (pixels[kept] & 0xFFFFFF).ravel()  # those rows one after another, each pixel one number
+    starts = np.empty(1, dtype=np.intp)
+    starts[0] = 0
+    starts = np.concatenate([starts, np.flatnonzero(line[1:] != line[:-1]) + 1])  # where each run begins
+    values = line[starts]
+    exact = np.unique(values)
+    if len(exact) > 256:
+        return None
+    table = _colour_table()
+    table[exact] = np.arange(len(exact), dtype=np.uint8)
+    index = np.repeat(table[values], np.diff(starts, append=len(line))).reshape(len(kept), width)
+    rows = np.zeros((height, width + 1), dtype=np.uint8)
+    rows[:, 0] = 2
+    rows[0, 1:] = index[0]
+    # A kept row's row above is the same as the kept row before it (those between repeat it).
+    rows[kept[1:], 1:] = index[1:] - index[:-1]  # modulo 256, as the spec's filters are
+    palette = np.empty((len(exact), 3), dtype=np.uint8)
+    palette[:, 0], palette[:, 1], palette[:, 2] = exact & 0xFF, (exact >> 8) & 0xFF, exact >> 16
+    return rows, palette.tobytes()
 
 
 @functools.cache
@@ -630,28 +670,14 @@ def _chunk(kind: bytes, data: bytes) -> bytes:
     return struct.pack(">I", len(data)) + kind + data + struct.pack(">I", zlib.crc32(data, zlib.crc32(kind)))
 
 
-def _png(index: np.ndarray, palette: list[int], flat: bool) -> bytes:
-    """An 8-bit palette PNG (colour type 3) of `index` (height, width) with `palette` (r, g, b, ...).
-
-    Written here rather than by Pillow for the filter (PNG spec, section 9.2). A flat picture (a
-    wireframe: at most 256 colours) has each row stored as its difference from the row above
-    (filter type 2, Up): the rows it repeats (background, a frame's sides, the legend's margins)
-    become runs of zeros, and zlib at level 4 makes a smaller file than unfiltered rows at level 6
-    in half the time. A quantized screenshot's rows are left unfiltered at level 6, as Pillow
-    wrote them (there Up makes the file a fifth larger).
-    """
-    height, width = index.shape
-    rows = np.empty((height, width + 1), dtype=np.uint8)
-    if flat:
-        rows[:, 0] = 2
-        rows[0, 1:] = index[0]
-        np.subtract(index[1:], index[:-1], out=rows[1:, 1:])  # modulo 256, as the spec's filters are
-    else:
-        rows[:, 0] = 0
-        rows[:, 1:] = index
+def _png(rows: np.ndarray, palette: bytes, level: int) -> bytes:
+    """An 8-bit palette PNG (colour type 3) of `rows` (height, 1 + width: each row's filter type,
+    then its filtered indices), with `palette` (r, g, b, ...), deflated at `level`. Written here
+    rather than by Pillow for the filter (PNG spec, section 9.2)."""
+    height, width = rows.shape[0], rows.shape[1] - 1
     header = struct.pack(">IIBBBBB", width, height, 8, 3, 0, 0, 0)  # 8 bits, palette, deflate, no interlace
-    return b"".join([b"\x89PNG\r\n\x1a\n", _chunk(b"IHDR", header), _chunk(b"PLTE", bytes(palette)),
-                     _chunk(b"IDAT", deflate.compress(rows, 4 if flat else 6)), _chunk(b"IEND", b"")])
+    return b"".join([b"\x89PNG\r\n\x1a\n", _chunk(b"IHDR", header), _chunk(b"PLTE", palette),
+                     _chunk(b"IDAT", deflate.compress(rows, level)), _chunk(b"IEND", b"")])
 
 
 def overlay_name(screen: dict[str, Any]) -> Path:

@@ -1,0 +1,73 @@
+"""Short cuts taken to draw the HTML report's pictures faster must give the same pixels as the
+plain way. Each is checked on seeded random inputs against a reference outside the module:
+Pillow's and libpng's (OpenCV's) PNG decoders, and Pillow's own getcolors and resize.
+"""
+
+from __future__ import annotations
+
+import io
+import random
+
+import numpy as np
+import pytest
+from PIL import Image
+
+from tapgauge.report.overlay import png_bytes
+
+
+def _flat_picture(rng: random.Random, width: int, height: int, colours: int) -> np.ndarray:
+    """A picture like an overlay: rows of long runs, many rows repeating the one above, `colours`
+    colours in all (each used at least once)."""
+    palette = np.array(rng.sample(range(1 << 24), colours), dtype=np.uint32)
+    rgb = np.stack([palette & 0xFF, (palette >> 8) & 0xFF, palette >> 16], axis=1).astype(np.uint8)
+    out = np.empty((height, width, 3), dtype=np.uint8)
+    for y in range(height):
+        if y and rng.random() < 0.5:
+            out[y] = out[y - 1]
+            continue
+        x = 0
+        while x < width:
+            run = rng.choice([1, 1, 2, 5, 40, width])
+            out[y, x:x + run] = rgb[rng.randrange(colours)]
+            x += run
+    flat = out.reshape(-1, 3)
+    flat[rng.sample(range(len(flat)), min(colours, len(flat)))] = rgb[:min(colours, len(flat))]
+    return out
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_a_flat_picture_decodes_pixel_for_pixel(seed: int) -> None:
+    # PNG spec (2nd edition, W3C), section 9.2: a palette image's rows filtered with Up decode to the
+    # picture given; Pillow's decoder undoes the filter. Every colour of a picture of at most 256 is
+    # kept (11.2.3: PLTE holds up to 256 entries), so the decoded pixels are the picture's own.
+    rng = random.Random(seed)
+    for width, height, colours in [(1, 1, 1), (1, 9, 2), (9, 1, 3), (37, 23, 5), (200, 150, 200), (64, 64, 256),
+                                   (300, 120, rng.randrange(1, 257))]:
+        pic = _flat_picture(rng, width, height, min(colours, width * height))
+        data = png_bytes(Image.fromarray(pic))
+        decoded = Image.open(io.BytesIO(data))
+        assert decoded.format == "PNG" and decoded.mode == "P"
+        assert np.array_equal(np.asarray(decoded.convert("RGB")), pic), (seed, width, height, colours)
+        # The palette holds exactly the picture's colours, as Pillow counts them.
+        found = Image.fromarray(pic).getcolors(256)
+        assert found is not None
+        palette = decoded.getpalette() or []
+        entries = {tuple(palette[k:k + 3]) for k in range(0, len(palette), 3)}
+        assert entries == {c for _, c in found}
+
+
+def test_a_flat_picture_decodes_the_same_in_libpng() -> None:
+    # libpng (inside OpenCV) checks each chunk's CRC and undoes the filters on its own (PNG spec 5.3, 9.2).
+    cv2 = pytest.importorskip("cv2")
+    pic = _flat_picture(random.Random(7), 240, 180, 120)
+    data = png_bytes(Image.fromarray(pic))
+    theirs = cv2.imdecode(np.frombuffer(data, dtype=np.uint8), cv2.IMREAD_COLOR)[..., ::-1]
+    assert np.array_equal(theirs, pic)
+
+
+def test_one_colour_more_than_a_palette_holds_is_quantized() -> None:
+    # 257 colours cannot all have an entry (PNG spec 11.2.3): the picture goes into 64 colours instead.
+    pic = _flat_picture(random.Random(3), 120, 90, 257)
+    assert Image.fromarray(pic).getcolors(256) is None
+    decoded = Image.open(io.BytesIO(png_bytes(Image.fromarray(pic), 64)))
+    assert decoded.mode == "P" and len(decoded.convert("RGB").getcolors(256) or range(65)) <= 64
