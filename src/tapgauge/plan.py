@@ -254,15 +254,12 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[Box | 
             needs: dict[int, Need]) -> ScreenResult:
     k_unit = m.device.coords_per_unit
     unit = m.device.unit
-    boxes = np.asarray(m.boxes_px, dtype=float)
-    by_k = {m.checked[pos]: pos for pos in planned}
+    boxes = np.asarray(m.boxes_px, dtype=float).tolist()
     targets = list(sr.targets)
-    for k, tr in enumerate(sr.targets):
-        pos = by_k.get(k)
-        if pos is None:
-            continue
-        box, why = planned[pos]
-        old = boxes[pos].tolist()
+    for pos, (box, why) in planned.items():
+        k = m.checked[pos]
+        tr = targets[k]
+        old = boxes[pos]
         rules = needs[pos].rules
         if box is not None and why[0] == "limits":
             new = box

@@ -65,15 +65,15 @@ def grown_boxes(m: MeasuredScreen, needs: list[Need], margin: float, keep: set[i
     numbers = [t.number for t in all_t]
     boxes = obs[:len(m.checked)]
     growing = {n.pos: n for n in needs if n.pos in keep}
-    demand = np.zeros((len(all_t), 2))
-    for n in growing.values():
-        demand[n.pos] = (max(0.0, n.side[0] - (boxes[n.pos, 2] - boxes[n.pos, 0])),
-                         max(0.0, n.side[1] - (boxes[n.pos, 3] - boxes[n.pos, 1])))
-    is_growing = np.zeros(len(all_t), dtype=bool)
-    is_growing[list(growing)] = True
-    every = np.array(sorted(growing), dtype=np.intp)
-    if not len(every):
+    if not growing:
         return {}
+    demand = np.zeros((len(all_t), 2))
+    at = np.fromiter(growing, dtype=np.intp, count=len(growing))
+    mine = boxes[at]  # what each still needs, across and down: the square's side less the box's
+    demand[at] = np.maximum(0.0, np.array([n.side for n in growing.values()], dtype=float) - (mine[:, 2:] - mine[:, :2]))
+    is_growing = np.zeros(len(all_t), dtype=bool)
+    is_growing[at] = True
+    every = np.sort(at)
     # Only the obstacles that can limit a growth: one whose room is more than the growth it faces changes
     # no plan (_spread takes as much either way, and no side it bounds is tight), and a room (its free
     # gap, or half of it when shared) is more than any growth here beyond a gap of twice the largest
