@@ -104,35 +104,35 @@ def place_tags(boxes: Sequence[Rect], sizes: Sequence[tuple[float, float]], area
     width, height = area
     obstacles = np.array([(l - clear, t - clear, r + clear, b + clear) for l, t, r, b in boxes],
                          dtype=float).reshape(-1, 4)
-    placed = np.zeros((0, 4))
-    lines = np.zeros((0, 4))  # leaders drawn so far: x0, y0, x1, y1
-    # The same as plain numbers, for the quick look beside each box (most tags end there).
+    # Tags and leaders placed so far, as plain numbers: most tags end beside their box, found
+    # without arrays; the arrays are made only for a tag that needs them.
     obstacle_list = [tuple(float(v) for v in row) for row in obstacles.tolist()]
     placed_list: list[Rect] = []
-    line_list: list[tuple[float, float, float, float]] = []
+    line_list: list[tuple[float, float, float, float]] = []  # leaders drawn so far: x0, y0, x1, y1
     spots: list[TagSpot] = []
     for i, (box, (tw, th)) in enumerate(zip(boxes, sizes)):
         tw, th = min(tw, width), min(th, height)
         l, t, r, b = box
         g = gap + clear
+        beside = [(l, t - g - th), (r - tw, t - g - th), (l, b + g), (r - tw, b + g),
+                  (l - g - tw, t), (r + g, t), (l - g - tw, b - th), (r + g, b - th)]
+        free = _free_beside(box, beside, tw, th, g, gap, area, obstacle_list, i, placed_list, line_list)
+        if free is not None:  # what _Look.best would choose among `beside`, found without arrays
+            spots.append(TagSpot(free, None))
+            placed_list.append(free)
+            continue
         # A box holding this one (a list row round its buttons) is no obstacle: the tag may sit on
         # it, beside its own box, as the box itself does.
         holds = ((obstacles[:, 0] <= l) & (obstacles[:, 1] <= t) & (obstacles[:, 2] >= r) & (obstacles[:, 3] >= b))
         holds[i] = True
         others = obstacles[~holds]
-        beside = [(l, t - g - th), (r - tw, t - g - th), (l, b + g), (r - tw, b + g),
-                  (l - g - tw, t), (r + g, t), (l - g - tw, b - th), (r + g, b - th)]
         # Inside its own box's right-hand corners: the last resort before covering or crossing
         # another box, for a box four times the tag or more (rows stacked edge to edge); a row's
         # words mostly start on the left.
         roomy = 4 * tw * th <= (r - l) * (b - t) and tw + 2 * g <= r - l and th + 2 * g <= b - t
         inside = [(r - g - tw, t + g), (r - g - tw, b - g - th), (l + g, t + g), (l + g, b - g - th)] if roomy else []
-        free = _free_beside(box, beside, tw, th, g, gap, area, obstacle_list, i, placed_list, line_list)
-        if free is not None:  # what _Look.best would choose among `beside`, found without arrays
-            spots.append(TagSpot(free, None))
-            placed = np.vstack([placed, [free]])
-            placed_list.append(free)
-            continue
+        placed = np.array(placed_list, dtype=float).reshape(-1, 4)
+        lines = np.array(line_list, dtype=float).reshape(-1, 4)
         look = _Look(box, tw, th, g, obstacles[i], others, placed, lines, gap, area, roomy)
         best = look.best(np.array(beside, dtype=float))
         if best.cost[:7] != (0,) * 7:  # not beside the box: the nearest free spot around it
@@ -145,10 +145,8 @@ def place_tags(boxes: Sequence[Rect], sizes: Sequence[tuple[float, float]], area
             corners, columns = _grid(whole, tw, th, 0.0, max(th / 2, 1.0))
             best = min(best, look.best(corners, rank=1, columns=columns))
         spots.append(TagSpot(best.rect, best.leader))
-        placed = np.vstack([placed, [best.rect]])
         placed_list.append(best.rect)
         if best.leader:
-            lines = np.vstack([lines, [[*best.leader[0], *best.leader[1]]]])
             line_list.append((*best.leader[0], *best.leader[1]))
     return spots
 
@@ -283,6 +281,11 @@ class _Look:
         on_own = _overlap_areas(rects[keep], self.own[None, :])[:, 0]
         on_own = on_own[narrow(on_own * (not self.roomy))]
         dist = _gaps(rects[keep], self.box)
+        if len(keep) > _NEAREST and (clear := self._clear_first(rects[keep], grown[keep], on_own, dist, placed,
+                                                                   others, seg)) is not None:
+            k, leader = clear
+            least += [0.0, 0.0, 0.0, float(on_own[k]), float(dist[k])]
+            return _Spot((*least, rank), tuple(float(v) for v in rects[keep[k]]), leader)  # type: ignore[arg-type]
         moved = dist > self.g + 0.5  # set away from its box: it needs a leader
         a, z = _leaders(rects[keep], self.box)
         # A tag over an earlier leader hides it; a leader through an earlier tag is lost under it.
@@ -300,6 +303,32 @@ class _Look:
         rect = tuple(float(v) for v in rects[keep[0]])  # ties go to the spot listed first
         leader = ((float(a[0, 0]), float(a[0, 1])), (float(z[0, 0]), float(z[0, 1]))) if moved[0] else None
         return _Spot((*least, rank), rect, leader)  # type: ignore[arg-type]
+
+    def _clear_first(self, rects: np.ndarray, grown: np.ndarray, on_own: np.ndarray, dist: np.ndarray,
+                     placed: np.ndarray, others: np.ndarray, seg: np.ndarray) -> tuple[int, tuple[Point, Point] | None] | None:
+        """The costs left after the areas are what a spot's leader crosses, then its own box's area
+        covered, then its distance. A spot whose tag and leader cross nothing beats every spot that
+        crosses something, so the first such spot in order of (own box covered, distance, listed
+        order) is the best of all: look for it among the `_NEAREST` first in that order, and give
+        its place among `rects` and its leader; None when none of them is clear (then every spot is
+        judged). Each cost is worked out in the same steps as in `best`, on fewer spots."""
+        first = np.lexsort((np.arange(len(rects)), dist, on_own))[:_NEAREST]
+        rects, moved = rects[first], dist[first] > self.g + 0.5
+        a, z = _leaders(rects, self.box)
+        crossed = _led(moved, a, z, lambda p, q: _crossings(p, q, _grown(placed, self.gap)))
+        if len(seg):
+            crossed += _crossings(seg[:, :2], seg[:, 2:], grown[first]).sum(axis=0)
+        crossed += _led(moved, a, z, lambda p, q: _segments_cross(p, q, seg))
+        crossed += _led(moved, a, z, lambda p, q: _crossings(p, q, others))
+        clear = np.flatnonzero(crossed == 0)
+        if not len(clear):
+            return None
+        k = clear[0]
+        leader = ((float(a[k, 0]), float(a[k, 1])), (float(z[k, 0]), float(z[k, 1]))) if moved[k] else None
+        return int(first[k]), leader
+
+
+_NEAREST = 16  # spots looked at first for one that crosses nothing (any number gives the same choice)
 
 
 def _led(moved: np.ndarray, a: np.ndarray, z: np.ndarray,
