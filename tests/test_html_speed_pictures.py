@@ -118,3 +118,37 @@ def test_tags_set_aside_go_where_judging_every_spot_puts_them(monkeypatch: pytes
     assert quick == [place_tags(b, s, a, gap=g, clear=c) for b, s, a, (g, c) in layouts]
     monkeypatch.setattr(tags, "_NEAREST", 1 << 30)  # every spot judged
     assert quick == [place_tags(b, s, a, gap=g, clear=c) for b, s, a, (g, c) in layouts]
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_colours_are_counted_exactly_or_given_up_past_the_most(seed: int) -> None:
+    # png_bytes counts a picture's colours a slice at a time and stops past 256. Against Python's
+    # own set of the same numbers: the same colours, sorted, or None exactly when there are more.
+    from tapgauge.report.overlay import _colours
+
+    rng = random.Random(seed)
+    for n, distinct in [(1, 1), (4096, 256), (5000, 257), (100_000, 200), (100_000, 256), (100_000, 257),
+                        (300_000, 5000), (70_000, rng.randrange(1, 300))]:
+        pool = rng.sample(range(1 << 24), distinct)
+        values = np.array(pool + [rng.choice(pool) for _ in range(n - distinct)], dtype=np.uint32)
+        rng.shuffle(values)  # type: ignore[arg-type]
+        want = sorted(set(values.tolist()))
+        got = _colours(values, 256)
+        if len(want) > 256:
+            assert got is None, (n, distinct)
+        else:
+            assert got is not None and got.tolist() == want, (n, distinct)
+
+
+def test_a_few_rich_pixels_in_a_flat_picture_send_it_to_the_palette_of_64() -> None:
+    # 400 colours in a small patch of an otherwise flat picture: too many for a palette (PNG spec
+    # 11.2.3), though a sample of the picture's pixels may miss them. Quantized, marks exact.
+    from tapgauge.report.overlay import MARKS
+
+    pic = _flat_picture(random.Random(11), 300, 200, 40)
+    pic[10:30, 10:30] = np.array([(k % 256, 7, k // 2) for k in range(400)], dtype=np.uint8).reshape(20, 20, 3)
+    pic[100:110, 100:150] = MARKS["fail"].colour
+    decoded = Image.open(io.BytesIO(png_bytes(Image.fromarray(pic), 64))).convert("RGB")
+    back = np.asarray(decoded)
+    assert len(decoded.getcolors(256) or range(65)) <= 64
+    assert np.all(back[100:110, 100:150] == MARKS["fail"].colour)

@@ -632,6 +632,9 @@ def _flat_rows(pixels: np.ndarray) -> tuple[np.ndarray, bytes] | None:
     colour. The palette is the colours in order of their number (any order decodes the same).
     """
     height, width = pixels.shape
+    # A screenshot has thousands of colours: a few thousand pixels spread over it tell, at little cost.
+    if len(np.unique(pixels.ravel()[::max(1, pixels.size // 8192)] & 0xFFFFFF)) > 256:
+        return None
     fresh = np.empty(height, dtype=bool)  # the rows that differ from the row above (padding too: a
     fresh[0] = True  # row differing only there is looked at, and its filtered row comes out all zeros)
     np.any(pixels[1:] != pixels[:-1], axis=1, out=fresh[1:])
@@ -641,8 +644,8 @@ def _flat_rows(pixels: np.ndarray) -> tuple[np.ndarray, bytes] | None:
     starts[0] = 0
     starts = np.concatenate([starts, np.flatnonzero(line[1:] != line[:-1]) + 1])  # where each run begins
     values = line[starts]
-    exact = np.unique(values)
-    if len(exact) > 256:
+    exact = _colours(values, 256)
+    if exact is None:
         return None
     table = _colour_table()
     table[exact] = np.arange(len(exact), dtype=np.uint8)
@@ -655,6 +658,17 @@ def _flat_rows(pixels: np.ndarray) -> tuple[np.ndarray, bytes] | None:
     palette = np.empty((len(exact), 3), dtype=np.uint8)
     palette[:, 0], palette[:, 1], palette[:, 2] = exact & 0xFF, (exact >> 8) & 0xFF, exact >> 16
     return rows, palette.tobytes()
+
+
+def _colours(values: np.ndarray, most: int) -> np.ndarray | None:
+    """The distinct numbers among `values`, sorted; None as soon as there are more than `most`
+    (looked at a slice at a time, so a picture rich in colours is told without sorting them all)."""
+    found = np.unique(values[:4096])
+    start, step = 4096, 4096
+    while len(found) <= most and start < len(values):
+        found = np.unique(np.concatenate([found, values[start:start + step]]))
+        start, step = start + step, min(2 * step, 1 << 16)
+    return found if len(found) <= most else None
 
 
 @functools.cache
