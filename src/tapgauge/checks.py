@@ -26,7 +26,7 @@ PLATFORM_UNITS = ("dp", "pt")  # both mean "the platform's density-independent u
 class Detail(IntEnum):
     """How much a rule kind writes besides which targets fail it."""
 
-    FAILS = 0  # which targets fail, nothing more: the fix plans' re-check
+    FAILS = 0  # which targets fail, nothing more (each finding names only its rule): the fix plans' re-check
     NOTES = 1  # and the notes, with no sentences in the findings: the JSON report holds none
     WORDS = 2  # and every finding's sentence
 
@@ -80,10 +80,12 @@ def check_min_size(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS)
     under = side < size - EPS
     conflicts = (spacing_conflicts(boxes, under, size, m.pairs(_unit(rule), size)) if spacing and under.any()
                  else np.full(len(side), -1))
+    if detail == Detail.FAILS:
+        return _fails(rule, np.flatnonzero(under & (conflicts >= 0) if spacing else under))
     findings: list[tuple[int, Finding]] = []
     notes: list[tuple[int, str]] = []
     # Plain Python numbers from here on: formatting numpy scalars one by one is slow.
-    w, h = (np.round(a, 2).tolist() for a in sizes(boxes))  # as the report stores sizes
+    w, h = (np.round(a, 2).tolist() for a in sizes(boxes)) if words else ([], [])  # as the report stores sizes
     measured, conflict = np.round(side, 3).tolist(), conflicts.tolist()
     need = f"{_fmt(size)} {unit}"
     passes_note = f"{rule.id}: under {need}, passes by spacing (its {need} circle clears all other targets)"
@@ -105,6 +107,12 @@ def check_min_size(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS)
                 message += f"; its {need} circle intersects {_who(m, conflict[pos])}"
         findings.append((pos, Finding(rule.id, rule.severity, measured[pos], size, unit, message, other=other)))
     return KindResult(tuple(findings), tuple(notes))
+
+
+def _fails(rule: Rule, positions: np.ndarray) -> KindResult:
+    """Detail.FAILS: the failing positions, each with one finding that names the rule and nothing measured."""
+    failed = Finding(rule.id, rule.severity, 0.0, 0.0, "", "")
+    return KindResult(tuple((pos, failed) for pos in positions.tolist()))
 
 
 def _presumed_cover_notes(m: MeasuredScreen, rule: Rule, side: np.ndarray, size: float,
@@ -132,14 +140,17 @@ def check_min_gap(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS) 
     exempt_at = dict(rule.params).get("exempt_at_size")
     if exempt_at is not None:
         failing &= m.free_squares(_unit(rule)) < float(exempt_at) - EPS
+    if detail == Detail.FAILS:
+        return _fails(rule, np.flatnonzero(failing))
     findings: list[tuple[int, Finding]] = []
     gaps, others = nearest.tolist(), who.tolist()
     positions = np.flatnonzero(failing)
     # Among failing targets at zero gap, which overlap their neighbour (rather than touch it): all at once.
+    # The sentences are all that need it and the names (made per screen), so a run without them makes neither.
     overlapping = np.zeros(len(boxes), dtype=bool)
-    if len(positions):
+    if words and len(positions):
         overlapping[positions] = intersection_areas(boxes[positions], boxes[who[positions]]) > 0
-    measured, labels = np.round(nearest, 3).tolist(), m.labels
+    measured, labels = np.round(nearest, 3).tolist(), m.labels if words else []
     need = f"; needs {_fmt(gap)} {unit} clear" if words else ""
     for pos in positions.tolist():
         d, other = gaps[pos], others[pos]

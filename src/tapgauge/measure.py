@@ -248,10 +248,10 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
         checked=checked,
         unchecked=tuple(sorted(unchecked.items())),
         boxes_px=boxes,
-        covers=tuple(tuple(sorted(c)) for c in covers),
+        covers=tuple(tuple(sorted(c)) if c else () for c in covers),  # most have none
         clipped_by=tuple(_clipped(targets[k], clipped.get(k, ""), roles, screen) for k in checked),
         notices=tuple(notices),
-        maybe_covers=tuple(tuple(sorted(c)) for c in maybe),
+        maybe_covers=tuple(tuple(sorted(c)) if c else () for c in maybe),
         near=near,
     )
 
