@@ -30,7 +30,10 @@ def start_in_coords(sr: ScreenResult, start: str, xy: tuple[float, float] | None
 def _misses(hit: np.ndarray) -> list[float | None]:
     """Miss probabilities rounded to 4 decimals; None where unknown (no physical size)."""
     miss = np.round(1 - hit, 4)
-    if np.isnan(miss).all():
+    unknown = np.isnan(miss)
+    if not unknown.any():
+        return miss.tolist()  # type: ignore[no-any-return]
+    if unknown.all():
         return [None] * len(miss)
     return [None if math.isnan(v) else v for v in miss.tolist()]
 
