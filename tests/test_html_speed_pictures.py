@@ -152,3 +152,35 @@ def test_a_few_rich_pixels_in_a_flat_picture_send_it_to_the_palette_of_64() -> N
     back = np.asarray(decoded)
     assert len(decoded.getcolors(256) or range(65)) <= 64
     assert np.all(back[100:110, 100:150] == MARKS["fail"].colour)
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_a_plans_hatching_is_the_ring_masked_as_pillow_masks_it(seed: int) -> None:
+    # The hatching of a fix plan's ring is drawn as its lines with the target's box cleared. The
+    # reference is Pillow's own: the lines masked by the ring (area less box) through ImageChops.darker
+    # (the lesser of two masks), pasted in sky blue, on seeded areas, some reaching past the picture.
+    from PIL import ImageChops, ImageDraw
+
+    from tapgauge.report.overlay import CIRCLE, _planned, picture_scale
+
+    rng = random.Random(seed)
+    for _ in range(20):
+        w, h = rng.randrange(50, 300), rng.randrange(50, 300)
+        ground = np.array(rng.choices(range(256), k=w * h * 3), dtype=np.uint8).reshape(h, w, 3)
+        l, t = rng.uniform(-40, w - 10), rng.uniform(-40, h - 10)
+        area = (l, t, l + rng.uniform(12, 200), t + rng.uniform(12, 200))
+        inset = rng.uniform(2, 5)
+        box = (area[0] + inset, area[1] + inset, area[2] - inset, area[3] - inset)
+        sc = picture_scale(rng.choice([360, 720, 1440]), rng.choice([1.0, 2.0]))
+        ours = Image.fromarray(ground)
+        _planned(ours, area, box, sc)
+        want = Image.fromarray(ground)
+        al, at, ar, ab = (round(v) for v in area)
+        ring, hatch = Image.new("L", want.size, 0), Image.new("L", want.size, 0)
+        ImageDraw.Draw(ring).rectangle([al, at, ar - 1, ab - 1], fill=255)
+        ImageDraw.Draw(ring).rectangle([round(box[0]), round(box[1]), round(box[2]) - 1, round(box[3]) - 1], fill=0)
+        for x in range(al - (ab - at), ar, sc.px(6)):
+            ImageDraw.Draw(hatch).line([(x, ab), (x + (ab - at), at)], fill=255, width=sc.px(1))
+        want.paste(CIRCLE, (0, 0, w, h), ImageChops.darker(ring, hatch))
+        ImageDraw.Draw(want).rectangle([al, at, ar - 1, ab - 1], outline=CIRCLE, width=sc.px(1))
+        assert np.array_equal(np.asarray(ours), np.asarray(want)), (seed, area, box)

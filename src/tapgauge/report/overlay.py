@@ -549,18 +549,16 @@ def _planned(picture: Image.Image, area: Rect, box: Rect, sc: Scale) -> None:
     # same pixels, drawn in that window's coordinates (whole-pixel shifts), at a fraction of the cost.
     x0, y0, x1, y1 = max(l, 0), max(t, 0), min(r, picture.width), min(b, picture.height)
     if x1 > x0 and y1 > y0:
-        size = (x1 - x0, y1 - y0)
-        ring = Image.new("L", size, 0)
-        mask = ImageDraw.Draw(ring)
-        mask.rectangle([l - x0, t - y0, r - 1 - x0, b - 1 - y0], fill=255)
-        mask.rectangle([round(box[0]) - x0, round(box[1]) - y0, round(box[2]) - 1 - x0, round(box[3]) - 1 - y0],
-                       fill=0)
-        hatch = Image.new("L", size, 0)
+        hatch = Image.new("L", (x1 - x0, y1 - y0), 0)
         lines = ImageDraw.Draw(hatch)
         step = sc.px(6)
         for x in range(l - (b - t), r, step):  # lines at 45 degrees across the planned area
             lines.line([(x - x0, b - y0), (x + (b - t) - x0, t - y0)], fill=255, width=sc.px(1))
-        picture.paste(CIRCLE, (x0, y0, x1, y1), Image.fromarray(np.minimum(np.asarray(ring), np.asarray(hatch))))
+        # Only the ring: the target's own box cleared (the window lies inside the area, so this is the
+        # hatch cut by a mask of the area less the box, without drawing that mask).
+        lines.rectangle([round(box[0]) - x0, round(box[1]) - y0, round(box[2]) - 1 - x0, round(box[3]) - 1 - y0],
+                        fill=0)
+        picture.paste(CIRCLE, (x0, y0, x1, y1), hatch)
     ImageDraw.Draw(picture).rectangle([l, t, r - 1, b - 1], outline=CIRCLE, width=sc.px(1))
 
 
@@ -639,11 +637,11 @@ def _flat_rows(pixels: np.ndarray) -> tuple[np.ndarray, bytes] | None:
     fresh[0] = True  # row differing only there is looked at, and its filtered row comes out all zeros)
     np.any(pixels[1:] != pixels[:-1], axis=1, out=fresh[1:])
     kept = np.flatnonzero(fresh)
-    line = (pixels[kept] & 0xFFFFFF).ravel()  # those rows one after another, each pixel one number
+    line = pixels[kept].ravel()  # those rows one after another
     starts = np.empty(1, dtype=np.intp)
     starts[0] = 0
     starts = np.concatenate([starts, np.flatnonzero(line[1:] != line[:-1]) + 1])  # where each run begins
-    values = line[starts]
+    values = line[starts] & 0xFFFFFF  # each run's colour as one number (runs split by padding alone repeat it)
     exact = _colours(values, 256)
     if exact is None:
         return None
