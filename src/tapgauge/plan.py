@@ -21,7 +21,7 @@ from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import as_boxes, intersection_areas
 from tapgauge.measure import MeasuredScreen
 from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult
-from tapgauge.room import EPS, SIDES, Need, Why, grown_boxes
+from tapgauge.room import EPS, SIDES, Need, Why, grown_boxes, limit_name
 
 WITHDRAWN: Why = ("withdrawn",)
 
@@ -283,17 +283,17 @@ def _move(box: Box, why: Why, rules: tuple[str, ...], k_unit: float, unit: str) 
         return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, unit=unit, k_unit=k_unit, why=why)
     _, axis, missing, low, high = why
     short = missing / k_unit
-    # A neighbour that also grows shares the room it opens: it must move twice as far.
-    if high.startswith("#"):
+    # A neighbour (or a holder) is what can move: the high side's first, else the low side's.
+    if high.code >= 4:
         who, sign = high, +1
-    elif low.startswith("#"):
+    elif low.code >= 4:
         who, sign = low, -1
     else:
         return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, short, unit=unit, k_unit=k_unit, why=why)
-    distance = short * (2 if who.endswith("*") else 1)
-    number = int(who.lstrip("#").split()[0].rstrip("*"))
+    distance = short * (2 if who.grows else 1)  # a neighbour that also grows shares the room it opens
     dx, dy = (sign * distance, 0.0) if axis == 0 else (0.0, sign * distance)
-    return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, short, (dx, dy), number, unit=unit, k_unit=k_unit, why=why)
+    return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, short, (dx, dy), who.number, unit=unit, k_unit=k_unit,
+                why=why)
 
 
 def _sentence(p: Plan) -> str:
@@ -314,7 +314,7 @@ def _sentence(p: Plan) -> str:
                 "neighbours, or make room around it")
     _, axis, _, low, high = p.why
     what = "across" if axis == 0 else "down"
-    between = f"between {low.rstrip('*')} and {high.rstrip('*')}"
+    between = f"between {limit_name(low)} and {limit_name(high)}"
     if p.mover is None:
         return (f"no room to grow: {_fmt(p.missing)} {unit} missing {what} {between}; it cannot reach the minimum "
                 "there: give it a larger container or another place")

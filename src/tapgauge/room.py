@@ -25,8 +25,23 @@ SIDES = ("left", "top", "right", "bottom")
 EPS = 1e-6
 
 # What a plan's sentence is made of (plan.Plan.why): ("limits", ((side, who), ...)), ("short", axis,
-# missing in coordinates, low limit, high limit), ("overlaps",) or ("withdrawn",).
+# missing in coordinates, low Limit, high Limit), ("overlaps",) or ("withdrawn",).
 Why = tuple[Any, ...]
+
+
+class Limit(NamedTuple):
+    """What bounds one side of a target's room where there is too little: numbers, named only when a
+    sentence is written (limit_name), since the JSON report holds no sentence."""
+
+    code: int  # 0-3: an edge (_LIMITS); 4: a target that holds it; 5: the nearest obstacle
+    number: int = 0  # codes 4 and 5: that target's number
+    grows: bool = False  # code 5: that target grows too, so the room it opens is shared
+
+
+def limit_name(limit: Limit) -> str:
+    if limit.code < 4:
+        return _LIMITS[limit.code]
+    return f"#{limit.number} (which holds it)" if limit.code == 4 else f"#{limit.number}"
 
 
 class Need(NamedTuple):
@@ -169,27 +184,27 @@ def _rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray, all
     code_l, who_l, axis_l, short_l = code.tolist(), who.tolist(), short_axis.tolist(), short.tolist()
     grows = is_growing.tolist()
 
-    def name(i: int, k: int) -> str:
+    def limit(i: int, k: int) -> Limit:
         c, q = code_l[i][k], who_l[i][k]
-        if c < 4:
-            return _LIMITS[c]
-        return f"#{numbers[q]} (which holds it)" if c == 4 else f"#{numbers[q]}" + ("*" if grows[q] else "")
+        # tuple.__new__: a NamedTuple's own __new__ is a Python call, and this runs for every side of every row
+        return _EDGES[c] if c < 4 else tuple.__new__(Limit, (c, numbers[q], c == 5 and grows[q]))
 
     for i, pos in enumerate(rows_l):
         hl, ht, hr, hb = obs_list[pos]
         if not fits_l[i]:
             ax = axis_l[i]
-            out[pos] = ((hl, ht, hr, hb), ("short", ax, short_l[i], name(i, ax), name(i, ax + 2)))
+            out[pos] = ((hl, ht, hr, hb), ("short", ax, short_l[i], limit(i, ax), limit(i, ax + 2)))
             continue
         gl, gt, gr, gb = growth_l[i]
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
-        limits = tuple((side, name(i, k).rstrip("*")) for k, side in enumerate(SIDES) if tight_l[i][k])
+        limits = tuple((side, limit_name(limit(i, k))) for k, side in enumerate(SIDES) if tight_l[i][k])
         out[pos] = ((hl - gl, ht - gt, hr + gr, hb + gb), ("limits", limits))
     return out
 
 
 # What bounds a side of a growing target's room, by code (4: a holder, 5: the nearest obstacle, by number).
 _LIMITS = ("the screen's edge", "its window's edge", "its scrolling container's edge", "another window's edge")
+_EDGES = tuple(Limit(c) for c in range(len(_LIMITS)))
 
 
 def _rare_limits(t: Target, box: list[float], lim: list[float], room: list[float], code: list[int], who: list[int],
