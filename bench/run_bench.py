@@ -12,16 +12,19 @@ targets: one process, one core. For each size a corpus is generated, then the fl
   With --tall the density of targets stays the same as they grow, which isolates
   how the checks scale (n log n) from how many neighbours each target has. The checks alone (measure + rules, on screens already read) show how the
   geometry grows with targets per screen.
-screens: whole processes, as a pipeline runs them. For each count, the floor (lxml
-  parsing every file in --jobs processes) and `tapgauge check DIR -f json -o FILE
+screens: whole processes, as a pipeline runs them. For each count, the floor (bench/floor.py: lxml
+  parsing every file in --jobs processes, importing nothing else) and `tapgauge check DIR -f json -o FILE
   --jobs N` run one after the other on the same corpus; wall time, and peak memory
   of the whole process tree (the parent plus its workers: proportional set size,
   so pages a forked worker shares with its parent count once; sampled from /proc).
 
 batch: the speed goal's own measure. One corpus (by default 1,000 dumps of 200 nodes, 100 of
-  them targets), then, alternating --repeat times: the floor, one whole process that parses every
-  file with lxml, and `tapgauge check DIR -f json -o FILE` with its default jobs; medians, their
+  them targets), then, alternating --repeat times: the floor (bench/floor.py), one whole process that
+  parses every file with lxml and imports nothing else, and `tapgauge check DIR -f json -o FILE` with its default jobs; medians, their
   ratio, and the report's bytes per byte of dumps.
+
+Whole processes run as an installed tool would: with its bytecode compiled first (into the run's
+temporary folder).
 
 Prints Markdown tables. No timing is asserted anywhere; speed is a ratio to the floor.
 """
@@ -38,12 +41,12 @@ import sys
 import tempfile
 import threading
 import time
-from multiprocessing import Pool
 from pathlib import Path
 
 from lxml import etree
 from timing import median_seconds
 
+import tapgauge
 from tapgauge.checks import check_screen
 from tapgauge.device import resolve_device
 from tapgauge.measure import measure
@@ -115,21 +118,6 @@ def bench_targets(sizes: list[int], n_screens: int, repeat: int, filler: int, ta
                   f"| {c / n / math.log2(n) * 1e6:.2f} |")
 
 
-def _floor_worker(files: list[str]) -> int:
-    for f in files:
-        etree.fromstring(Path(f).read_bytes())
-    return len(files)
-
-
-def floor_processes(files: list[Path], jobs: int) -> None:
-    if jobs == 1:
-        _floor_worker([str(f) for f in files])
-        return
-    chunks = [[str(f) for f in files[k::jobs]] for k in range(jobs)]
-    with Pool(jobs) as pool:
-        pool.map(_floor_worker, chunks)
-
-
 def _tree_pss_kb(root: int) -> int:
     """Memory of a process and all its descendants (Linux /proc), as proportional set size.
 
@@ -159,10 +147,21 @@ def _tree_pss_kb(root: int) -> int:
     return total
 
 
-def run_measured(cmd: list[str]) -> tuple[float, int]:
+def installed_env(tmp: Path) -> dict[str, str]:
+    """The environment of an installed tool: its bytecode compiled, as pip does at install time (here into a
+    folder of the run's own, so the source tree is left alone even where PYTHONDONTWRITEBYTECODE is set)."""
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+    env["PYTHONPYCACHEPREFIX"] = str(tmp / "pycache")
+    package = Path(tapgauge.__file__).resolve().parent
+    subprocess.run([sys.executable, "-m", "compileall", "-q", str(package)], env=env, check=True,
+                   stdout=subprocess.DEVNULL)
+    return env
+
+
+def run_measured(cmd: list[str], env: dict[str, str] | None = None) -> tuple[float, int]:
     """Wall seconds and peak memory of the process tree (KB of PSS, sampled every 50 ms) of a command."""
     t0 = time.perf_counter()
-    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL)
+    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, env=env)
     peak = [0]
 
     def sample() -> None:
@@ -190,11 +189,12 @@ def bench_screens(counts: list[int], targets: int, jobs: int, work: Path | None)
             folder = Path(tmp) / f"c{count}"
             files = make_corpus(folder, count, targets)
             out = Path(tmp) / "report.json"
-            floor_cmd = [sys.executable, __file__, "floor", str(folder), "--jobs", str(jobs)]
+            floor_cmd = [sys.executable, str(HERE / "floor.py"), str(folder), "--jobs", str(jobs)]
             tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", "json", "-o", str(out), "--quiet",
                        "-j", str(jobs)]
-            f, f_mem = run_measured(floor_cmd)
-            t, t_mem = run_measured(tap_cmd)
+            env = installed_env(Path(tmp))
+            f, f_mem = run_measured(floor_cmd, env)
+            t, t_mem = run_measured(tap_cmd, env)
             size = out.stat().st_size / 1e6
             out.unlink()
             print(f"| {count:,} | {f:.2f} | {t:.2f} | {len(files) / t:.0f} | {t / f:.1f}x | {t_mem / 1024:.0f} "
@@ -208,12 +208,13 @@ def bench_batch(screens: int, targets: int, filler: int, repeat: int, fmt: str, 
         files = make_corpus(folder, screens, targets, filler)
         dumps = sum(f.stat().st_size for f in files)
         out = Path(tmp) / f"report.{fmt}"
-        floor_cmd = [sys.executable, __file__, "floor", str(folder), "--jobs", "1"]
+        floor_cmd = [sys.executable, str(HERE / "floor.py"), str(folder)]
         tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", fmt, "-o", str(out), "--quiet"]
+        env = installed_env(Path(tmp))
         floor, tap = [], []
         for _ in range(repeat):  # alternate, so both see the same machine
-            floor.append(run_measured(floor_cmd)[0])
-            tap.append(run_measured(tap_cmd)[0])
+            floor.append(run_measured(floor_cmd, env)[0])
+            tap.append(run_measured(tap_cmd, env)[0])
         size = out.stat().st_size
     f, t = statistics.median(floor), statistics.median(tap)
     print(f"Batch: {screens:,} dumps ({dumps / 1e6:.1f} MB, {targets} targets and {targets * filler} other nodes "
@@ -247,18 +248,13 @@ def main() -> None:
     b.add_argument("--repeat", type=int, default=5)
     b.add_argument("--format", default="json")
     b.add_argument("--work", type=Path, default=None)
-    fl = sub.add_parser("floor")  # used by `screens`: the floor as a whole process
-    fl.add_argument("folder", type=Path)
-    fl.add_argument("--jobs", type=int, default=2)
     a = ap.parse_args()
     if a.mode == "targets":
         bench_targets(a.sizes, a.screens, a.repeat, a.filler, a.tall, a.modern)
     elif a.mode == "screens":
         bench_screens(a.counts, a.targets, a.jobs, a.work)
-    elif a.mode == "batch":
-        bench_batch(a.screens, a.targets, a.filler, a.repeat, a.format, a.work)
     else:
-        floor_processes(discover([a.folder])[0], a.jobs)
+        bench_batch(a.screens, a.targets, a.filler, a.repeat, a.format, a.work)
 
 
 if __name__ == "__main__":
