@@ -184,3 +184,57 @@ def test_a_plans_hatching_is_the_ring_masked_as_pillow_masks_it(seed: int) -> No
         want.paste(CIRCLE, (0, 0, w, h), ImageChops.darker(ring, hatch))
         ImageDraw.Draw(want).rectangle([al, at, ar - 1, ab - 1], outline=CIRCLE, width=sc.px(1))
         assert np.array_equal(np.asarray(ours), np.asarray(want)), (seed, area, box)
+
+
+def _demo_overlays(monkeypatch: pytest.MonkeyPatch) -> list[Image.Image]:
+    """Wireframe overlays of the invented demo screens, drawn as the HTML report draws them."""
+    from conftest import DEMO, REPO
+
+    from tapgauge.batch import prepare
+    from tapgauge.report.overlay import draw_overlay
+
+    monkeypatch.chdir(REPO)
+    run = prepare(None, None, None, None, None, None, None, None, [], "centre", "approach", None, jobs=1)
+    assert not isinstance(run, int)
+    report = run.report([DEMO / "android/plots.xml", DEMO / "android/plot_detail.xml", DEMO / "ios/seed_tray.xml"],
+                        None)
+    return [draw_overlay(s, report, None, max_width=720, text_scale=2.0) for s in report.screens]
+
+
+def test_the_legend_key_packed_once_decodes_as_drawn(monkeypatch: pytest.MonkeyPatch) -> None:
+    # The key under every overlay is packed once and joined to each picture's own rows in one zlib
+    # stream (RFC 1950: header, deflate data, Adler-32 of all the rows; RFC 1951: blocks ending on a
+    # byte after a sync flush may be followed by more). Pillow and libpng must read the pixels drawn.
+    from tapgauge.report import overlay
+
+    cv2 = pytest.importorskip("cv2")
+    pictures = _demo_overlays(monkeypatch)
+    for pic in pictures:
+        pixels = np.frombuffer(pic.tobytes("raw", "RGBX"), dtype="<u4").reshape(pic.height, pic.width)
+        data = overlay._png_with_key(pixels, pic.info.get(overlay.KEY_AT))
+        assert data is not None and png_bytes(pic) == data  # the key's way is the one taken
+        ours = np.asarray(Image.open(io.BytesIO(data)).convert("RGB"))
+        theirs = cv2.imdecode(np.frombuffer(data, dtype=np.uint8), cv2.IMREAD_COLOR)[..., ::-1]
+        assert np.array_equal(ours, np.asarray(pic)) and np.array_equal(theirs, ours)
+        palette = Image.open(io.BytesIO(data)).getpalette() or []
+        assert len(palette) // 3 == len(pic.getcolors(256) or range(257))  # each colour once
+
+
+def test_a_key_not_as_packed_is_packed_with_the_rest(monkeypatch: pytest.MonkeyPatch) -> None:
+    # A picture whose key rows were drawn over, or that says its key lies elsewhere, is packed the
+    # plain way: still every pixel as drawn (Pillow's decoder).
+    from PIL import ImageDraw
+
+    from tapgauge.report import overlay
+
+    pic = _demo_overlays(monkeypatch)[0]
+    top = pic.info[overlay.KEY_AT][0]
+    marked = pic.copy()
+    ImageDraw.Draw(marked).rectangle([10, top + 40, 60, top + 60], fill=(1, 2, 3))
+    moved = pic.copy()
+    moved.info[overlay.KEY_AT] = (top - 1, *pic.info[overlay.KEY_AT][1:])
+    for odd in (marked, moved):
+        pixels = np.frombuffer(odd.tobytes("raw", "RGBX"), dtype="<u4").reshape(odd.height, odd.width)
+        assert overlay._png_with_key(pixels, odd.info.get(overlay.KEY_AT)) is None
+        decoded = np.asarray(Image.open(io.BytesIO(png_bytes(odd))).convert("RGB"))
+        assert np.array_equal(decoded, np.asarray(odd))

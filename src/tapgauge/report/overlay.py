@@ -502,7 +502,11 @@ def _with_legend(base: Image.Image, screen: dict[str, Any], sc: Scale, notes: tu
     out.paste(base, (0, 0))
     _draw_rows(ImageDraw.Draw(out), laid, heights, base.height + margin, sc)
     out.paste(key, (0, top))
+    out.info[KEY_AT] = (top, base.width, sc, top % 2)
     return out
+
+
+KEY_AT = "tapgauge legend key"  # Image.info: where the key's rows lie (top, width, scale, parity), for png_bytes
 
 
 @functools.lru_cache(maxsize=16)
@@ -598,6 +602,9 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     # Pillow's own 4-byte pixels copied out as they are stored (cheaper than packing them in another
     # order); the fourth byte is padding, masked off where a pixel's colour is wanted.
     pixels = np.frombuffer(rgb.tobytes("raw", "RGBX"), dtype="<u4").reshape(rgb.height, rgb.width)
+    with_key = _png_with_key(pixels, img.info.get(KEY_AT))
+    if with_key is not None:
+        return with_key
     flat = _flat_rows(pixels)
     if flat is not None:  # every colour gets its own entry: nothing to choose, nothing lost
         rows, palette = flat
@@ -629,33 +636,125 @@ def _flat_rows(pixels: np.ndarray) -> tuple[np.ndarray, bytes] | None:
     them only the pixels where the colour changes: a flat picture's rows are long runs of one
     colour. The palette is the colours in order of their number (any order decodes the same).
     """
-    height, width = pixels.shape
-    # A screenshot has thousands of colours: a few thousand pixels spread over it tell, at little cost.
-    if len(np.unique(pixels.ravel()[::max(1, pixels.size // 8192)] & 0xFFFFFF)) > 256:
+    if _rich(pixels):
         return None
-    fresh = np.empty(height, dtype=bool)  # the rows that differ from the row above (padding too: a
-    fresh[0] = True  # row differing only there is looked at, and its filtered row comes out all zeros)
-    np.any(pixels[1:] != pixels[:-1], axis=1, out=fresh[1:])
-    kept = np.flatnonzero(fresh)
-    line = pixels[kept].ravel()  # those rows one after another
-    starts = np.empty(1, dtype=np.intp)
-    starts[0] = 0
-    starts = np.concatenate([starts, np.flatnonzero(line[1:] != line[:-1]) + 1])  # where each run begins
-    values = line[starts] & 0xFFFFFF  # each run's colour as one number (runs split by padding alone repeat it)
-    exact = _colours(values, 256)
+    runs = _Runs.of(pixels)
+    exact = _colours(runs.values, 256)
     if exact is None:
         return None
     table = _colour_table()
     table[exact] = np.arange(len(exact), dtype=np.uint8)
-    index = np.repeat(table[values], np.diff(starts, append=len(line))).reshape(len(kept), width)
-    rows = np.zeros((height, width + 1), dtype=np.uint8)
+    return runs.filtered(table, None), _palette(exact)
+
+
+def _rich(pixels: np.ndarray) -> bool:
+    """Whether a few thousand pixels spread over the picture already have more than 256 colours (a
+    screenshot has thousands: told at little cost)."""
+    return len(np.unique(pixels.ravel()[::max(1, pixels.size // 8192)] & 0xFFFFFF)) > 256
+
+
+class _Runs(NamedTuple):
+    """Rows of pixels as the runs of one colour in the rows that differ from the row above."""
+
+    kept: np.ndarray  # the rows that differ from the row above (the first always)
+    starts: np.ndarray  # where each run begins, counted along the kept rows one after another
+    values: np.ndarray  # each run's colour as one number: red + green * 256 + blue * 65536
+    shape: tuple[int, int]
+
+    @classmethod
+    def of(cls, pixels: np.ndarray) -> _Runs:
+        height = pixels.shape[0]
+        fresh = np.empty(height, dtype=bool)  # padding counts too: a row differing only there is
+        fresh[0] = True  # looked at, and its filtered row comes out all zeros
+        np.any(pixels[1:] != pixels[:-1], axis=1, out=fresh[1:])
+        kept = np.flatnonzero(fresh)
+        line = pixels[kept].ravel()
+        starts = np.empty(1, dtype=np.intp)
+        starts[0] = 0
+        starts = np.concatenate([starts, np.flatnonzero(line[1:] != line[:-1]) + 1])
+        # A run's colour from its first pixel (runs split by padding alone repeat it).
+        return cls(kept, starts, line[starts] & 0xFFFFFF, pixels.shape)
+
+    def filtered(self, table: np.ndarray, above: np.ndarray | None) -> np.ndarray:
+        """The rows filtered with Up, each pixel's palette index from `table`; `above` is the index
+        row above the first (None at the picture's top, where the spec takes a row of zeros)."""
+        height, width = self.shape
+        index = np.repeat(table[self.values], np.diff(self.starts, append=len(self.kept) * width))
+        index = index.reshape(len(self.kept), width)
+        rows = np.zeros((height, width + 1), dtype=np.uint8)
+        rows[:, 0] = 2
+        rows[0, 1:] = index[0] if above is None else index[0] - above
+        # A kept row's row above is the same as the kept row before it (those between repeat it).
+        rows[self.kept[1:], 1:] = index[1:] - index[:-1]  # modulo 256, as the spec's filters are
+        return rows
+
+
+def _palette(colours: np.ndarray) -> bytes:
+    rgb = np.empty((len(colours), 3), dtype=np.uint8)
+    rgb[:, 0], rgb[:, 1], rgb[:, 2] = colours & 0xFF, (colours >> 8) & 0xFF, colours >> 16
+    return rgb.tobytes()
+
+
+class _PackedKey(NamedTuple):
+    """The legend's key as png_bytes writes it under every picture: its colours first in the palette,
+    in a fixed order, so its rows after the first filter and deflate the same way every time."""
+
+    pixels: np.ndarray  # as stored by Pillow, to check a picture's rows against
+    colours: np.ndarray  # palette entries 0, 1, ...
+    last: np.ndarray  # the index row of its last row (the row above what follows it)
+    rows: bytes  # its rows after the first, filtered with Up
+    deflated: bytes  # those rows deflated at level 4 on their own, ending on a byte (sync flush)
+
+
+@functools.lru_cache(maxsize=16)
+def _packed_key(width: int, sc: Scale, parity: int) -> _PackedKey | None:
+    key = _key_block(width, sc, parity)
+    pixels = np.frombuffer(key.tobytes("raw", "RGBX"), dtype="<u4").reshape(key.height, key.width)
+    colours = _colours(pixels.ravel() & 0xFFFFFF, 256)
+    if colours is None or key.height < 2:
+        return None
+    index = np.searchsorted(colours, pixels & 0xFFFFFF).astype(np.uint8)
+    rows = np.empty((key.height - 1, width + 1), dtype=np.uint8)
     rows[:, 0] = 2
-    rows[0, 1:] = index[0]
-    # A kept row's row above is the same as the kept row before it (those between repeat it).
-    rows[kept[1:], 1:] = index[1:] - index[:-1]  # modulo 256, as the spec's filters are
-    palette = np.empty((len(exact), 3), dtype=np.uint8)
-    palette[:, 0], palette[:, 1], palette[:, 2] = exact & 0xFF, (exact >> 8) & 0xFF, exact >> 16
-    return rows, palette.tobytes()
+    np.subtract(index[1:], index[:-1], out=rows[:, 1:])
+    packer = deflate.compressobj(4, deflate.DEFLATED, -15)
+    deflated = packer.compress(rows) + packer.flush(deflate.Z_SYNC_FLUSH)
+    return _PackedKey(pixels, colours, index[-1], rows.tobytes(), deflated)
+
+
+def _png_with_key(pixels: np.ndarray, where: tuple[int, int, Scale, int] | None) -> bytes | None:
+    """The PNG of a flat overlay whose legend ends with the key at `where`, the key's rows taken as
+    packed once for all pictures (they are a fifth of a picture and most of its text): the same
+    rows, palette entries and pixels as `_flat_rows` would give them, deflated in three parts
+    joined into one zlib stream (RFC 1950, 1951). None when the key is not there as packed, or the
+    picture has more than 256 colours."""
+    if where is None:
+        return None
+    top, width, sc, parity = where
+    key = _packed_key(width, sc, parity)
+    height = pixels.shape[0]
+    if key is None or pixels.shape[1] != width or top < 1 or top + len(key.pixels) >= height:
+        return None
+    end = top + len(key.pixels)
+    if not np.array_equal(pixels[top:end], key.pixels) or _rich(pixels):
+        return None
+    upper, lower = _Runs.of(pixels[:top + 1]), _Runs.of(pixels[end:])  # the key's first row in `upper`
+    others = _colours(np.concatenate([upper.values, lower.values]), 256)
+    if others is None:
+        return None
+    extra = others[~np.isin(others, key.colours)]
+    if len(key.colours) + len(extra) > 256:
+        return None
+    table = _colour_table()
+    table[key.colours] = np.arange(len(key.colours), dtype=np.uint8)
+    table[extra] = np.arange(len(key.colours), len(key.colours) + len(extra), dtype=np.uint8)
+    head, tail = upper.filtered(table, None), lower.filtered(table, key.last)
+    first = deflate.compressobj(4, deflate.DEFLATED, -15)
+    last = deflate.compressobj(4, deflate.DEFLATED, -15)
+    check = deflate.adler32(tail, deflate.adler32(key.rows, deflate.adler32(head)))
+    stream = b"".join([b"\x78\x5e", first.compress(head), first.flush(deflate.Z_SYNC_FLUSH), key.deflated,
+                       last.compress(tail), last.flush(), struct.pack(">I", check)])
+    return _png_chunks(width, height, _palette(np.concatenate([key.colours, extra])), stream)
 
 
 def _colours(values: np.ndarray, most: int) -> np.ndarray | None:
@@ -686,10 +785,14 @@ def _png(rows: np.ndarray, palette: bytes, level: int) -> bytes:
     """An 8-bit palette PNG (colour type 3) of `rows` (height, 1 + width: each row's filter type,
     then its filtered indices), with `palette` (r, g, b, ...), deflated at `level`. Written here
     rather than by Pillow for the filter (PNG spec, section 9.2)."""
-    height, width = rows.shape[0], rows.shape[1] - 1
+    return _png_chunks(rows.shape[1] - 1, rows.shape[0], palette, deflate.compress(rows, level))
+
+
+def _png_chunks(width: int, height: int, palette: bytes, stream: bytes) -> bytes:
+    """The PNG file: signature, header, palette, the zlib stream of the filtered rows, end."""
     header = struct.pack(">IIBBBBB", width, height, 8, 3, 0, 0, 0)  # 8 bits, palette, deflate, no interlace
     return b"".join([b"\x89PNG\r\n\x1a\n", _chunk(b"IHDR", header), _chunk(b"PLTE", palette),
-                     _chunk(b"IDAT", deflate.compress(rows, level)), _chunk(b"IEND", b"")])
+                     _chunk(b"IDAT", stream), _chunk(b"IEND", b"")])
 
 
 def overlay_name(screen: dict[str, Any]) -> Path:
