@@ -238,3 +238,19 @@ def test_a_key_not_as_packed_is_packed_with_the_rest(monkeypatch: pytest.MonkeyP
         assert overlay._png_with_key(pixels, odd.info.get(overlay.KEY_AT)) is None
         decoded = np.asarray(Image.open(io.BytesIO(png_bytes(odd))).convert("RGB"))
         assert np.array_equal(decoded, np.asarray(odd))
+
+
+def test_tag_widths_kept_are_the_fonts_own() -> None:
+    # Tag widths are kept from picture to picture: each must be Pillow's own length of that text in
+    # that font, whatever came before (the same texts at two scales, in turn).
+    from tapgauge.report.overlay import MARKS, TAG_TEXT, _font, picture_scale, tag_size, tag_text
+
+    for _ in range(2):
+        for width, text_scale in [(720, 2.0), (1080, 1.0)]:
+            sc = picture_scale(width, text_scale)
+            font = _font(sc.px(TAG_TEXT))
+            for number in (1, 9, 42, 317):
+                for status in MARKS:
+                    text = tag_text(number, status)
+                    pad, swatch = sc.px(3), sc.px(8)
+                    assert tag_size(text, sc)[0] == pad + swatch + pad + font.getlength(text) + pad

@@ -336,7 +336,13 @@ def tag_size(text: str, sc: Scale) -> tuple[float, float]:
     font = _font(sc.px(TAG_TEXT))
     pad = sc.px(3)
     swatch = sc.px(8)
-    return pad + swatch + pad + font.getlength(text) + pad, float(sc.px(TAG_TEXT) + 2 * pad)
+    return pad + swatch + pad + _length(font, text) + pad, float(sc.px(TAG_TEXT) + 2 * pad)
+
+
+@functools.lru_cache(maxsize=4096)
+def _length(font: ImageFont.ImageFont | ImageFont.FreeTypeFont, text: str) -> float:
+    """`font.getlength(text)`, kept: the same tags ('#1 !', ...) come back on every picture."""
+    return font.getlength(text)
 
 
 def _tag(draw: ImageDraw.ImageDraw, rect: Rect, text: str, mark: Mark, sc: Scale) -> None:
