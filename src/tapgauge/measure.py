@@ -249,20 +249,31 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
         unchecked=tuple(sorted(unchecked.items())),
         boxes_px=boxes,
         covers=tuple(tuple(sorted(c)) if c else () for c in covers),  # most have none
-        clipped_by=tuple(_clipped(targets[k], clipped.get(k, ""), roles, screen) for k in checked),
+        clipped_by=_clipped_by(targets, checked, clipped, roles, screen),
         notices=tuple(notices),
         maybe_covers=tuple(tuple(sorted(c)) if c else () for c in maybe),
         near=near,
     )
 
 
-def _clipped(t: Target, already: str, roles: tuple[WindowRole, ...], screen: Screen) -> str:
-    if already:
-        return already
-    why = _clipping(t)
-    if not why and roles and t.window >= 0:
-        why = _window_edge(t, roles[t.window].bounds, screen.width, screen.height)
-    return why
+def _clipped_by(targets: tuple[Target, ...], checked: tuple[int, ...], clipped: dict[int, str],
+                roles: tuple[WindowRole, ...], screen: Screen) -> tuple[str, ...]:
+    """Per checked target, what may cut it off, or "": found while measuring (`clipped`), else a scrolling
+    ancestor's edge, else its window's. Only a window with an edge inside the screen can cut (a screen-wide
+    app window has none), and only a target under a scroller can meet a scroller's edge: the rest are ""
+    without a look."""
+    w, h = screen.width, screen.height
+    inner = [0 < wl or 0 < wt or wr < w or wb < h for wl, wt, wr, wb in (r.bounds for r in roles)]
+    out = []
+    for k in checked:
+        t = targets[k]
+        why = clipped.get(k, "")
+        if not why and t.scroll_ancestors:
+            why = _clipping(t)
+        if not why and t.window >= 0 and roles and inner[t.window]:
+            why = _window_edge(t, roles[t.window].bounds, w, h)
+        out.append(why)
+    return tuple(out)
 
 
 def _covered_containers(targets: tuple[Target, ...], candidates: list[int], device: Device) -> dict[int, str]:
