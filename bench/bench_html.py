@@ -2,10 +2,14 @@
 how long it takes to open.
 
 Usage: python bench/bench_html.py [--screens 500] [--targets 30] [--repeat 3] [--jobs N] [--no-open]
+                                  [--against SRC]
 Generates a corpus (no screenshots, so every overlay is a wireframe). Then, alternately, --repeat
 times each, as whole processes the way a user runs them:
   floor   `tapgauge check DIR -f json -o FILE`: the same reading, checks and records, no pictures
   html    `tapgauge check DIR -f html -o FILE`: all that, plus each screen's overlay and crops
+With --against SRC (the src folder of another checkout, e.g. one made by `git worktree add` at an
+older commit), the HTML report is also made with that code, in turn with the others, so that two
+versions are compared side by side on the same machine at the same time.
 Best of the runs (this shared machine's timings are noisy; the minimum is the steadiest), in
 seconds and as a ratio to the floor; what the HTML report costs beyond the checks is html - floor.
 Also the best CPU time (user + system) of each run's whole process tree: when other work shares
@@ -29,10 +33,12 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 
 
-def timed(args: list[str]) -> tuple[float, float]:
-    """Wall seconds, and CPU seconds (user + system) of the process and its workers."""
+def timed(args: list[str], src: str | None = None) -> tuple[float, float]:
+    """Wall seconds, and CPU seconds (user + system) of the process and its workers; with `src`, the
+    tapgauge imported is the one in that folder."""
+    env = None if src is None else {**os.environ, "PYTHONPATH": src}
     r0, t0 = resource.getrusage(resource.RUSAGE_CHILDREN), time.perf_counter()
-    subprocess.run(args, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    subprocess.run(args, check=False, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=env)  # exit 1: findings
     wall, r1 = time.perf_counter() - t0, resource.getrusage(resource.RUSAGE_CHILDREN)
     return wall, (r1.ru_utime - r0.ru_utime) + (r1.ru_stime - r0.ru_stime)
 
@@ -44,20 +50,28 @@ def main() -> None:
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--jobs", type=int, default=None, help="passed to tapgauge check (default: its own)")
     ap.add_argument("--no-open", action="store_true", help="skip opening the report in Chromium")
+    ap.add_argument("--against", metavar="SRC", help="also time the HTML report with the tapgauge in SRC")
     a = ap.parse_args()
+    against = str(Path(a.against).resolve()) if a.against else None
+    if against and not (Path(against) / "tapgauge" / "__init__.py").is_file():
+        sys.exit(f"--against {a.against}: expected a src folder holding tapgauge/__init__.py")
     with tempfile.TemporaryDirectory() as tmp:
         corpus, out, floor_out = Path(tmp) / "screens", Path(tmp) / "report.html", Path(tmp) / "report.json"
         subprocess.run([sys.executable, str(HERE / "make_corpus.py"), str(corpus), "--screens", str(a.screens),
                         "--targets", str(a.targets)], check=True)
         jobs = ["--jobs", str(a.jobs)] if a.jobs else []
         check = [sys.executable, "-m", "tapgauge", "check", str(corpus), *jobs]
-        floors, makes = [], []
-        for _ in range(a.repeat):  # alternate, so both see the same machine
+        floors, makes, others = [], [], []
+        other_out = Path(tmp) / "other.html"
+        for _ in range(a.repeat):  # alternate, so all see the same machine
             floors.append(timed([*check, "-f", "json", "-o", str(floor_out)]))
             makes.append(timed([*check, "-f", "html", "-o", str(out)]))
+            if against:
+                others.append(timed([*check, "-f", "html", "-o", str(other_out)], against))
         floor, make = min(w for w, _ in floors), min(w for w, _ in makes)
         floor_cpu, make_cpu = min(c for _, c in floors), min(c for _, c in makes)
         size = out.stat().st_size
+        other_size = other_out.stat().st_size if against else 0
         exe = None if a.no_open else shutil.which("chromium")
         load = None
         if exe:
@@ -65,7 +79,7 @@ def main() -> None:
             subprocess.run([exe, "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
                             "--disable-background-networking", "--disable-component-update", "--disable-sync",
                             f"--user-data-dir={tmp}/profile", "--dump-dom", out.as_uri()],
-                           stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, timeout=600)
+                           check=False, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, timeout=600)
             load = time.perf_counter() - t0
     print(f"{a.screens} screens of {a.targets} targets, {os.cpu_count()} cores, best of {a.repeat}\n")
     print("| floor: JSON report s | HTML report s | ratio to the floor | HTML beyond the floor, ms a screen "
@@ -74,6 +88,12 @@ def main() -> None:
     opened = f"{load:.1f}" if load is not None else "not opened"
     print(f"| {floor:.1f} | {make:.1f} | {make / floor:.1f}x | {(make - floor) / a.screens * 1e3:.0f} "
           f"| {floor_cpu:.1f}, {make_cpu:.1f} | {size / 1e6:.1f} | {size / a.screens / 1e3:.0f} | {opened} |")
+    if against:
+        wall, cpu = min(w for w, _ in others), min(c for _, c in others)
+        print(f"\nThe same with {against}, side by side:\n")
+        print("| HTML report s | ratio to the floor | CPU s | report MB |")
+        print("|---:|---:|---:|---:|")
+        print(f"| {wall:.1f} | {wall / floor:.1f}x | {cpu:.1f} | {other_size / 1e6:.1f} |")
 
 
 if __name__ == "__main__":
