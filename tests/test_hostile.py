@@ -304,6 +304,28 @@ def test_regression_baseline_difficulty_without_time(tmp_path: Path, capsys: pyt
     assert "baseline is damaged" in capsys.readouterr().err
 
 
+def test_regression_baseline_difficulty_without_miss(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Found by the baseline fuzzer: a difficulty entry without its miss raised KeyError inside the gate."""
+    doc = json.loads(_baseline_bytes(tmp_path))
+    sid = next(iter(doc["screens"]))
+    target = doc["screens"][sid]["targets"][0]
+    target["difficulty"] = {name: {"time_ms": 1.0} for name in target["difficulty"]}
+    (tmp_path / "b.json").write_text(json.dumps(doc))
+    assert main(["gate", str(DEMO / "releases" / "v1"), "-b", str(tmp_path / "b.json")]) == 2
+    assert "baseline is damaged" in capsys.readouterr().err
+
+
+def test_regression_baseline_bytes_not_utf8(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """Found by the baseline fuzzer: bytes that are not UTF-8 (here an overlong 0xC0 0x80) inside a screen
+    entry raised UnicodeDecodeError from the streaming parser instead of naming the damaged baseline."""
+    data = _baseline_bytes(tmp_path)
+    at = data.index(b'"targets"') + 2  # inside a string, where the parser decodes text
+    (tmp_path / "b.json").write_bytes(data[:at] + b"\xc0\x80" + data[at:])
+    assert main(["gate", str(DEMO / "releases" / "v1"), "-b", str(tmp_path / "b.json")]) == 2
+    err = capsys.readouterr().err
+    assert "not valid JSON" in err and "not UTF-8" in err and "Traceback" not in err
+
+
 # The project's own text inputs, fuzzed the same way: rule sets, profiles, configs, journeys, trial logs.
 RULESET = (Path(__file__).resolve().parent.parent / "rules" / "rulesets" / "wcag-2.5.8.toml").read_bytes()
 PROFILE = (Path(__file__).resolve().parent.parent / "rules" / "profiles" / "typical-adult.toml").read_bytes()

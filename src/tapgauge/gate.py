@@ -135,7 +135,7 @@ def read_header(path: Path) -> dict[str, Any]:
                     continue
                 elif prefix == "" and event not in ("map_key", "end_map"):
                     break  # not an object at all
-    except ijson.JSONError as exc:
+    except (ijson.JSONError, UnicodeDecodeError) as exc:
         if not found:
             raise InputError(path, f"baseline is not valid JSON ({_json_error(exc)}); re-record it") from None
     except OSError as exc:
@@ -144,6 +144,8 @@ def read_header(path: Path) -> dict[str, Any]:
 
 
 def _json_error(exc: Exception) -> str:
+    if isinstance(exc, UnicodeDecodeError):  # its position counts from the chunk the parser read, not the file
+        return f"bytes that are not UTF-8 text: {exc.reason}"
     return str(exc).splitlines()[0][:120] or type(exc).__name__
 
 
@@ -179,7 +181,8 @@ def _target_problem(t: Any) -> str:
         return "has 'size' that is not [width, height]"
     diff = t["difficulty"]
     if not isinstance(diff, dict) or not all(
-            isinstance(d, dict) and _is_number(d.get("time_ms")) and (d.get("miss") is None or _is_number(d["miss"]))
+            isinstance(d, dict) and _is_number(d.get("time_ms")) and "miss" in d
+            and (d["miss"] is None or _is_number(d["miss"]))
             for d in diff.values()):
         return "has 'difficulty' that is not profile -> {time_ms, miss}"
     approach = t.get("approach")
@@ -212,7 +215,7 @@ def baseline_screens(path: Path, fh: IO[bytes], version: int = BASELINE_VERSION)
             if version == 1:
                 entry = {**entry, "targets": [_from_version_1(t) for t in entry["targets"]]}
             yield sid, entry
-    except ijson.JSONError as exc:
+    except (ijson.JSONError, UnicodeDecodeError) as exc:
         raise InputError(path, f"baseline is not valid JSON ({_json_error(exc)}); re-record it") from None
 
 
