@@ -197,13 +197,17 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
     roles = window_roles(screen, options.app_package) if screen.windows else ()
     with_targets = {t.window for t in targets}
     notices: list[str] = [] if targets else ["no touch targets on this screen: nothing on it was checked"]
+    stacked = len(roles) > 1  # only another window can block or cut a target
+    # Identical boxes are one control as far as a finger can tell: check the one on top.
+    top_by_box: dict[tuple[int, int, int, int], int] = {}
+    twins = False
     for k, t in enumerate(targets):
         why = _exclusion(t)
         if not why and roles:
             role = roles[t.window]
             if role.role not in CHECKED_ROLES and not options.all_windows:
                 why = _role_reason(role.role, role.package)
-            else:
+            elif stacked:
                 why, cut = blocking_window(t, roles, with_targets)
                 if cut:
                     clipped[k] = cut
@@ -215,18 +219,19 @@ def measure(screen: Screen, device: Device, options: MeasureOptions = MeasureOpt
                 clipped.setdefault(k, "partly off-screen")
         if why:
             unchecked[k] = why
-    # Identical boxes are one control as far as a finger can tell: check the one on top.
-    top_by_box: dict[tuple[int, int, int, int], int] = {}
-    for k, t in enumerate(targets):
-        if k in unchecked:
             continue
         other = top_by_box.get(t.bounds)
-        if other is None or targets[other].paint_rank < t.paint_rank:
+        if other is None:
             top_by_box[t.bounds] = k
-    for k, t in enumerate(targets):
-        if k not in unchecked and top_by_box[t.bounds] != k:
-            on_top = targets[top_by_box[t.bounds]]
-            unchecked[k] = f"same bounds as #{on_top.number} '{on_top.name}', which is drawn over it"
+        else:
+            twins = True
+            if targets[other].paint_rank < t.paint_rank:
+                top_by_box[t.bounds] = k
+    if twins:  # rare: most screens have no two targets with the same box
+        for k, t in enumerate(targets):
+            if k not in unchecked and top_by_box[t.bounds] != k:
+                on_top = targets[top_by_box[t.bounds]]
+                unchecked[k] = f"same bounds as #{on_top.number} '{on_top.name}', which is drawn over it"
     candidates = [k for k in range(len(targets)) if k not in unchecked]
     unchecked.update(_covered_containers(targets, candidates, device))
     checked = tuple(k for k in candidates if k not in unchecked)
