@@ -237,15 +237,15 @@ def reach(rulesets: list[RuleSet], device: Device) -> float:
     return far
 
 
-def _sizes(m: MeasuredScreen) -> tuple[list[list[float]], list[list[float]] | None]:
-    """Every target's width and height in the platform unit and, with a ppi, in mm (2 decimals)."""
+def _sizes(m: MeasuredScreen) -> tuple[list[tuple[float, float]], list[tuple[float, float]] | None]:
+    """Every target's (width, height) in the platform unit and, with a ppi, in mm (2 decimals)."""
     dev = m.device
     bounds = np.array([t.bounds for t in m.screen.targets], dtype=float).reshape(-1, 4)
     w, h = bounds[:, 2] - bounds[:, 0], bounds[:, 3] - bounds[:, 1]
-    in_unit = np.round(np.stack([w, h], axis=1) / dev.coords_per_unit, 2).tolist()
+    in_unit = list(zip(*np.round(np.stack([w, h]) / dev.coords_per_unit, 2).tolist()))  # zip: pairs made in C
     if dev.xdpi is None or dev.ydpi is None:
         return in_unit, None
-    return in_unit, np.round(np.stack([w / dev.xdpi, h / dev.ydpi], axis=1) * MM_PER_INCH, 2).tolist()
+    return in_unit, list(zip(*np.round(np.stack([w / dev.xdpi, h / dev.ydpi]) * MM_PER_INCH, 2).tolist()))
 
 
 def _applied(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: bool,
@@ -296,7 +296,7 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
     results: list[TargetResult] = []
     in_unit, in_mm = _sizes(m)
     for k, target in enumerate(m.screen.targets):
-        size_unit, size_mm = tuple(in_unit[k]), None if in_mm is None else tuple(in_mm[k])
+        size_unit, size_mm = in_unit[k], None if in_mm is None else in_mm[k]
         if k in unchecked:
             results.append(TargetResult(target, "unchecked", unchecked[k], size_unit, size_mm, ()))
             continue
@@ -307,5 +307,5 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
         if fs:
             status = "partial" if m.clipped_by[pos] else "fail"
             reason = m.clipped_by[pos] and f"{m.clipped_by[pos]}: its full size is unknown"
-        results.append(TargetResult(target, status, reason, size_unit, size_mm, fs, tuple(notes.get(pos, []))))
+        results.append(TargetResult(target, status, reason, size_unit, size_mm, fs, tuple(notes[pos]) if pos in notes else ()))
     return ScreenResult(m.screen, m.device, tuple(results), tuple(notices), tuple(applied))
