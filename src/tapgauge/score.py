@@ -15,7 +15,7 @@ import numpy as np
 from tapgauge.difficulty import hit_probability, movement_time, predict
 from tapgauge.geometry import as_boxes
 from tapgauge.measure import to_unit
-from tapgauge.model import Approach, Difficulty, ScreenResult, TargetResult
+from tapgauge.model import Approach, Difficulty, ScreenResult, TargetResult, rows_of
 from tapgauge.profiles import Profile, start_points
 
 
@@ -55,8 +55,8 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
     # The approach (width, distance, ID) is the profiles' common ground: computed once; a profile
     # adds only its line (time) and its spread (miss).
     geometry = predict(reach, origin, 0.0, 0.0, None, 0.0, 0.0, width_model)
-    approaches = list(map(Approach, np.round(geometry.width, 4).tolist(), np.round(geometry.distance, 4).tolist(),
-                          np.round(geometry.id_bits, 4).tolist()))
+    approaches = rows_of(Approach, np.round(geometry.width, 4).tolist(), np.round(geometry.distance, 4).tolist(),
+                         np.round(geometry.id_bits, 4).tolist())
     columns = []
     for p in profiles:
         time = np.round(movement_time(geometry.id_bits, p.intercept_ms, p.slope_ms_per_bit), 2).tolist()
@@ -65,7 +65,7 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
         else:
             widths, heights = mm[:, 2] - mm[:, 0], mm[:, 3] - mm[:, 1]
             miss = _misses(hit_probability(widths, heights, p.alpha, p.sigma_a_mm))
-        columns.append(list(map(Difficulty, repeat(p.id), time, miss)))
+        columns.append(rows_of(Difficulty, repeat(p.id, len(time)), time, miss))
     per_target = zip(*columns)
     targets = list(sr.targets)
     for k, difficulty, approach in zip(scored, per_target, approaches):
