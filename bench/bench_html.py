@@ -31,12 +31,12 @@ import time
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+from timing import installed_env
 
 
-def timed(args: list[str], src: str | None = None) -> tuple[float, float]:
-    """Wall seconds, and CPU seconds (user + system) of the process and its workers; with `src`, the
-    tapgauge imported is the one in that folder."""
-    env = None if src is None else {**os.environ, "PYTHONPATH": src}
+def timed(args: list[str], env: dict[str, str]) -> tuple[float, float]:
+    """Wall seconds, and CPU seconds (user + system) of the process and its workers."""
     r0, t0 = resource.getrusage(resource.RUSAGE_CHILDREN), time.perf_counter()
     subprocess.run(args, check=False, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=env)  # exit 1: findings
     wall, r1 = time.perf_counter() - t0, resource.getrusage(resource.RUSAGE_CHILDREN)
@@ -63,11 +63,13 @@ def main() -> None:
         check = [sys.executable, "-m", "tapgauge", "check", str(corpus), *jobs]
         floors, makes, others = [], [], []
         other_out = Path(tmp) / "other.html"
+        env = installed_env(Path(tmp) / "here")
+        env_against = installed_env(Path(tmp) / "against", against) if against else env
         for _ in range(a.repeat):  # alternate, so all see the same machine
-            floors.append(timed([*check, "-f", "json", "-o", str(floor_out)]))
-            makes.append(timed([*check, "-f", "html", "-o", str(out)]))
+            floors.append(timed([*check, "-f", "json", "-o", str(floor_out)], env))
+            makes.append(timed([*check, "-f", "html", "-o", str(out)], env))
             if against:
-                others.append(timed([*check, "-f", "html", "-o", str(other_out)], against))
+                others.append(timed([*check, "-f", "html", "-o", str(other_out)], env_against))
         floor, make = min(w for w, _ in floors), min(w for w, _ in makes)
         floor_cpu, make_cpu = min(c for _, c in floors), min(c for _, c in makes)
         size = out.stat().st_size

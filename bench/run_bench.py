@@ -44,9 +44,8 @@ import time
 from pathlib import Path
 
 from lxml import etree
-from timing import median_seconds
+from timing import installed_env, median_seconds
 
-import tapgauge
 from tapgauge.checks import check_screen
 from tapgauge.device import resolve_device
 from tapgauge.measure import measure
@@ -145,17 +144,6 @@ def _tree_pss_kb(root: int) -> int:
         except OSError:
             continue
     return total
-
-
-def installed_env(tmp: Path) -> dict[str, str]:
-    """The environment of an installed tool: its bytecode compiled, as pip does at install time (here into a
-    folder of the run's own, so the source tree is left alone even where PYTHONDONTWRITEBYTECODE is set)."""
-    env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
-    env["PYTHONPYCACHEPREFIX"] = str(tmp / "pycache")
-    package = Path(tapgauge.__file__).resolve().parent
-    subprocess.run([sys.executable, "-m", "compileall", "-q", str(package)], env=env, check=True,
-                   stdout=subprocess.DEVNULL)
-    return env
 
 
 def run_measured(cmd: list[str], env: dict[str, str] | None = None) -> tuple[float, int]:
