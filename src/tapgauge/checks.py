@@ -17,7 +17,7 @@ from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import EPS, intersection_areas, nearest_gaps, sizes, spacing_conflicts
 from tapgauge.measure import MeasuredScreen, coords_per
 from tapgauge.difficulty import hit_probability
-from tapgauge.model import Device, Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult
+from tapgauge.model import Device, Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult, rows_of
 from tapgauge.profiles import find_profile
 
 PLATFORM_UNITS = ("dp", "pt")  # both mean "the platform's density-independent unit"
@@ -293,12 +293,12 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
                 notes.setdefault(pos, []).append(note)
     position = {k: pos for pos, k in enumerate(m.checked)}
     unchecked = dict(m.unchecked)
-    results: list[TargetResult] = []
+    rows: list[tuple[Any, ...]] = []  # TargetResult's fields, made into results at once (model.rows_of)
     in_unit, in_mm = _sizes(m)
     for k, target in enumerate(m.screen.targets):
         size_unit, size_mm = in_unit[k], None if in_mm is None else in_mm[k]
         if k in unchecked:
-            results.append(TargetResult(target, "unchecked", unchecked[k], size_unit, size_mm, ()))
+            rows.append((target, "unchecked", unchecked[k], size_unit, size_mm, (), (), (), None, None))
             continue
         pos = position[k]
         mine = findings.get(pos, ())
@@ -307,5 +307,6 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
         if fs:
             status = "partial" if m.clipped_by[pos] else "fail"
             reason = m.clipped_by[pos] and f"{m.clipped_by[pos]}: its full size is unknown"
-        results.append(TargetResult(target, status, reason, size_unit, size_mm, fs, tuple(notes[pos]) if pos in notes else ()))
-    return ScreenResult(m.screen, m.device, tuple(results), tuple(notices), tuple(applied))
+        rows.append((target, status, reason, size_unit, size_mm, fs, tuple(notes[pos]) if pos in notes else (), (),
+                     None, None))
+    return ScreenResult(m.screen, m.device, tuple(rows_of(TargetResult, rows)), tuple(notices), tuple(applied))

@@ -19,10 +19,10 @@ from typing import Any, NamedTuple, TypeVar
 R = TypeVar("R", bound=tuple[Any, ...])
 
 
-def rows_of(cls: type[R], *columns: Iterable[Any]) -> list[R]:
-    """One `cls` (a NamedTuple) per row of the columns, every field given. Made in C (tuple.__new__ over
-    zip's tuples): a NamedTuple's own __new__ is a Python call per row, and a screen makes hundreds."""
-    return list(map(tuple.__new__, repeat(cls), zip(*columns)))  # type: ignore[call-overload]
+def rows_of(cls: type[R], rows: Iterable[tuple[Any, ...]]) -> list[R]:
+    """One `cls` (a NamedTuple) per row, every field given in order. Made in C (tuple.__new__): a
+    NamedTuple's own __new__ is a Python call per object, and a screen makes hundreds of them."""
+    return list(map(tuple.__new__, repeat(cls), rows))  # type: ignore[call-overload]
 
 Box = tuple[float, float, float, float]
 

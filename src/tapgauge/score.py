@@ -55,8 +55,8 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
     # The approach (width, distance, ID) is the profiles' common ground: computed once; a profile
     # adds only its line (time) and its spread (miss).
     geometry = predict(reach, origin, 0.0, 0.0, None, 0.0, 0.0, width_model)
-    approaches = rows_of(Approach, np.round(geometry.width, 4).tolist(), np.round(geometry.distance, 4).tolist(),
-                         np.round(geometry.id_bits, 4).tolist())
+    approaches = rows_of(Approach, zip(np.round(geometry.width, 4).tolist(), np.round(geometry.distance, 4).tolist(),
+                                       np.round(geometry.id_bits, 4).tolist()))
     columns = []
     for p in profiles:
         time = np.round(movement_time(geometry.id_bits, p.intercept_ms, p.slope_ms_per_bit), 2).tolist()
@@ -65,13 +65,14 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
         else:
             widths, heights = mm[:, 2] - mm[:, 0], mm[:, 3] - mm[:, 1]
             miss = _misses(hit_probability(widths, heights, p.alpha, p.sigma_a_mm))
-        columns.append(rows_of(Difficulty, repeat(p.id, len(time)), time, miss))
+        columns.append(rows_of(Difficulty, zip(repeat(p.id), time, miss)))
     per_target = zip(*columns)
     targets = list(sr.targets)
-    for k, difficulty, approach in zip(scored, per_target, approaches):
-        t = targets[k]  # built directly: _replace costs more than the rest of this loop
-        targets[k] = TargetResult(t.target, t.status, t.reason, t.size_unit, t.size_mm, t.findings, t.notes,
-                                  difficulty, approach)
+    # Each scored result again with its difficulty and approach (the first seven fields as they were).
+    scored_results = rows_of(TargetResult, ((*targets[k][:7], difficulty, approach, None)
+                                            for k, difficulty, approach in zip(scored, per_target, approaches)))
+    for k, result in zip(scored, scored_results):
+        targets[k] = result
     return replace(sr, targets=tuple(targets), start=(start, round(float(start_unit[0]), 2), round(float(start_unit[1]), 2)),
                    reach_unit="mm" if unit == "mm" else device.unit)
 
