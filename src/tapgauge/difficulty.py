@@ -29,6 +29,7 @@ def erf(x: FloatArray) -> FloatArray:
     a = np.asarray(x, dtype=np.float64)
     return np.fromiter(map(math.erf, a.ravel().tolist()), dtype=np.float64, count=a.size).reshape(a.shape)
 
+
 WIDTH_MODELS = ("approach", "smaller", "horizontal")
 
 

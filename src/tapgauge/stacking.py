@@ -106,7 +106,7 @@ _CLEAR = Blocked()
 
 def blocking_window(target: Target, roles: tuple[WindowRole, ...], with_targets: set[int]) -> Blocked:
     """What the windows drawn over a target's own window do to it."""
-    if target.window < 0 or len(roles) < 2:
+    if target.window < 0 or not roles:
         return _CLEAR
     mine = roles[target.window]
     l, t, r, b = target.bounds
