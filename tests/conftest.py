@@ -89,3 +89,28 @@ def dump_xml(*nodes: str, size: tuple[int, int] = (1080, 2340)) -> str:
     root = dump_node(0, (0, 0, *size), cls="android.widget.FrameLayout", clickable=False, inner="".join(nodes))
     return f"<?xml version='1.0' encoding='UTF-8' standalone='yes' ?><hierarchy rotation=\"0\">{root}</hierarchy>"
 
+
+TagLayout = tuple[list[tuple[float, float, float, float]], list[tuple[float, float]], tuple[int, int],
+                  tuple[float, float]]
+
+
+def tag_layouts(seed: int, count: int, crowds: tuple[int, ...]) -> list[TagLayout]:
+    """Seeded random screens for place_tags: (boxes, tag sizes, picture size, (gap, clear)). Boxes on a
+    grid and anywhere (some off the picture's edge), `crowds` of them a screen, one holding others."""
+    import random
+
+    rng = random.Random(seed)
+    layouts = []
+    for _ in range(count):
+        width, height = rng.choice([(360, 640), (720, 1500), (200, 300)])
+        boxes = []
+        for _ in range(rng.choice(crowds)):
+            if rng.random() < 0.5:
+                x, y, w, h = rng.randrange(0, width, 10), rng.randrange(0, height, 10), rng.choice([10, 40]), 20
+            else:
+                x, y, w, h = rng.uniform(-20, width), rng.uniform(-20, height), rng.uniform(0, width / 3), rng.uniform(0, 60)
+            boxes.append((float(x), float(y), float(x + w), float(y + h)))
+        boxes.append((0.0, 0.0, width / 2, height / 2))
+        sizes = [(rng.choice([20.0, 33.5]), rng.choice([12.0, 18.0])) for _ in boxes]
+        layouts.append((boxes, sizes, (width, height), rng.choice([(2.0, 0.0), (4.0, 2.0)])))
+    return layouts

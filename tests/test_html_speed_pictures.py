@@ -73,36 +73,18 @@ def test_one_colour_more_than_a_palette_holds_is_quantized() -> None:
     assert decoded.mode == "P" and len(decoded.convert("RGB").getcolors(256) or range(65)) <= 64
 
 
-def _layouts(seed: int) -> list[tuple[list[tuple[float, float, float, float]], list[tuple[float, float]],
-                                      tuple[int, int], tuple[float, float]]]:
-    """Seeded random screens for place_tags: boxes on a grid and anywhere, sparse to crowded (so that
-    many tags must be set aside, some where every spot near crosses something), one holding others."""
-    rng = random.Random(seed)
-    layouts = []
-    for _ in range(10):
-        width, height = rng.choice([(360, 640), (720, 1500), (200, 300)])
-        boxes = []
-        for _ in range(rng.choice([3, 20, 60])):
-            if rng.random() < 0.5:
-                x, y, w, h = rng.randrange(0, width, 10), rng.randrange(0, height, 10), rng.choice([10, 40]), 20
-            else:
-                x, y, w, h = rng.uniform(-20, width), rng.uniform(-20, height), rng.uniform(0, width / 3), rng.uniform(0, 60)
-            boxes.append((float(x), float(y), float(x + w), float(y + h)))
-        boxes.append((0.0, 0.0, width / 2, height / 2))
-        sizes = [(rng.choice([20.0, 33.5]), rng.choice([12.0, 18.0])) for _ in boxes]
-        layouts.append((boxes, sizes, (width, height), rng.choice([(2.0, 0.0), (4.0, 2.0)])))
-    return layouts
-
-
 @pytest.mark.parametrize("seed", range(4))
 def test_tags_set_aside_go_where_judging_every_spot_puts_them(monkeypatch: pytest.MonkeyPatch, seed: int) -> None:
     # A tag set aside looks first at the spots nearest its box for one whose tag and leader cross
     # nothing. The spot chosen must be the one the full lexicographic judging of every spot chooses
     # (the order of costs in tags._Spot), whether the first few hold a clear spot or not.
+    from conftest import tag_layouts
+
     from tapgauge.report import tags
     from tapgauge.report.tags import place_tags
 
-    layouts = _layouts(seed)
+    # Sparse to crowded, so that many tags are set aside, some where every spot near crosses something.
+    layouts = tag_layouts(seed, 10, (3, 20, 60))
     found = {"clear": 0, "none": 0}
     first = tags._Look._clear_first
 

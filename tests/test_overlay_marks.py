@@ -141,24 +141,11 @@ def test_quick_tag_paths_choose_as_the_arrays_do(monkeypatch: pytest.MonkeyPatch
     # grid's covered spots found by rows and columns. Both must choose exactly the spots that the
     # arrays of areas choose (shapely checks those spots in the tests above). Seeded random layouts,
     # on a grid and anywhere, some boxes held by a larger one, some off the picture's edge.
-    import random
+    from conftest import tag_layouts
 
     from tapgauge.report import tags
 
-    rng = random.Random(seed)
-    layouts = []
-    for _ in range(12):
-        width, height = rng.choice([(360, 640), (720, 1500), (200, 300)])
-        boxes = []
-        for _ in range(rng.choice([3, 12, 40])):
-            if rng.random() < 0.5:
-                x, y, w, h = rng.randrange(0, width, 10), rng.randrange(0, height, 10), rng.choice([10, 40]), 20
-            else:
-                x, y, w, h = rng.uniform(-20, width), rng.uniform(-20, height), rng.uniform(0, width / 3), rng.uniform(0, 60)
-            boxes.append((float(x), float(y), float(x + w), float(y + h)))
-        boxes.append((0.0, 0.0, width / 2, height / 2))
-        sizes = [(rng.choice([20.0, 33.5]), rng.choice([12.0, 18.0])) for _ in boxes]
-        layouts.append((boxes, sizes, (width, height), rng.choice([(2.0, 0.0), (4.0, 2.0)])))
+    layouts = tag_layouts(seed, 12, (3, 12, 40))
     quick = [place_tags(b, s, a, gap=g, clear=c) for b, s, a, (g, c) in layouts]
     monkeypatch.setattr(tags, "_free_beside", lambda *args: None)
     monkeypatch.setattr(tags, "_touching", lambda xs, ys, *args: np.ones((len(ys), len(xs)), dtype=bool))
