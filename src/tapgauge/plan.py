@@ -79,7 +79,7 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet],
         if sized:
             side = square[sized[0]] if len(sized) == 1 else (max(square[r][0] for r in sized),
                                                             max(square[r][1] for r in sized))
-            out.append(Need(pos, sized, side, _overlapping(m, pos, hits[pos]) if pos in hits else ()))
+            out.append(tuple.__new__(Need, (pos, sized, side, _overlapping(m, pos, hits[pos]) if pos in hits else ())))
     return out
 
 
@@ -256,31 +256,35 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[Box | 
     unit = m.device.unit
     boxes = np.asarray(m.boxes_px, dtype=float).tolist()
     targets = list(sr.targets)
+    new = tuple.__new__  # every field in order, made in C: a NamedTuple's own __new__ is a Python call
     for pos, (box, why) in planned.items():
         k = m.checked[pos]
         tr = targets[k]
         old = boxes[pos]
         rules = needs[pos].rules
         if box is not None and why[0] == "limits":
-            new = box
-            growth = ((old[0] - new[0]) / k_unit, (old[1] - new[1]) / k_unit, (new[2] - old[2]) / k_unit,
-                      (new[3] - old[3]) / k_unit)
-            plan = Plan("grow", tuple(new), growth, rules, unit=unit, k_unit=k_unit, why=why)  # type: ignore[arg-type]
+            growth = ((old[0] - box[0]) / k_unit, (old[1] - box[1]) / k_unit, (box[2] - old[2]) / k_unit,
+                      (box[3] - old[3]) / k_unit)
+            plan = new(Plan, ("grow", tuple(box), growth, rules, 0.0, _STILL, None, unit, k_unit, why, ()))
         elif why[0] == "overlaps":
-            plan = Plan("move", tuple(old), (0.0, 0.0, 0.0, 0.0), rules, unit=unit, k_unit=k_unit,  # type: ignore[arg-type]
-                        why=why, overlaps=needs[pos].overlaps)
+            plan = new(Plan, ("move", tuple(old), _NONE, rules, 0.0, _STILL, None, unit, k_unit, why,
+                              needs[pos].overlaps))
         else:
             plan = _move(tuple(old), why, rules, k_unit, unit)
-        targets[k] = TargetResult(tr.target, tr.status, tr.reason, tr.size_unit, tr.size_mm, tr.findings, tr.notes,
-                                  tr.difficulty, tr.approach, plan)  # built directly: _replace costs more
+        targets[k] = new(TargetResult, (tr.target, tr.status, tr.reason, tr.size_unit, tr.size_mm, tr.findings,
+                                        tr.notes, tr.difficulty, tr.approach, plan))
     return replace(sr, targets=tuple(targets))
+
+
+_NONE = (0.0, 0.0, 0.0, 0.0)  # no growth
+_STILL = (0.0, 0.0)  # no move
 
 
 def _move(box: Box, why: Why, rules: tuple[str, ...], k_unit: float, unit: str) -> Plan:
     """No room: how much is missing between the two limits on the tight axis, and the smallest move of a
     neighbour that opens it (moving the target itself between two fixed limits opens nothing)."""
     if why[0] != "short":
-        return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, unit=unit, k_unit=k_unit, why=why)
+        return tuple.__new__(Plan, ("move", box, _NONE, rules, 0.0, _STILL, None, unit, k_unit, why, ()))
     _, axis, missing, low, high = why
     short = missing / k_unit
     # A neighbour (or a holder) is what can move: the high side's first, else the low side's.
@@ -289,11 +293,10 @@ def _move(box: Box, why: Why, rules: tuple[str, ...], k_unit: float, unit: str) 
     elif low.code >= 4:
         who, sign = low, -1
     else:
-        return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, short, unit=unit, k_unit=k_unit, why=why)
+        return tuple.__new__(Plan, ("move", box, _NONE, rules, short, _STILL, None, unit, k_unit, why, ()))
     distance = short * (2 if who.grows else 1)  # a neighbour that also grows shares the room it opens
-    dx, dy = (sign * distance, 0.0) if axis == 0 else (0.0, sign * distance)
-    return Plan("move", box, (0.0, 0.0, 0.0, 0.0), rules, short, (dx, dy), who.number, unit=unit, k_unit=k_unit,
-                why=why)
+    move = (sign * distance, 0.0) if axis == 0 else (0.0, sign * distance)
+    return tuple.__new__(Plan, ("move", box, _NONE, rules, short, move, who.number, unit, k_unit, why, ()))
 
 
 def _sentence(p: Plan) -> str:

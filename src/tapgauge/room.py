@@ -142,8 +142,9 @@ def _rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray, all
     # a holder or an obstacle): the screen, its window, its scrolling ancestors, a holder, another
     # window, the nearest obstacle, each taking over where it is tighter, in that order.
     n = len(rows)
-    here, obs_list = obs[rows], obs.tolist()
-    lim = np.tile([0.0, 0.0, float(screen.width), float(screen.height)], (n, 1))
+    here = obs[rows]
+    lim = np.empty((n, 4))
+    lim[:] = (0.0, 0.0, float(screen.width), float(screen.height))  # np.tile costs ten times more
     code = np.zeros((n, 4), dtype=np.intp)  # 0: the screen's edge
     who = np.zeros((n, 4), dtype=np.intp)
     win = windows[rows]
@@ -161,6 +162,7 @@ def _rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray, all
     others = screen.windows if len(screen.windows) > 1 else ()
     scrolled = [i for i, pos in enumerate(rows.tolist()) if all_t[pos].scroll_ancestors]
     if scrolled or holders or others:  # the rarer limits, row by row in plain numbers
+        obs_list = obs.tolist()
         room_l, code_l, who_l, lim_l = room.tolist(), code.tolist(), who.tolist(), lim.tolist()
         for i in sorted({*scrolled, *holders, *(range(n) if others else ())}):
             _rare_limits(all_t[rows[i]], obs_list[rows[i]], lim_l[i], room_l[i], code_l[i], who_l[i],
@@ -180,24 +182,27 @@ def _rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray, all
     tight = (code >= 4) & (growth > EPS) & (growth >= room - EPS)
     short_axis = np.where(fits[:, 0], 1, 0)
     short = need[np.arange(n), short_axis] - low[np.arange(n), short_axis] - high[np.arange(n), short_axis]
-    rows_l, fits_l, growth_l, tight_l = rows.tolist(), fits.all(axis=1).tolist(), growth.tolist(), tight.tolist()
-    code_l, who_l, axis_l, short_l = code.tolist(), who.tolist(), short_axis.tolist(), short.tolist()
+    fits_all = fits.all(axis=1)
     grows = is_growing.tolist()
 
-    def limit(i: int, k: int) -> Limit:
-        c, q = code_l[i][k], who_l[i][k]
-        # tuple.__new__: a NamedTuple's own __new__ is a Python call, and this runs for every side of every row
+    def limit(c: int, q: int) -> Limit:
+        # tuple.__new__: a NamedTuple's own __new__ is a Python call, and this runs for two sides of every row
         return _EDGES[c] if c < 4 else tuple.__new__(Limit, (c, numbers[q], c == 5 and grows[q]))
 
-    for i, pos in enumerate(rows_l):
-        hl, ht, hr, hb = obs_list[pos]
-        if not fits_l[i]:
-            ax = axis_l[i]
-            out[pos] = ((hl, ht, hr, hb), ("short", ax, short_l[i], limit(i, ax), limit(i, ax + 2)))
-            continue
-        gl, gt, gr, gb = growth_l[i]
+    # No room: the tight axis's two limits, picked out for all such rows at once.
+    s = np.flatnonzero(~fits_all)
+    if len(s):
+        ax = short_axis[s]
+        for pos, box, a, missing, cl, ql, ch, qh in zip(rows[s].tolist(), here[s].tolist(), ax.tolist(), short[s].tolist(),
+                                                         code[s, ax].tolist(), who[s, ax].tolist(),
+                                                         code[s, ax + 2].tolist(), who[s, ax + 2].tolist()):
+            out[pos] = (tuple(box), ("short", a, missing, limit(cl, ql), limit(ch, qh)))
+    g = np.flatnonzero(fits_all)
+    for i, pos, (hl, ht, hr, hb), (gl, gt, gr, gb), tight_i in zip(g.tolist(), rows[g].tolist(), here[g].tolist(),
+                                                                   growth[g].tolist(), tight[g].tolist()):
         # A side whose growth used all its room, up to a neighbour: said, so a developer knows why it is uneven.
-        limits = tuple((side, limit_name(limit(i, k))) for k, side in enumerate(SIDES) if tight_l[i][k])
+        limits = tuple((side, limit_name(limit(int(code[i, k]), int(who[i, k])))) for k, side in enumerate(SIDES)
+                       if tight_i[k])
         out[pos] = ((hl - gl, ht - gt, hr + gr, hb + gb), ("limits", limits))
     return out
 
