@@ -58,6 +58,11 @@ def _fmt(v: float) -> str:
     return f"{v:.1f}".removesuffix(".0")
 
 
+# A Finding with every field given, in order, made in C: a NamedTuple's own __new__ is a Python call, and
+# a screen of small targets makes a few hundred findings.
+_new = tuple.__new__
+
+
 def _who(m: MeasuredScreen, pos: int) -> str:
     return m.labels[pos]
 
@@ -105,7 +110,7 @@ def check_min_size(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS)
                 message += f"; {_fmt(measured[pos])} {unit} left beside {names} drawn over it"
             if spacing:
                 message += f"; its {need} circle intersects {_who(m, conflict[pos])}"
-        findings.append((pos, Finding(rule.id, rule.severity, measured[pos], size, unit, message, other=other)))
+        findings.append((pos, _new(Finding, (rule.id, rule.severity, measured[pos], size, unit, message, None, other))))
     return KindResult(tuple(findings), tuple(notes))
 
 
@@ -162,8 +167,8 @@ def check_min_gap(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS) 
             where = f"overlaps {labels[other]}"
         else:
             where = f"touches {labels[other]}"
-        findings.append((pos, Finding(rule.id, rule.severity, measured[pos], gap, unit, where + need,
-                                      other=m.screen.targets[m.checked[other]].number)))
+        findings.append((pos, _new(Finding, (rule.id, rule.severity, measured[pos], gap, unit, where + need, None,
+                                        m.screen.targets[m.checked[other]].number))))
     return KindResult(tuple(findings))
 
 
@@ -176,9 +181,9 @@ def check_max_miss(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS)
     miss = 1.0 - hit_probability(w, h, profile.alpha, profile.sigma_a_mm)
     misses, wl, hl = miss.tolist(), w.tolist(), h.tolist()
     findings = [
-        (pos, Finding(rule.id, rule.severity, round(misses[pos] * 100, 1), round(limit * 100, 1), "%",
-                      f"predicted miss {misses[pos]:.0%} for {profile.id} on {_fmt(wl[pos])} x {_fmt(hl[pos])} mm; "
-                      f"limit {limit:.0%}" if words else ""))
+        (pos, _new(Finding, (rule.id, rule.severity, round(misses[pos] * 100, 1), round(limit * 100, 1), "%",
+                        f"predicted miss {misses[pos]:.0%} for {profile.id} on {_fmt(wl[pos])} x {_fmt(hl[pos])} mm; "
+                        f"limit {limit:.0%}" if words else "", None, None)))
         for pos in np.flatnonzero(miss > limit + EPS).tolist()
     ]
     return KindResult(tuple(findings))
@@ -283,14 +288,19 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
     findings: dict[int, list[Finding]] = {}
     notes: dict[int, list[str]] = {}
     detail = Detail.WORDS if words else Detail.NOTES
+    results: list[tuple[Rule, KindResult]] = []
     for rs_id, rules in _applied(m, rulesets, announce_skips, notices):
         applied.append(rs_id)
         for rule in rules:
             result = KINDS[rule.kind].run(m, rule, detail)
-            for pos, f in result.findings:
-                findings.setdefault(pos, []).append(f)
+            results.append((rule, result))
             for pos, note in result.notes:
                 notes.setdefault(pos, []).append(note)
+    # Each target's findings most severe first, then by rule id: gathered rule by rule in that order (a
+    # stable sort of the rules, so ties keep the order they ran in), no sort per target.
+    for _, result in sorted(results, key=lambda rr: (-rr[0].severity, rr[0].id)):
+        for pos, f in result.findings:
+            findings.setdefault(pos, []).append(f)
     position = {k: pos for pos, k in enumerate(m.checked)}
     unchecked = dict(m.unchecked)
     rows: list[tuple[Any, ...]] = []  # TargetResult's fields, made into results at once (model.rows_of)
@@ -301,8 +311,7 @@ def check_screen(m: MeasuredScreen, rulesets: list[RuleSet], announce_skips: boo
             rows.append((target, "unchecked", unchecked[k], size_unit, size_mm, (), (), (), None, None))
             continue
         pos = position[k]
-        mine = findings.get(pos, ())
-        fs = tuple(sorted(mine, key=lambda f: (-f.severity, f.rule_id)) if len(mine) > 1 else mine)
+        fs = tuple(findings.get(pos, ()))
         status, reason = "pass", ""
         if fs:
             status = "partial" if m.clipped_by[pos] else "fail"
