@@ -203,14 +203,15 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
         doc_index = {el: k for k, el in enumerate(root.iter())}
         found.sort(key=lambda item: doc_index[item[0]])
     targets = []
+    new = tuple.__new__  # every field in order, made in C: a NamedTuple's own __new__ is a Python call
     for k, (el, rank, visible, scrollers, tree, window, (start, stop)) in enumerate(found, start=1):
         get = el.get
         label = (get("text") or get("content-desc") or "").strip()
-        targets.append(Target(
+        targets.append(new(Target, (
             k, tuple(boxes[rank - 1]), get("class") or el.tag, label,
             get("resource-id") or "", get("enabled", _TRUE) == _TRUE, visible, rank, scrollers, el.sourceline,
             tree, window, "" if label else _text_within(walk.texts, start, stop),
-        ))
+        )))
     width = _int_attr(root, "width", path) or max(0, max(b[2] for b in boxes))
     height = _int_attr(root, "height", path) or max(0, max(b[3] for b in boxes))
     windows = tuple(Window(tuple(boxes[at]), el.get("package") or "", "", el.sourceline)
