@@ -91,9 +91,10 @@ def target_document(tr: TargetResult, key: str) -> dict[str, Any]:
     t = tr.target
     out: dict[str, Any] = {"number": t.number, "key": key, "line": t.line, "class": t.cls, "label": t.label,
                            "resource_id": t.resource_id}
-    name = t.name
-    if name != t.label:
-        out["name"] = name
+    if not t.label:  # else the name is the label
+        name = t.name
+        if name:
+            out["name"] = name
     out["bounds"] = t.bounds  # tuples: orjson writes them as arrays, with no list made
     out["size"] = tr.size_unit
     out["status"] = tr.status
@@ -101,6 +102,9 @@ def target_document(tr: TargetResult, key: str) -> dict[str, Any]:
         out["reason"] = tr.reason
     findings = []
     for f in tr.findings:
+        if f.other is None and f.waiver is None:  # the usual case: one literal
+            findings.append({"rule": f.rule_id, "measured": f.measured, "required": f.required})
+            continue
         fd: dict[str, Any] = {"rule": f.rule_id, "measured": f.measured, "required": f.required}
         if f.other is not None:
             fd["other"] = f.other
@@ -113,16 +117,15 @@ def target_document(tr: TargetResult, key: str) -> dict[str, Any]:
     if tr.approach is not None:
         a = tr.approach
         out["approach"] = {"width": a.width, "distance": a.distance, "id_bits": a.id_bits}
-    if tr.difficulty:
-        out["time_ms"] = [d.time_ms for d in tr.difficulty]
-        out["miss_probability"] = [d.miss for d in tr.difficulty]
+    if tr.difficulty:  # (profile, time, miss) per profile, turned into a column each in one step
+        _, out["time_ms"], out["miss_probability"] = zip(*tr.difficulty)
     p = tr.plan
     if p is not None:
         if p.kind == "grow":
             out["plan"] = {"kind": "grow", "bounds": _round_all(p.bounds), "rules": p.rules}
+        elif p.mover is not None:
+            out["plan"] = {"kind": p.kind, "missing": round(p.missing, 2), "rules": p.rules,
+                           "move": {"target": p.mover, "dx": round(p.move[0], 2), "dy": round(p.move[1], 2)}}
         else:
-            plan: dict[str, Any] = {"kind": p.kind, "missing": round(p.missing, 2), "rules": p.rules}
-            if p.mover is not None:
-                plan["move"] = {"target": p.mover, "dx": round(p.move[0], 2), "dy": round(p.move[1], 2)}
-            out["plan"] = plan
+            out["plan"] = {"kind": p.kind, "missing": round(p.missing, 2), "rules": p.rules}
     return out
