@@ -29,7 +29,13 @@ def target_keys(targets: tuple[Target, ...] | list[Target]) -> list[str]:
     seen: dict[str, int] = {}  # a plain dict: Counter's missing-key path costs a Python call per new key
     keys = []
     for t in targets:
-        k = base_key(t)
+        # base_key's usual case inline (an id or a label): a call per target cost more than the rest
+        rid = t.resource_id
+        if rid or t.label:
+            cls = t.cls.rsplit(".", 1)[-1]
+            k = f"id:{rid.split(':id/', 1)[-1]}|{cls}" if rid else f"label:{t.label}|{cls}"
+        else:
+            k = base_key(t)
         n = seen.get(k, 0)
         keys.append(f"{k}#{n}")
         seen[k] = n + 1

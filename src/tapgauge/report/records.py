@@ -197,13 +197,17 @@ def result_totals(sr: ScreenResult) -> Totals:
     worst: dict[int, int] = {}
     statuses: dict[str, int] = {}
     for t in sr.targets:
-        statuses[t.status] = statuses.get(t.status, 0) + 1
-        if t.status == "fail":
-            levels = [f.severity for f in t.findings if not f.waiver]
-            for s in levels:
-                counts[_LABEL[s]] = counts.get(_LABEL[s], 0) + 1
-            if levels:
-                w = int(max(levels))
+        status = t.status
+        statuses[status] = statuses.get(status, 0) + 1
+        if status == "fail":
+            w = 0
+            for f in t.findings:
+                if not f.waiver:
+                    label = _LABEL[f.severity]
+                    counts[label] = counts.get(label, 0) + 1
+                    w = max(w, f.severity)
+            if w:
+                w = int(w)
                 worst[w] = worst.get(w, 0) + 1
     return Totals(tuple((s, statuses.get(s, 0)) for s in STATUSES), tuple(sorted(counts.items())),
                   tuple(sorted(worst.items())))
