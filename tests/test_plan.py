@@ -7,7 +7,7 @@ import json
 import math
 from collections.abc import Iterator
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import pytest
 from conftest import DEMO
@@ -206,7 +206,15 @@ def test_the_re_check_near_the_growth_finds_what_the_whole_screen_does(monkeypat
     from tapgauge.rulesets import select_rulesets
 
     settings_ = Settings(tuple(select_rulesets(["wcag-2.5.8", "android-guidance", "motor-mm"])))
-    near_part = plan_module._near_part
+    real_near_part = plan_module._near_part
+    parted = 0  # re-checks that set some targets aside (where most are near a growth, none are)
+
+    def near_part(again: Any, grown: Any, reach: float) -> Any:
+        nonlocal parted
+        part = real_near_part(again, grown, reach)
+        parted += part is not again
+        return part
+
     checked = 0
     for boxes, screen, device in _seeded_screens(7, 120, 40):
         monkeypatch.setattr(plan_module, "_near_part", near_part)
@@ -215,6 +223,7 @@ def test_the_re_check_near_the_growth_finds_what_the_whole_screen_does(monkeypat
         assert near == [t.plan for t in check_one_screen(screen, device, settings_).targets], boxes
         checked += sum(1 for p in near if p is not None)
     assert checked > 1000
+    assert parted > 100, parted
 
 
 def test_the_re_check_fails_exactly_the_rules_the_checks_do() -> None:

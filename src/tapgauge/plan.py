@@ -148,7 +148,9 @@ def _near_part(again: MeasuredScreen, grown: list[Box], reach: float) -> Measure
     What the re-check asks is which findings are new. Only a target near a growth can gain one, and
     it keeps every neighbour that bears on it (all within `reach`, and what covers it); a target
     left out can only lose findings (a nearest gap grows, a circle clears, a square frees up),
-    never gain one. So the new findings are the whole screen's, for a fraction of the checking."""
+    never gain one. So the new findings are the whole screen's, for a fraction of the checking. Where
+    most targets are near a growth, the screen is checked whole: setting the rest aside costs more
+    than checking them."""
     if not np.isfinite(reach) or not len(again.checked):
         return again
     boxes = np.asarray(again.boxes_px, dtype=float)
@@ -156,12 +158,14 @@ def _near_part(again: MeasuredScreen, grown: list[Box], reach: float) -> Measure
     dx = np.maximum(boxes[:, None, 0] - g[None, :, 2], g[None, :, 0] - boxes[:, None, 2])
     dy = np.maximum(boxes[:, None, 1] - g[None, :, 3], g[None, :, 1] - boxes[:, None, 3])
     near = np.flatnonzero(((dx <= reach) & (dy <= reach)).any(axis=1)).tolist()
+    if 2 * len(near) > len(again.checked):  # checking the rest too costs less than setting it aside
+        return again
     keep = set(near)
     for p in near:
         keep.update(again.covers[p])
         if again.maybe_covers:
             keep.update(again.maybe_covers[p])
-    if len(keep) == len(again.checked):
+    if 2 * len(keep) > len(again.checked):
         return again
     kept = sorted(keep)
     index = {p: i for i, p in enumerate(kept)}
