@@ -389,14 +389,24 @@ def render(screen: dict[str, Any], report: RuleHead, image: Image.Image | None,
             picture = picture.resize((max_width, max(1, round(picture.height * max_width / picture.width))),
                                      Image.Resampling.BILINEAR)
             fx, fy = fx * picture.width / full[0], fy * picture.height / full[1]
-        base = Image.blend(picture, Image.new("RGB", picture.size, PAPER), 0.35)
+        shot: Image.Image | None = Image.blend(picture, Image.new("RGB", picture.size, PAPER), 0.35)
+        extent = picture.size
     else:
         k = 2.0 if screen["coordinates"] == "pt" else 1.0
         if max_width:
             k = min(k, max_width / max(w, 1.0))
-        base = Image.new("RGB", (max(1, round(w * k)), max(1, round(h * k))), WIREFRAME)
+        shot, extent = None, (max(1, round(w * k)), max(1, round(h * k)))
         fx = fy = k
-    sc = picture_scale(base.width, text_scale)
+    notes = (fit.note or fit.refusal,) if fit is not None and (fit.note or fit.refusal) else ()
+    if knocked:
+        notes += ("the marker boxes drawn on this screenshot are greyed out, so they cannot be taken for these marks",)
+    sc = picture_scale(extent[0], text_scale)
+    # Drawn straight onto the whole picture, legend's room included (no second picture to paste the
+    # overlay into); what reaches past the overlay's bottom is cleared before the legend is drawn.
+    legend = _Legend.of(screen, extent, sc, notes)
+    base = Image.new("RGB", (extent[0], legend.height), WIREFRAME if shot is None else PAPER)
+    if shot is not None:
+        base.paste(shot, (0, 0))
     draw = ImageDraw.Draw(base)
     spacing = _spacing_rules(report)
     size_rules = _size_rules(report)
@@ -423,23 +433,21 @@ def render(screen: dict[str, Any], report: RuleHead, image: Image.Image | None,
         plan = t.get("plan")
         if plan and plan["kind"] == "grow":
             l, top, r, b = plan["bounds"]
-            _planned(base, (l * fx, top * fy, r * fx, b * fy), boxes[t["number"]], sc)
+            _planned(base, (l * fx, top * fy, r * fx, b * fy), boxes[t["number"]], sc, extent)
     draw = ImageDraw.Draw(base)
     for t in order:
         _mark(draw, boxes[t["number"]], MARKS[t["status"]], sc.px, sc.k)
     tagged = sorted(screen["targets"], key=lambda t: (TAG_ORDER.index(t["status"]), t["number"]))
     texts = [tag_text(t["number"], t["status"]) for t in tagged]
-    spots = place_tags([boxes[t["number"]] for t in tagged], [tag_size(x, sc) for x in texts], base.size,
+    spots = place_tags([boxes[t["number"]] for t in tagged], [tag_size(x, sc) for x in texts], extent,
                        gap=sc.px(2), clear=sc.px(1))
     for spot in spots:
         if spot.leader:
             _leader(draw, spot.leader, sc)
     for t, text, spot in zip(tagged, texts, spots):
         _tag(draw, spot.rect, text, MARKS[t["status"]], sc)
-    notes = (fit.note or fit.refusal,) if fit is not None and (fit.note or fit.refusal) else ()
-    if knocked:
-        notes += ("the marker boxes drawn on this screenshot are greyed out, so they cannot be taken for these marks",)
-    return _with_legend(base, screen, sc, notes), fit
+    legend.draw(base, extent[1], sc)
+    return base, fit
 
 
 # ----------------------------------------------------------------------------- legend
@@ -497,19 +505,32 @@ KEY_ROWS = tuple([LegendRow(status, mark.words) for status, mark in MARKS.items(
     LegendRow("tag", "tag: target number, status colour and sign; a line leads to a tag set aside")])
 
 
-def _with_legend(base: Image.Image, screen: dict[str, Any], sc: Scale, notes: tuple[str, ...] = ()) -> Image.Image:
-    rows = legend_rows(screen, notes)
-    own = rows[:len(rows) - len(KEY_ROWS)]  # this screen's own lines; the key follows them
-    margin = sc.px(8)
-    laid, heights = _lay_out(own, base.width, sc)
-    top = base.height + margin + sum(heights)
-    key = _key_block(base.width, sc, top % 2)
-    out = Image.new("RGB", (base.width, top + key.height + margin), PAPER)
-    out.paste(base, (0, 0))
-    _draw_rows(ImageDraw.Draw(out), laid, heights, base.height + margin, sc)
-    out.paste(key, (0, top))
-    out.info[KEY_AT] = (top, base.width, sc, top % 2)
-    return out
+class _Legend(NamedTuple):
+    """The legend under an overlay: this screen's own rows, then the key (the same rows under every
+    overlay of a width and scale, drawn once)."""
+
+    laid: list[tuple[str, list[str]]]  # this screen's own rows: swatch and wrapped lines
+    heights: list[int]
+    top: int  # where the key starts
+    key: Image.Image
+    height: int  # of the whole picture, overlay and legend
+
+    @classmethod
+    def of(cls, screen: dict[str, Any], size: tuple[int, int], sc: Scale, notes: tuple[str, ...] = ()) -> _Legend:
+        rows = legend_rows(screen, notes)
+        own = rows[:len(rows) - len(KEY_ROWS)]  # this screen's own lines; the key follows them
+        margin = sc.px(8)
+        laid, heights = _lay_out(own, size[0], sc)
+        top = size[1] + margin + sum(heights)
+        key = _key_block(size[0], sc, top % 2)
+        return cls(laid, heights, top, key, top + key.height + margin)
+
+    def draw(self, picture: Image.Image, bottom: int, sc: Scale) -> None:
+        """The legend on white below row `bottom` of `picture` (whatever was drawn there is cleared)."""
+        picture.paste(PAPER, (0, bottom, picture.width, picture.height))
+        _draw_rows(ImageDraw.Draw(picture), self.laid, self.heights, bottom + sc.px(8), sc)
+        picture.paste(self.key, (0, self.top))
+        picture.info[KEY_AT] = (self.top, picture.width, sc, self.top % 2)
 
 
 KEY_AT = "tapgauge legend key"  # Image.info: where the key's rows lie (top, width, scale, parity), for png_bytes
@@ -550,14 +571,16 @@ def _draw_rows(draw: ImageDraw.ImageDraw, laid: list[tuple[str, list[str]]], hei
         y += row_h
 
 
-def _planned(picture: Image.Image, area: Rect, box: Rect, sc: Scale) -> None:
-    """A fix plan's touch area: the ring it adds around the target, hatched in sky blue, and its outline."""
+def _planned(picture: Image.Image, area: Rect, box: Rect, sc: Scale, within: tuple[int, int] | None = None) -> None:
+    """A fix plan's touch area: the ring it adds around the target, hatched in sky blue, and its outline;
+    the hatching only inside the picture's first `within` (width, height) pixels (default: all)."""
     l, t, r, b = (round(v) for v in area)
     if r <= l or b <= t:
         return
     # The masks cover only the part of the area inside the picture (not the whole picture): the
     # same pixels, drawn in that window's coordinates (whole-pixel shifts), at a fraction of the cost.
-    x0, y0, x1, y1 = max(l, 0), max(t, 0), min(r, picture.width), min(b, picture.height)
+    width, height = within or picture.size
+    x0, y0, x1, y1 = max(l, 0), max(t, 0), min(r, width), min(b, height)
     if x1 > x0 and y1 > y0:
         hatch = Image.new("L", (x1 - x0, y1 - y0), 0)
         lines = ImageDraw.Draw(hatch)
