@@ -244,9 +244,10 @@ def _near(m: MeasuredScreen, box: Box, numbers: set[int], reach: float) -> bool:
 
 def _apply(screen: Screen, m: MeasuredScreen, grown: dict[int, Box]) -> Screen:
     targets = list(screen.targets)
-    for pos, box in grown.items():
+    for pos, (l, t, r, b) in grown.items():
         k = m.checked[pos]
-        targets[k] = targets[k]._replace(bounds=tuple(float(v) for v in box))
+        # the same target with the planned bounds, made in C (_replace is a Python call per target)
+        targets[k] = tuple.__new__(Target, (targets[k][0], (float(l), float(t), float(r), float(b)), *targets[k][2:]))
     return replace(screen, targets=tuple(targets))
 
 
