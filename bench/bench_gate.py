@@ -44,8 +44,8 @@ def main() -> None:
         subprocess.run([*exe, "baseline", str(corpus), "-o", str(base), "--force"], check=True, stdout=subprocess.DEVNULL)
         t_base = wall([*exe, "baseline", str(corpus), "-o", str(base), "--force"])
         t_gate = wall([*exe, "gate", str(corpus), "-b", str(base)])
-        _, m_base = run_measured([*exe, "baseline", str(corpus), "-o", str(base), "--force"])
-        _, m_gate = run_measured([*exe, "gate", str(corpus), "-b", str(base)])
+        m_base = run_measured([*exe, "baseline", str(corpus), "-o", str(base), "--force"]).peak
+        m_gate = run_measured([*exe, "gate", str(corpus), "-b", str(base)]).peak
         size = base.stat().st_size / 1e6
         t_start = wall([*exe, "--version"], runs=5)
         t_py = wall([sys.executable, "-c", "pass"], runs=5)

@@ -35,6 +35,7 @@ import argparse
 import io
 import math
 import os
+import resource
 import statistics
 import subprocess
 import sys
@@ -42,6 +43,7 @@ import tempfile
 import threading
 import time
 from pathlib import Path
+from typing import NamedTuple
 
 from lxml import etree
 from timing import installed_env, median_seconds
@@ -146,8 +148,16 @@ def _tree_pss_kb(root: int) -> int:
     return total
 
 
-def run_measured(cmd: list[str], env: dict[str, str] | None = None) -> tuple[float, int]:
-    """Wall seconds and peak memory of the process tree (KB of PSS, sampled every 50 ms) of a command."""
+class Measured(NamedTuple):
+    wall: float  # seconds
+    peak: int  # KB of PSS of the whole process tree, sampled every 50 ms
+    cpu: float  # seconds of user + system time of the process and every process it waited for (its workers)
+
+
+def run_measured(cmd: list[str], env: dict[str, str] | None = None) -> Measured:
+    """Wall seconds, peak memory and CPU seconds of a command's process tree. CPU wanders less than wall
+    time when other work shares the machine (a busy machine stretches the wait, not the work)."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, env=env)
     peak = [0]
@@ -162,16 +172,18 @@ def run_measured(cmd: list[str], env: dict[str, str] | None = None) -> tuple[flo
     proc.wait()
     elapsed = time.perf_counter() - t0
     watcher.join()
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
     if proc.returncode not in (0, 1):
         raise SystemExit(f"{' '.join(cmd)} failed with exit {proc.returncode}")
-    return elapsed, peak[0]
+    cpu = after.ru_utime - before.ru_utime + after.ru_stime - before.ru_stime
+    return Measured(elapsed, peak[0], cpu)
 
 
 def bench_screens(counts: list[int], targets: int, jobs: int, work: Path | None) -> None:
     print(f"Screens ({targets} targets each, {jobs} processes, whole processes, JSON report to a file)\n")
-    print("| screens | lxml floor s | tapgauge s | screens/s | ratio to floor | peak memory MB "
+    print("| screens | lxml floor s | tapgauge s | screens/s | ratio to floor | CPU s: floor, tapgauge | peak memory MB "
           "| floor peak MB | report MB |")
-    print("|---:|---:|---:|---:|---:|---:|---:|---:|")
+    print("|---:|---:|---:|---:|---:|---:|---:|---:|---:|")
     with tempfile.TemporaryDirectory(dir=work) as tmp:
         for count in counts:
             folder = Path(tmp) / f"c{count}"
@@ -181,12 +193,12 @@ def bench_screens(counts: list[int], targets: int, jobs: int, work: Path | None)
             tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", "json", "-o", str(out), "--quiet",
                        "-j", str(jobs)]
             env = installed_env(Path(tmp))
-            f, f_mem = run_measured(floor_cmd, env)
-            t, t_mem = run_measured(tap_cmd, env)
+            floor, tap = run_measured(floor_cmd, env), run_measured(tap_cmd, env)
+            f, t = floor.wall, tap.wall
             size = out.stat().st_size / 1e6
             out.unlink()
-            print(f"| {count:,} | {f:.2f} | {t:.2f} | {len(files) / t:.0f} | {t / f:.1f}x | {t_mem / 1024:.0f} "
-                  f"| {f_mem / 1024:.0f} | {size:,.0f} |", flush=True)
+            print(f"| {count:,} | {f:.2f} | {t:.2f} | {len(files) / t:.0f} | {t / f:.1f}x | {floor.cpu:.1f}, {tap.cpu:.1f} "
+                  f"| {tap.peak / 1024:.0f} | {floor.peak / 1024:.0f} | {size:,.0f} |", flush=True)
             subprocess.run(["rm", "-rf", str(folder)], check=True)
 
 
@@ -199,18 +211,22 @@ def bench_batch(screens: int, targets: int, filler: int, repeat: int, fmt: str, 
         floor_cmd = [sys.executable, str(HERE / "floor.py"), str(folder)]
         tap_cmd = [sys.executable, "-m", "tapgauge", "check", str(folder), "-f", fmt, "-o", str(out), "--quiet"]
         env = installed_env(Path(tmp))
-        floor, tap = [], []
+        floor_runs, tap_runs = [], []
         for _ in range(repeat):  # alternate, so both see the same machine
-            floor.append(run_measured(floor_cmd, env)[0])
-            tap.append(run_measured(tap_cmd, env)[0])
+            floor_runs.append(run_measured(floor_cmd, env))
+            tap_runs.append(run_measured(tap_cmd, env))
         size = out.stat().st_size
+    floor, tap = [r.wall for r in floor_runs], [r.wall for r in tap_runs]
     f, t = statistics.median(floor), statistics.median(tap)
+    f_cpu, t_cpu = statistics.median(r.cpu for r in floor_runs), statistics.median(r.cpu for r in tap_runs)
     print(f"Batch: {screens:,} dumps ({dumps / 1e6:.1f} MB, {targets} targets and {targets * filler} other nodes "
           f"each); tapgauge with its default jobs ({os.cpu_count()} cores), -f {fmt} to a file; "
           f"medians of {repeat} alternating runs\n")
-    print("| floor: one process parsing with lxml | tapgauge | ratio to floor | report | report bytes per dump byte |")
-    print("|---:|---:|---:|---:|---:|")
-    print(f"| {f:.2f} s | {t:.2f} s | {t / f:.2f}x | {size / 1e6:.1f} MB | {size / dumps:.2f} |")
+    print("| floor: one process parsing with lxml | tapgauge | ratio to floor | CPU s: floor, tapgauge (all processes) "
+          "| report | report bytes per dump byte |")
+    print("|---:|---:|---:|---:|---:|---:|")
+    print(f"| {f:.2f} s | {t:.2f} s | {t / f:.2f}x | {f_cpu:.2f}, {t_cpu:.2f} | {size / 1e6:.1f} MB "
+          f"| {size / dumps:.2f} |")
     print(f"\n(all runs, s: floor {', '.join(f'{v:.2f}' for v in floor)}; tapgauge {', '.join(f'{v:.2f}' for v in tap)})")
 
 
