@@ -11,9 +11,9 @@ import random
 import numpy as np
 import pytest
 from PIL import Image
+from test_html_speed_pictures import _demo_overlays
 
 from tapgauge.report.html import CROP_SIZE, _data_uri, _thumbnail
-from test_html_speed_pictures import _demo_overlays
 
 
 def _boxes(rng: random.Random, width: int, height: int) -> list[tuple[int, int, int, int]]:

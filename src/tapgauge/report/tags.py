@@ -117,7 +117,7 @@ def place_tags(boxes: Sequence[Rect], sizes: Sequence[tuple[float, float]], area
         beside = [(l, t - g - th), (r - tw, t - g - th), (l, b + g), (r - tw, b + g),
                   (l - g - tw, t), (r + g, t), (l - g - tw, b - th), (r + g, b - th)]
         free = _free_beside(box, beside, tw, th, g, gap, area, obstacle_list, i, placed_list, line_list)
-        if free is not None:  # what _Look.best would choose among `beside`, found without arrays
+        if isinstance(free, tuple):  # what _Look.best would choose among `beside`, found without arrays
             spots.append(TagSpot(free, None))
             placed_list.append(free)
             continue
@@ -134,10 +134,19 @@ def place_tags(boxes: Sequence[Rect], sizes: Sequence[tuple[float, float]], area
         placed = np.array(placed_list, dtype=float).reshape(-1, 4)
         lines = np.array(line_list, dtype=float).reshape(-1, 4)
         look = _Look(box, tw, th, g, obstacles[i], others, placed, lines, gap, area, roomy)
-        best = look.best(np.array(beside, dtype=float))
-        if best.cost[:7] != (0,) * 7:  # not beside the box: the nearest free spot around it
+        if free is _BUSY:
+            # Every spot beside the box covers something: the nearest free spot around it. Where that
+            # one covers and crosses nothing, nor its own box, it beats all of them (their costs are
+            # not all zero in the first seven places, its are), so they need not be judged.
             corners, columns = _grid(box, tw, th, 8 * th, max(th / 2, 1.0))
-            best = min(best, look.best(corners, rank=1, columns=columns))
+            best = look.best(corners, rank=1, columns=columns)
+            if best.cost[:7] != (0,) * 7:
+                best = min(best, look.best(np.array(beside, dtype=float)))
+        else:
+            best = look.best(np.array(beside, dtype=float))
+            if best.cost[:7] != (0,) * 7:  # not beside the box: the nearest free spot around it
+                corners, columns = _grid(box, tw, th, 8 * th, max(th / 2, 1.0))
+                best = min(best, look.best(corners, rank=1, columns=columns))
         if inside and best.cost[:7] != (0,) * 7:  # (before a spot pushed inside by the picture's edge)
             best = min(best, look.best(np.array(inside, dtype=float), rank=-1))
         if best.cost[:3] != (0,) * 3:  # every spot near covers a tag or a box: anywhere in the picture
@@ -153,10 +162,12 @@ def place_tags(boxes: Sequence[Rect], sizes: Sequence[tuple[float, float]], area
 
 def _free_beside(box: Rect, corners: list[Point], tw: float, th: float, g: float, gap: float,
                  area: tuple[float, float], obstacles: list[Rect], own: int, placed: list[Rect],
-                 lines: list[tuple[float, float, float, float]]) -> Rect | None:
+                 lines: list[tuple[float, float, float, float]]) -> Rect | _Busy | None:
     """The spot `_Look.best` chooses among `corners` when one of them costs nothing (covers no tag,
     leader, box or its own box, and sits by its box with no leader): the nearest such, the first
-    listed of equals. None when none is free or a nearer spot needs a leader: then the arrays decide.
+    listed of equals. Else `_BUSY` when every spot was looked at and none is free (each costs
+    something in `_Spot.cost`'s first seven places), or None when a spot that needs a leader came
+    first: then the arrays decide.
 
     The same sums in the same floating point as `_Look.best`, one spot at a time, nearest first, so
     the usual tag (free beside its box) costs a few comparisons instead of some forty array steps.
@@ -191,7 +202,14 @@ def _free_beside(box: Rect, corners: list[Point], tw: float, th: float, g: float
         if any(_overlaps(grown, p) for p in tags) or any(_crosses(seg, grown) for seg in lines):
             continue
         return rect
-    return None
+    return _BUSY
+
+
+class _Busy:
+    """_free_beside's answer when every spot beside the box covers something."""
+
+
+_BUSY = _Busy()
 
 
 def _overlaps(a: Rect, b: Rect) -> bool:
