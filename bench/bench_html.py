@@ -70,6 +70,9 @@ def main() -> None:
             makes.append(timed([*check, "-f", "html", "-o", str(out)], env))
             if against:
                 others.append(timed([*check, "-f", "html", "-o", str(other_out)], env_against))
+        for made, code in ((floor_out, "this code's JSON"), (out, "this code's HTML"), (other_out, f"{against}'s HTML")):
+            if not made.is_file() and (made is not other_out or against):
+                sys.exit(f"bench_html: {code} report was not written; run the same check by hand to see why")
         floor, make = min(w for w, _ in floors), min(w for w, _ in makes)
         floor_cpu, make_cpu = min(c for _, c in floors), min(c for _, c in makes)
         size = out.stat().st_size
