@@ -22,7 +22,9 @@ from dataclasses import dataclass
 from html import escape
 from itertools import chain
 from pathlib import Path
-from typing import Any, TextIO
+from typing import Any, NamedTuple, TextIO
+
+import orjson
 
 from tapgauge.device import MM_PER_INCH
 from tapgauge.heap import keep_freed_memory
@@ -378,25 +380,38 @@ def _severity(severity: str) -> str:
     return f'<span class="badge v-{severity}">{escape(severity)}</span>'
 
 
-def _count_findings(report: Report) -> tuple[int, Counter[str], Counter[str]]:
-    """Findings in all, open ones per rule and waived ones per rule (one pass over the screens)."""
+class _Listed(NamedTuple):
+    """What the page's top says of one screen: its title, its counts by status, its findings."""
+
+    title: str
+    counts: dict[str, int]
+    findings: int
+
+
+def _count_findings(report: Report) -> tuple[int, Counter[str], Counter[str], list[_Listed]]:
+    """Findings in all, open ones per rule and waived ones per rule, and each screen's line in the
+    summary: one pass over the screens, before any is drawn."""
     total, open_, waived = 0, Counter[str](), Counter[str]()
+    listed = []
     for scr in report.screens:
+        mine = 0
         for t in scr["targets"]:
             for f in t["findings"]:
-                total += 1
+                mine += 1
                 if f["waiver"]:
                     waived[f["rule"]] += 1
                 elif t["status"] in ("fail", "partial"):
                     open_[f["rule"]] += 1
-    return total, open_, waived
+        total += mine
+        listed.append(_Listed(f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"], scr["summary"], mine))
+    return total, open_, waived, listed
 
 
 def write_html(report: Report, out: TextIO, width: int | None = None, jobs: int | None = None) -> None:
     """Totals and summaries first, so it reads a spooled report's screens several times. The screens'
     pictures are drawn in `jobs` processes (default: one per core)."""
     s = report.summary
-    n_findings, rule_counts, waived = _count_findings(report)
+    n_findings, rule_counts, waived, listed = _count_findings(report)
     rulesets = [rs["id"] for rs in report.rulesets]
     statuses = ("fail", "partial", "exempt")
     h: list[str] = [
@@ -422,13 +437,11 @@ def write_html(report: Report, out: TextIO, width: int | None = None, jobs: int 
                                                            "Exempt", "Unchecked", "Findings"))
           + "</tr></thead><tbody>"]
     out.write("\n".join(h) + "\n")
-    for k, scr in enumerate(report.screens):
-        title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
-        c = scr["summary"]
+    for k, (title, c, found) in enumerate(listed):
         out.write(f'<tr><th scope="row"><a href="#s-{k}">{escape(title)}</a></th>'
                   + "".join(f'<td class="num">{c[x]}</td>' for x in ("targets", "pass", "fail", "partial",
                                                                     "exempt", "unchecked"))
-                  + f'<td class="num">{sum(len(t["findings"]) for t in scr["targets"])}</td></tr>\n')
+                  + f'<td class="num">{found}</td></tr>\n')
     h = ["</tbody></table>"]
     h.append('<table><caption>By rule</caption><colgroup><col style="width:26%"><col style="width:12%">'
              '<col style="width:10%"><col style="width:10%"></colgroup><thead><tr>'
@@ -450,8 +463,7 @@ def write_html(report: Report, out: TextIO, width: int | None = None, jobs: int 
         h.append(f'<label><input type="checkbox" name="status" value="{st}" checked> {escape(STATUS_WORDS[st])}</label>')
     h.append('</fieldset><label for="f-screen">Screen</label> <select id="f-screen"><option value="">All screens</option>')
     out.write("\n".join(h) + "\n")
-    for scr in report.screens:
-        title = f"{scr['path']} :: {scr['name']}" if scr["name"] else scr["path"]
+    for title, _, _ in listed:
         out.write(f'<option value="{escape(title)}">{escape(title)}</option>\n')
     h = ['</select> <p id="f-count" role="status" aria-live="polite"></p>', "</section>"]
     # One article per screen.
@@ -533,20 +545,22 @@ def _target_row(t: dict[str, Any], unit: str, rows: dict[tuple[int, str], dict[s
 def _articles(report: Report, head: Head, jobs: int | None = None) -> Iterator[str]:
     """Each screen's article, in the report's order. With several screens and cores they are made in
     worker processes, a few screens ahead: the pictures are most of an HTML report's work, and
-    each screen's are its own. Should a worker die (a crash in a picture library, or the kernel
-    out of memory), the screens not yet made are made here, one after another, as before."""
+    each screen's are its own. A worker is sent the screen's record as its JSON text, which it reads
+    itself: the main process neither reads nor pickles the dict. Should a worker die (a crash in a
+    picture library, or the kernel out of memory), the screens not yet made are made here, one after
+    another, as before."""
     from concurrent.futures import ProcessPoolExecutor
     from concurrent.futures.process import BrokenProcessPool
 
     from tapgauge.pipeline import default_jobs
 
-    numbered: Iterator[tuple[int, dict[str, Any]]] = enumerate(report.screens)
+    numbered: Iterator[tuple[int, str | bytes]] = enumerate(report.screen_texts)
     jobs = min(jobs or default_jobs(), report.summary["screens"])
     if jobs < 2:
-        yield from (_screen_html(k, scr, head) for k, scr in numbered)
+        yield from (_screen_html(k, orjson.loads(text), head) for k, text in numbered)
         return
     pool = ProcessPoolExecutor(max_workers=jobs, initializer=_given, initargs=(head,))
-    pending: deque[tuple[tuple[int, dict[str, Any]], Future[str]]] = deque()
+    pending: deque[tuple[tuple[int, str | bytes], Future[str]]] = deque()
     try:
         while True:
             while len(pending) < 4 * jobs and (item := next(numbered, None)) is not None:
@@ -563,7 +577,7 @@ def _articles(report: Report, head: Head, jobs: int | None = None) -> Iterator[s
             yield article
     finally:  # done, or stopped early (a failed write): wait for no work nobody will read
         pool.shutdown(wait=False, cancel_futures=True)
-    yield from (_screen_html(k, scr, head) for k, scr in numbered)
+    yield from (_screen_html(k, orjson.loads(text), head) for k, text in numbered)
 
 
 _HEAD: list[Head] = []  # a drawing process's report head, set once as it starts
@@ -574,8 +588,8 @@ def _given(head: Head) -> None:
     keep_freed_memory()
 
 
-def _drawn(k: int, scr: dict[str, Any]) -> str:
-    return _screen_html(k, scr, _HEAD[0])
+def _drawn(k: int, text: str | bytes) -> str:
+    return _screen_html(k, orjson.loads(text), _HEAD[0])
 
 
 def _screen_html(k: int, scr: dict[str, Any], report: Head) -> str:

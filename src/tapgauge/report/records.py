@@ -326,6 +326,12 @@ class Report:
         return (c.record for c in self._checked())
 
     @property
+    def screen_texts(self) -> Iterator[str | bytes]:
+        """Each screen's record as JSON text (orjson.loads gives the dict): what crosses to another
+        process for less than the dict."""
+        return (c.text for c in self._checked())
+
+    @property
     def screen_documents(self) -> Iterator[str]:
         """Each screen's entry in the JSON report, as compact JSON text (report/document.py)."""
         return (c.document for c in self._checked())
@@ -433,6 +439,10 @@ class _Spooled(Report):
     @property
     def screens(self) -> Iterator[dict[str, Any]]:
         return (orjson.loads(text) for text in self._read())
+
+    @property
+    def screen_texts(self) -> Iterator[str | bytes]:
+        return self._read()
 
     def _read(self) -> Iterator[bytes]:
         with self._spool.open("rb") as fh:
