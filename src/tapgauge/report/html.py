@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import base64
 import io
-import math
 import zlib
 from collections import Counter, deque
 from collections.abc import Iterator
