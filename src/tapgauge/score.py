@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 from itertools import repeat
+from operator import add
 
 import numpy as np
 
@@ -57,20 +58,19 @@ def score_screen(sr: ScreenResult, profiles: list[Profile], start: str, xy: tupl
     geometry = predict(reach, origin, 0.0, 0.0, None, 0.0, 0.0, width_model)
     approaches = rows_of(Approach, zip(np.round(geometry.width, 4).tolist(), np.round(geometry.distance, 4).tolist(),
                                        np.round(geometry.id_bits, 4).tolist()))
-    columns = []
-    for p in profiles:
-        time = np.round(movement_time(geometry.id_bits, p.intercept_ms, p.slope_ms_per_bit), 2).tolist()
-        if mm is None:
-            miss: list[float | None] = [None] * len(scored)
-        else:
-            widths, heights = mm[:, 2] - mm[:, 0], mm[:, 3] - mm[:, 1]
-            miss = _misses(hit_probability(widths, heights, p.alpha, p.sigma_a_mm))
-        columns.append(rows_of(Difficulty, zip(repeat(p.id), time, miss)))
-    per_target = zip(*columns)
+    # Every profile at once, a row each (the same arithmetic per value as one profile at a time).
+    column = np.array([[p.intercept_ms, p.slope_ms_per_bit, p.alpha, p.sigma_a_mm] for p in profiles]).T[:, :, None]
+    times = np.round(movement_time(geometry.id_bits[None, :], column[0], column[1]), 2).tolist()  # type: ignore[arg-type]
+    if mm is None:
+        misses: list[list[float | None]] = [[None] * len(scored)] * len(profiles)
+    else:
+        widths, heights = mm[None, :, 2] - mm[None, :, 0], mm[None, :, 3] - mm[None, :, 1]
+        misses = [_misses(row) for row in hit_probability(widths, heights, column[2], column[3])]  # type: ignore[arg-type]
+    per_target = zip(*(rows_of(Difficulty, zip(repeat(p.id), time, miss)) for p, time, miss in zip(profiles, times, misses)))
     targets = list(sr.targets)
     # Each scored result again with its difficulty and approach (the first seven fields as they were).
-    scored_results = rows_of(TargetResult, ((*targets[k][:7], difficulty, approach, None)
-                                            for k, difficulty, approach in zip(scored, per_target, approaches)))
+    scored_results = rows_of(TargetResult, map(add, [targets[k][:7] for k in scored],
+                                                zip(per_target, approaches, repeat(None))))
     for k, result in zip(scored, scored_results):
         targets[k] = result
     return replace(sr, targets=tuple(targets), start=(start, round(float(start_unit[0]), 2), round(float(start_unit[1]), 2)),
