@@ -29,7 +29,6 @@ pixel, when the picture has at most 256 colours).
 
 from __future__ import annotations
 
-import ctypes
 import functools
 import io
 import math
@@ -629,7 +628,9 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     not read as another).
     """
     rgb = img if img.mode == "RGB" else img.convert("RGB")
-    pixels = _pixels(rgb)
+    # Pillow's own 4-byte pixels copied out as they are stored (cheaper than packing them in another
+    # order); the fourth byte is padding, masked off where a pixel's colour is wanted.
+    pixels = np.frombuffer(rgb.tobytes("raw", "RGBX"), dtype="<u4").reshape(rgb.height, rgb.width)
     with_key = _png_with_key(pixels, img.info.get(KEY_AT))
     if with_key is not None:
         return with_key
@@ -651,60 +652,6 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     rows[:, 0] = 0
     rows[:, 1:] = index
     return _png(rows, bytes(palette + [v for c in marks for v in c]), 6)
-
-
-class _ArrowSchema(ctypes.Structure):
-    pass
-
-
-class _ArrowArray(ctypes.Structure):
-    pass
-
-
-# The Arrow C data interface's two structures, as its specification lays them out (Apache Arrow,
-# "The Arrow C data interface", sections ArrowSchema and ArrowArray): a stable ABI, which Pillow
-# (11.2 and later) hands out for a picture through `__arrow_c_array__` (the Arrow PyCapsule interface).
-_ArrowSchema._fields_ = [("format", ctypes.c_char_p), ("name", ctypes.c_char_p), ("metadata", ctypes.c_char_p),
-                         ("flags", ctypes.c_int64), ("n_children", ctypes.c_int64),
-                         ("children", ctypes.POINTER(ctypes.POINTER(_ArrowSchema))),
-                         ("dictionary", ctypes.POINTER(_ArrowSchema)), ("release", ctypes.c_void_p),
-                         ("private_data", ctypes.c_void_p)]
-_ArrowArray._fields_ = [("length", ctypes.c_int64), ("null_count", ctypes.c_int64), ("offset", ctypes.c_int64),
-                        ("n_buffers", ctypes.c_int64), ("n_children", ctypes.c_int64),
-                        ("buffers", ctypes.POINTER(ctypes.c_void_p)),
-                        ("children", ctypes.POINTER(ctypes.POINTER(_ArrowArray))),
-                        ("dictionary", ctypes.POINTER(_ArrowArray)), ("release", ctypes.c_void_p),
-                        ("private_data", ctypes.c_void_p)]
-_capsule = ctypes.pythonapi.PyCapsule_GetPointer
-_capsule.restype, _capsule.argtypes = ctypes.c_void_p, [ctypes.py_object, ctypes.c_char_p]
-
-
-def _pixels(rgb: Image.Image) -> np.ndarray:
-    """Pillow's 4-byte pixels of an RGB picture as it stores them (red, green, blue, padding), as
-    little-endian numbers (height, width); the padding byte is masked off where a colour is wanted.
-
-    Read in place where Pillow hands out the picture's memory as one Arrow array (a fixed-size list
-    of 4 bytes a pixel, format "+w:4" of "C"): no copy of a picture of several megabytes. Otherwise
-    (an older Pillow, rows not in one piece of memory, any other layout) copied with tobytes.
-    The array is read-only and keeps the picture alive (through the capsules) as long as it lives.
-    """
-    height, width = rgb.height, rgb.width
-    try:
-        schema_capsule, array_capsule = rgb.__arrow_c_array__()
-        schema = _ArrowSchema.from_address(_capsule(schema_capsule, b"arrow_schema"))
-        array = _ArrowArray.from_address(_capsule(array_capsule, b"arrow_array"))
-        if (schema.format == b"+w:4" and schema.n_children == 1 and schema.children[0].contents.format == b"C"
-                and array.length == width * height and array.offset == 0 and array.n_children == 1):
-            child = array.children[0].contents
-            if child.length == 4 * width * height and child.offset == 0 and child.n_buffers == 2 and child.buffers[1]:
-                memory = (ctypes.c_uint8 * (4 * width * height)).from_address(child.buffers[1])
-                memory.capsules = (schema_capsule, array_capsule)  # type: ignore[attr-defined]
-                pixels = np.frombuffer(memory, dtype="<u4").reshape(height, width)
-                pixels.flags.writeable = False
-                return pixels
-    except (AttributeError, ValueError, TypeError):  # no Arrow export, or not in one piece
-        pass
-    return np.frombuffer(rgb.tobytes("raw", "RGBX"), dtype="<u4").reshape(height, width)
 
 
 def _flat_rows(pixels: np.ndarray) -> tuple[np.ndarray, bytes] | None:
