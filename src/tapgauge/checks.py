@@ -17,7 +17,7 @@ from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import EPS, intersection_areas, nearest_gaps, sizes, spacing_conflicts
 from tapgauge.measure import MeasuredScreen, coords_per
 from tapgauge.difficulty import hit_probability
-from tapgauge.model import Device, Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult, rows_of
+from tapgauge.model import Device, Finding, InputError, Rule, RuleSet, ScreenResult, TargetResult, new_row, rows_of
 from tapgauge.profiles import find_profile
 
 PLATFORM_UNITS = ("dp", "pt")  # both mean "the platform's density-independent unit"
@@ -56,11 +56,6 @@ def _fmt(v: float) -> str:
     27.05 and both say 27.1, not 27.0 beside 27.1.
     """
     return f"{v:.1f}".removesuffix(".0")
-
-
-# A Finding with every field given, in order, made in C: a NamedTuple's own __new__ is a Python call, and
-# a screen of small targets makes a few hundred findings.
-_new = tuple.__new__
 
 
 def _who(m: MeasuredScreen, pos: int) -> str:
@@ -110,7 +105,7 @@ def check_min_size(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS)
                 message += f"; {_fmt(measured[pos])} {unit} left beside {names} drawn over it"
             if spacing:
                 message += f"; its {need} circle intersects {_who(m, conflict[pos])}"
-        findings.append((pos, _new(Finding, (rule.id, rule.severity, measured[pos], size, unit, message, None, other))))
+        findings.append((pos, new_row(Finding, (rule.id, rule.severity, measured[pos], size, unit, message, None, other))))
     return KindResult(tuple(findings), tuple(notes))
 
 
@@ -167,7 +162,7 @@ def check_min_gap(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS) 
             where = f"overlaps {labels[other]}"
         else:
             where = f"touches {labels[other]}"
-        findings.append((pos, _new(Finding, (rule.id, rule.severity, measured[pos], gap, unit, where + need, None,
+        findings.append((pos, new_row(Finding, (rule.id, rule.severity, measured[pos], gap, unit, where + need, None,
                                         m.screen.targets[m.checked[other]].number))))
     return KindResult(tuple(findings))
 
@@ -181,7 +176,7 @@ def check_max_miss(m: MeasuredScreen, rule: Rule, detail: Detail = Detail.WORDS)
     miss = 1.0 - hit_probability(w, h, profile.alpha, profile.sigma_a_mm)
     misses, wl, hl = miss.tolist(), w.tolist(), h.tolist()
     findings = [
-        (pos, _new(Finding, (rule.id, rule.severity, round(misses[pos] * 100, 1), round(limit * 100, 1), "%",
+        (pos, new_row(Finding, (rule.id, rule.severity, round(misses[pos] * 100, 1), round(limit * 100, 1), "%",
                         f"predicted miss {misses[pos]:.0%} for {profile.id} on {_fmt(wl[pos])} x {_fmt(hl[pos])} mm; "
                         f"limit {limit:.0%}" if words else "", None, None)))
         for pos in np.flatnonzero(miss > limit + EPS).tolist()

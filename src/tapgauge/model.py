@@ -19,10 +19,15 @@ from typing import Any, NamedTuple, TypeVar
 R = TypeVar("R", bound=tuple[Any, ...])
 
 
+# A NamedTuple from every one of its fields, in order: `new_row(Finding, (rule_id, severity, ...))`. Made
+# in C, where a NamedTuple's own __new__ (defaults, keywords) is a Python call per object: the stages
+# make several per target, hundreds a screen.
+new_row = tuple.__new__
+
+
 def rows_of(cls: type[R], rows: Iterable[tuple[Any, ...]]) -> list[R]:
-    """One `cls` (a NamedTuple) per row, every field given in order. Made in C (tuple.__new__): a
-    NamedTuple's own __new__ is a Python call per object, and a screen makes hundreds of them."""
-    return list(map(tuple.__new__, repeat(cls), rows))  # type: ignore[call-overload]
+    """One `cls` (a NamedTuple) per row, as `new_row` makes it."""
+    return list(map(new_row, repeat(cls), rows))  # type: ignore[call-overload]
 
 Box = tuple[float, float, float, float]
 

@@ -20,7 +20,7 @@ from tapgauge.checks import reach as rules_reach
 from tapgauge.device import MM_PER_INCH
 from tapgauge.geometry import as_boxes, intersection_areas
 from tapgauge.measure import MeasuredScreen
-from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult
+from tapgauge.model import Box, RuleSet, Screen, ScreenResult, Target, TargetResult, new_row
 from tapgauge.room import EPS, SIDES, Need, Why, grown_boxes, limit_name
 
 WITHDRAWN: Why = ("withdrawn",)
@@ -79,7 +79,7 @@ def _needs(m: MeasuredScreen, sr: ScreenResult, rulesets: list[RuleSet],
         if sized:
             side = square[sized[0]] if len(sized) == 1 else (max(square[r][0] for r in sized),
                                                             max(square[r][1] for r in sized))
-            out.append(tuple.__new__(Need, (pos, sized, side, _overlapping(m, pos, hits[pos]) if pos in hits else ())))
+            out.append(new_row(Need, (pos, sized, side, _overlapping(m, pos, hits[pos]) if pos in hits else ())))
     return out
 
 
@@ -246,8 +246,7 @@ def _apply(screen: Screen, m: MeasuredScreen, grown: dict[int, Box]) -> Screen:
     targets = list(screen.targets)
     for pos, (l, t, r, b) in grown.items():
         k = m.checked[pos]
-        # the same target with the planned bounds, made in C (_replace is a Python call per target)
-        targets[k] = tuple.__new__(Target, (targets[k][0], (float(l), float(t), float(r), float(b)), *targets[k][2:]))
+        targets[k] = new_row(Target, (targets[k][0], (float(l), float(t), float(r), float(b)), *targets[k][2:]))
     return replace(screen, targets=tuple(targets))
 
 
@@ -261,7 +260,6 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[Box | 
     unit = m.device.unit
     boxes = np.asarray(m.boxes_px, dtype=float).tolist()
     targets = list(sr.targets)
-    new = tuple.__new__  # every field in order, made in C: a NamedTuple's own __new__ is a Python call
     for pos, (box, why) in planned.items():
         k = m.checked[pos]
         tr = targets[k]
@@ -270,13 +268,13 @@ def _attach(sr: ScreenResult, m: MeasuredScreen, planned: dict[int, tuple[Box | 
         if box is not None and why[0] == "limits":
             growth = ((old[0] - box[0]) / k_unit, (old[1] - box[1]) / k_unit, (box[2] - old[2]) / k_unit,
                       (box[3] - old[3]) / k_unit)
-            plan = new(Plan, ("grow", tuple(box), growth, rules, 0.0, _STILL, None, unit, k_unit, why, ()))
+            plan = new_row(Plan, ("grow", tuple(box), growth, rules, 0.0, _STILL, None, unit, k_unit, why, ()))
         elif why[0] == "overlaps":
-            plan = new(Plan, ("move", tuple(old), _NONE, rules, 0.0, _STILL, None, unit, k_unit, why,
+            plan = new_row(Plan, ("move", tuple(old), _NONE, rules, 0.0, _STILL, None, unit, k_unit, why,
                               needs[pos].overlaps))
         else:
             plan = _move(tuple(old), why, rules, k_unit, unit)
-        targets[k] = new(TargetResult, (tr.target, tr.status, tr.reason, tr.size_unit, tr.size_mm, tr.findings,
+        targets[k] = new_row(TargetResult, (tr.target, tr.status, tr.reason, tr.size_unit, tr.size_mm, tr.findings,
                                         tr.notes, tr.difficulty, tr.approach, plan))
     return replace(sr, targets=tuple(targets))
 
@@ -289,7 +287,7 @@ def _move(box: Box, why: Why, rules: tuple[str, ...], k_unit: float, unit: str) 
     """No room: how much is missing between the two limits on the tight axis, and the smallest move of a
     neighbour that opens it (moving the target itself between two fixed limits opens nothing)."""
     if why[0] != "short":
-        return tuple.__new__(Plan, ("move", box, _NONE, rules, 0.0, _STILL, None, unit, k_unit, why, ()))
+        return new_row(Plan, ("move", box, _NONE, rules, 0.0, _STILL, None, unit, k_unit, why, ()))
     _, axis, missing, low, high = why
     short = missing / k_unit
     # A neighbour (or a holder) is what can move: the high side's first, else the low side's.
@@ -298,10 +296,10 @@ def _move(box: Box, why: Why, rules: tuple[str, ...], k_unit: float, unit: str) 
     elif low.code >= 4:
         who, sign = low, -1
     else:
-        return tuple.__new__(Plan, ("move", box, _NONE, rules, short, _STILL, None, unit, k_unit, why, ()))
+        return new_row(Plan, ("move", box, _NONE, rules, short, _STILL, None, unit, k_unit, why, ()))
     distance = short * (2 if who.grows else 1)  # a neighbour that also grows shares the room it opens
     move = (sign * distance, 0.0) if axis == 0 else (0.0, sign * distance)
-    return tuple.__new__(Plan, ("move", box, _NONE, rules, short, move, who.number, unit, k_unit, why, ()))
+    return new_row(Plan, ("move", box, _NONE, rules, short, move, who.number, unit, k_unit, why, ()))
 
 
 def _sentence(p: Plan) -> str:

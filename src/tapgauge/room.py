@@ -19,7 +19,7 @@ import numpy as np
 
 from tapgauge.geometry import candidate_pairs
 from tapgauge.measure import MeasuredScreen
-from tapgauge.model import Box, Target, Window
+from tapgauge.model import Box, Target, Window, new_row
 
 SIDES = ("left", "top", "right", "bottom")
 EPS = 1e-6
@@ -186,8 +186,7 @@ def _rows(m: MeasuredScreen, rows: np.ndarray, g: np.ndarray, o: np.ndarray, all
     grows = is_growing.tolist()
 
     def limit(c: int, q: int) -> Limit:
-        # tuple.__new__: a NamedTuple's own __new__ is a Python call, and this runs for two sides of every row
-        return _EDGES[c] if c < 4 else tuple.__new__(Limit, (c, numbers[q], c == 5 and grows[q]))
+        return _EDGES[c] if c < 4 else new_row(Limit, (c, numbers[q], c == 5 and grows[q]))
 
     # No room: the tight axis's two limits, picked out for all such rows at once.
     s = np.flatnonzero(~fits_all)

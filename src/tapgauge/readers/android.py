@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 from lxml import etree
 
-from tapgauge.model import Box, DeviceHints, InputError, Screen, Target, Window
+from tapgauge.model import Box, DeviceHints, InputError, Screen, Target, Window, new_row
 
 _BOUNDS = re.compile(r"^\s*\[(-?\d+),(-?\d+)\]\[(-?\d+),(-?\d+)\]\s*$")
 _TRUE = "true"
@@ -203,11 +203,10 @@ def read_android(path: Path, root: etree._Element, hints: tuple[DeviceHints, ...
         doc_index = {el: k for k, el in enumerate(root.iter())}
         found.sort(key=lambda item: doc_index[item[0]])
     targets = []
-    new = tuple.__new__  # every field in order, made in C: a NamedTuple's own __new__ is a Python call
     for k, (el, rank, visible, scrollers, tree, window, (start, stop)) in enumerate(found, start=1):
         get = el.get
         label = (get("text") or get("content-desc") or "").strip()
-        targets.append(new(Target, (
+        targets.append(new_row(Target, (
             k, tuple(boxes[rank - 1]), get("class") or el.tag, label,
             get("resource-id") or "", get("enabled", _TRUE) == _TRUE, visible, rank, scrollers, el.sourceline,
             tree, window, "" if label else _text_within(walk.texts, start, stop),
