@@ -628,9 +628,7 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     not read as another).
     """
     rgb = img if img.mode == "RGB" else img.convert("RGB")
-    # Pillow's own 4-byte pixels copied out as they are stored (cheaper than packing them in another
-    # order); the fourth byte is padding, masked off where a pixel's colour is wanted.
-    pixels = np.frombuffer(rgb.tobytes("raw", "RGBX"), dtype="<u4").reshape(rgb.height, rgb.width)
+    pixels = _stored(rgb)
     with_key = _png_with_key(pixels, img.info.get(KEY_AT))
     if with_key is not None:
         return with_key
@@ -652,6 +650,13 @@ def png_bytes(img: Image.Image, colours: int = 64) -> bytes:
     rows[:, 0] = 0
     rows[:, 1:] = index
     return _png(rows, bytes(palette + [v for c in marks for v in c]), 6)
+
+
+def _stored(rgb: Image.Image) -> np.ndarray:
+    """An RGB picture's pixels (height, width) as Pillow stores them, 4 bytes each, read as one number:
+    copied out as they are (cheaper than packing them in another order); the fourth byte is padding,
+    masked off where a pixel's colour is wanted."""
+    return np.frombuffer(rgb.tobytes("raw", "RGBX"), dtype="<u4").reshape(rgb.height, rgb.width)
 
 
 def _flat_rows(pixels: np.ndarray) -> tuple[np.ndarray, bytes] | None:
@@ -738,7 +743,7 @@ class _PackedKey(NamedTuple):
 @functools.lru_cache(maxsize=16)
 def _packed_key(width: int, sc: Scale, parity: int) -> _PackedKey | None:
     key = _key_block(width, sc, parity)
-    pixels = np.frombuffer(key.tobytes("raw", "RGBX"), dtype="<u4").reshape(key.height, key.width)
+    pixels = _stored(key)
     colours = _colours(pixels.ravel() & 0xFFFFFF, 256)
     if colours is None or key.height < 2:
         return None
