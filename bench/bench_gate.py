@@ -19,7 +19,7 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
-from run_bench import run_measured  # noqa: E402 - the shared whole-process meter
+from timing import run_measured  # noqa: E402 - the shared whole-process meter
 
 
 def wall(cmd: list[str], runs: int = 3) -> float:

@@ -22,7 +22,6 @@ from __future__ import annotations
 
 import argparse
 import os
-import resource
 import shutil
 import subprocess
 import sys
@@ -32,15 +31,7 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
-from timing import installed_env
-
-
-def timed(args: list[str], env: dict[str, str]) -> tuple[float, float]:
-    """Wall seconds, and CPU seconds (user + system) of the process and its workers."""
-    r0, t0 = resource.getrusage(resource.RUSAGE_CHILDREN), time.perf_counter()
-    subprocess.run(args, check=False, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env=env)  # exit 1: findings
-    wall, r1 = time.perf_counter() - t0, resource.getrusage(resource.RUSAGE_CHILDREN)
-    return wall, (r1.ru_utime - r0.ru_utime) + (r1.ru_stime - r0.ru_stime)
+from timing import installed_env, run_measured
 
 
 def main() -> None:
@@ -60,21 +51,21 @@ def main() -> None:
         subprocess.run([sys.executable, str(HERE / "make_corpus.py"), str(corpus), "--screens", str(a.screens),
                         "--targets", str(a.targets)], check=True)
         jobs = ["--jobs", str(a.jobs)] if a.jobs else []
-        check = [sys.executable, "-m", "tapgauge", "check", str(corpus), *jobs]
+        check = [sys.executable, "-m", "tapgauge", "check", str(corpus), "--quiet", *jobs]
         floors, makes, others = [], [], []
         other_out = Path(tmp) / "other.html"
         env = installed_env(Path(tmp) / "here")
         env_against = installed_env(Path(tmp) / "against", against) if against else env
         for _ in range(a.repeat):  # alternate, so all see the same machine
-            floors.append(timed([*check, "-f", "json", "-o", str(floor_out)], env))
-            makes.append(timed([*check, "-f", "html", "-o", str(out)], env))
+            floors.append(run_measured([*check, "-f", "json", "-o", str(floor_out)], env))
+            makes.append(run_measured([*check, "-f", "html", "-o", str(out)], env))
             if against:
-                others.append(timed([*check, "-f", "html", "-o", str(other_out)], env_against))
+                others.append(run_measured([*check, "-f", "html", "-o", str(other_out)], env_against))
         for made, code in ((floor_out, "this code's JSON"), (out, "this code's HTML"), (other_out, f"{against}'s HTML")):
             if not made.is_file() and (made is not other_out or against):
                 sys.exit(f"bench_html: {code} report was not written; run the same check by hand to see why")
-        floor, make = min(w for w, _ in floors), min(w for w, _ in makes)
-        floor_cpu, make_cpu = min(c for _, c in floors), min(c for _, c in makes)
+        floor, make = min(r.wall for r in floors), min(r.wall for r in makes)
+        floor_cpu, make_cpu = min(r.cpu for r in floors), min(r.cpu for r in makes)
         size = out.stat().st_size
         other_size = other_out.stat().st_size if against else 0
         exe = None if a.no_open else shutil.which("chromium")
@@ -94,7 +85,7 @@ def main() -> None:
     print(f"| {floor:.1f} | {make:.1f} | {make / floor:.1f}x | {(make - floor) / a.screens * 1e3:.0f} "
           f"| {floor_cpu:.1f}, {make_cpu:.1f} | {size / 1e6:.1f} | {size / a.screens / 1e3:.0f} | {opened} |")
     if against:
-        wall, cpu = min(w for w, _ in others), min(c for _, c in others)
+        wall, cpu = min(r.wall for r in others), min(r.cpu for r in others)
         print(f"\nThe same with {against}, side by side:\n")
         print("| HTML report s | ratio to the floor | CPU s | report MB |")
         print("|---:|---:|---:|---:|")
