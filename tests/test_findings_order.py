@@ -16,6 +16,8 @@ from tapgauge.rulesets import select_rulesets
 
 
 def test_findings_come_most_severe_first_then_by_rule_id() -> None:
+    # The reference is Python's own sort on (most severe first, rule id), the order tapgauge's reports
+    # promise (our own order, no published source: common practice for checkers listing findings).
     # Three rule sets of three severities (an error, warnings, a note), seeded layouts of small and
     # crowded boxes at two densities, so that most failing targets break rules of more than one severity.
     settings = Settings(tuple(select_rulesets(["motor-mm", "android-guidance", "wcag-2.5.8"])))

@@ -31,8 +31,9 @@ def test_marks_past_the_overlays_bottom_stay_out_of_the_legend(monkeypatch: pyte
     failing = [t for t in screen["targets"] if t["status"] == "fail"]
     assert failing
     moved = copy.deepcopy(screen)
-    # Every failing target moved to sit on the screen's bottom edge: its minimum square, corners and
-    # spacing circle reach past it.
+    # The reference is the legend as drawn under the same screen left as it was (no published source:
+    # common practice for a layout that must not change). Every failing target moved to sit on the
+    # screen's bottom edge: its minimum square, corners and spacing circle reach past it.
     for t in moved["targets"]:
         if t["status"] == "fail":
             l, top, r, b = t["bounds"]
