@@ -73,28 +73,35 @@ def _tree_pss_kb(root: int) -> int:
 
 class Measured(NamedTuple):
     wall: float  # seconds
-    peak: int  # KB of PSS of the whole process tree, sampled every 50 ms
+    peak: int  # KB of PSS of the whole process tree, sampled every `every` seconds (0 when not sampled)
     cpu: float  # seconds of user + system time of the process and every process it waited for (its workers)
 
 
-def run_measured(cmd: list[str], env: dict[str, str] | None = None) -> Measured:
+def run_measured(cmd: list[str], env: dict[str, str] | None = None, every: float | None = 0.05) -> Measured:
     """Wall seconds, peak memory and CPU seconds of a command's process tree. CPU wanders less than wall
-    time when other work shares the machine (a busy machine stretches the wait, not the work)."""
+    time when other work shares the machine (a busy machine stretches the wait, not the work).
+
+    Memory is sampled every `every` seconds, or not at all with None. A sample walks /proc and costs
+    about 3 ms of a core: every 50 ms that took a core's 5% from a command that keeps both cores of
+    a 2-core machine busy (a one-process floor beside it keeps a core free), so runs timed for speed
+    alone are not sampled."""
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, env=env)
     peak = [0]
 
-    def sample() -> None:
+    def sample(every: float) -> None:
         while proc.poll() is None:
             peak[0] = max(peak[0], _tree_pss_kb(proc.pid))
-            time.sleep(0.05)
+            time.sleep(every)
 
-    watcher = threading.Thread(target=sample, daemon=True)
-    watcher.start()
+    watcher = None if every is None else threading.Thread(target=sample, args=(every,), daemon=True)
+    if watcher is not None:
+        watcher.start()
     proc.wait()
     elapsed = time.perf_counter() - t0
-    watcher.join()
+    if watcher is not None:
+        watcher.join()
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     if proc.returncode not in (0, 1):
         raise SystemExit(f"{' '.join(cmd)} failed with exit {proc.returncode}")
