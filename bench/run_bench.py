@@ -165,6 +165,11 @@ def bench_batch(screens: int, targets: int, filler: int, repeat: int, fmt: str, 
     print(f"| {f:.2f} s | {t:.2f} s | {t / f:.2f}x | {f_cpu:.2f}, {t_cpu:.2f} | {size / 1e6:.1f} MB "
           f"| {size / dumps:.2f} |")
     print(f"\n(all runs, s: floor {', '.join(f'{v:.2f}' for v in floor)}; tapgauge {', '.join(f'{v:.2f}' for v in tap)})")
+    # Each tapgauge run against the floor run just before it: on a shared machine whose speed changes
+    # between runs, the spread of these says more than one ratio of medians.
+    pairs = sorted(t / f for f, t in zip(floor, tap))
+    print(f"(each run against the floor run before it: {pairs[0]:.2f}x to {pairs[-1]:.2f}x, "
+          f"median {statistics.median(pairs):.2f}x)")
 
 
 def main() -> None:
