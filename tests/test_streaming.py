@@ -196,3 +196,35 @@ def test_progress_counts_every_file_and_ends_at_its_total(tmp_path: Path) -> Non
     files, errors = discover([tmp_path / "demo", tmp_path / "nope"])
     assert ticks[-1] == (len(files) + len(errors), len(files) + len(errors))
     assert [d for d, _ in ticks] == list(range(1, len(ticks) + 1))
+
+
+def test_a_run_with_workers_leaves_the_collector_as_it_found_it(tmp_path: Path) -> None:
+    """Workers fork from a frozen parent (the Python documentation's advice for fork, under
+    gc.freeze), and an in-process caller gets its collector back: nothing stays frozen, so a
+    cycle made before the run can still be collected after it; a caller's own freeze is kept."""
+    import gc
+    import weakref
+
+    shutil.copytree(DEMO, tmp_path / "demo")
+    settings_ = Settings(tuple(select_rulesets(list(DEFAULT_RULESETS))))
+
+    class Node:
+        pass
+
+    cycle = Node()
+    cycle.me = cycle  # type: ignore[attr-defined]
+    alive = weakref.ref(cycle)
+    assert gc.get_freeze_count() == 0
+    out = list(iter_results([tmp_path / "demo"], settings_, 2))
+    assert out and gc.get_freeze_count() == 0
+    del cycle
+    gc.collect()
+    assert alive() is None  # collected: it was not left in the permanent generation
+
+    gc.freeze()  # a caller that froze its own objects (a pre-fork server) keeps them frozen
+    try:
+        frozen = gc.get_freeze_count()
+        list(iter_results([tmp_path / "demo"], settings_, 2))
+        assert gc.get_freeze_count() >= frozen
+    finally:
+        gc.unfreeze()

@@ -177,6 +177,15 @@ def _ordered(work: Callable[[Path, Settings], list[T]], items: Iterator[Path | I
         while len(pending) < window and (batch := next(batches, None)) is not None:
             pending.append((batch, submit(batch)))
 
+    # Workers are forked (at the first submit) and share the parent's pages until either side writes
+    # to one. A garbage collection writes to every object it looks at, so each process's collections
+    # copied the pages of every module object, one by one: over 20,000 screens the three processes'
+    # proportional memory grew by 8 MB each while their resident memory grew by 3 (peak 83-86 MB;
+    # 75 MB frozen). Frozen objects are never looked at (the gc.freeze documentation's advice for
+    # fork); unfrozen after, unless a caller had frozen objects of its own (its freeze is left as is).
+    ours = gc.get_freeze_count() == 0
+    if ours:
+        gc.freeze()
     try:
         top_up()
         while pending:
@@ -197,6 +206,8 @@ def _ordered(work: Callable[[Path, Settings], list[T]], items: Iterator[Path | I
         pool.shutdown(wait=True)
     finally:  # interrupted (Ctrl-C, a failed write): do not wait for work nobody will read
         pool.shutdown(wait=False, cancel_futures=True)
+        if ours:
+            gc.unfreeze()  # what was alive at the start can be collected again (in-process callers run on)
 
 
 def _do(work: Callable[[Path, Settings], list[T]], item: Path | InputError, settings: Settings) -> list[T | InputError]:
