@@ -81,10 +81,10 @@ def run_measured(cmd: list[str], env: dict[str, str] | None = None, every: float
     """Wall seconds, peak memory and CPU seconds of a command's process tree. CPU wanders less than wall
     time when other work shares the machine (a busy machine stretches the wait, not the work).
 
-    Memory is sampled every `every` seconds, or not at all with None. A sample walks /proc and costs
-    about 3 ms of a core: every 50 ms that took a core's 5% from a command that keeps both cores of
-    a 2-core machine busy (a one-process floor beside it keeps a core free), so runs timed for speed
-    alone are not sampled."""
+    Memory is sampled every `every` seconds (every 50 ms in the first second), or not at all with None.
+    A sample walks /proc and costs about 3 ms of a core: every 50 ms that took a core's 5% from a
+    command that keeps both cores of a 2-core machine busy (a one-process floor beside it keeps a
+    core free), so runs timed for speed alone are not sampled."""
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, env=env)
@@ -93,7 +93,8 @@ def run_measured(cmd: list[str], env: dict[str, str] | None = None, every: float
     def sample(every: float) -> None:
         while proc.poll() is None:
             peak[0] = max(peak[0], _tree_pss_kb(proc.pid))
-            time.sleep(every)
+            # Every 50 ms for the first second, so that a short run's peak is seen too; then `every`.
+            time.sleep(every if time.perf_counter() - t0 > 1.0 else min(every, 0.05))
 
     watcher = None if every is None else threading.Thread(target=sample, args=(every,), daemon=True)
     if watcher is not None:
