@@ -217,14 +217,18 @@ def test_a_run_with_workers_leaves_the_collector_as_it_found_it(tmp_path: Path) 
     assert gc.get_freeze_count() == 0
     out = list(iter_results([tmp_path / "demo"], settings_, 2))
     assert out and gc.get_freeze_count() == 0
+    main(["check", str(tmp_path / "demo"), "-f", "html", "-o", str(tmp_path / "r.html"), "-j", "2", "-q"])
+    assert (tmp_path / "r.html").is_file() and gc.get_freeze_count() == 0  # the drawing processes' too
     del cycle
     gc.collect()
     assert alive() is None  # collected: it was not left in the permanent generation
 
-    gc.freeze()  # a caller that froze its own objects (a pre-fork server) keeps them frozen
+    mine = Node()  # a caller that froze its own objects (a pre-fork server) keeps them frozen
+    gc.freeze()
     try:
-        frozen = gc.get_freeze_count()
         list(iter_results([tmp_path / "demo"], settings_, 2))
-        assert gc.get_freeze_count() >= frozen
+        assert gc.get_freeze_count() > 0
+        assert not any(o is mine for o in gc.get_objects())  # still in the permanent generation
     finally:
         gc.unfreeze()
+    assert any(o is mine for o in gc.get_objects())  # (and gc.get_objects does list it once unfrozen)

@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, TypeVar
 from tapgauge.checks import check_screen, failing, reach
 from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
-from tapgauge.heap import keep_freed_memory
+from tapgauge.heap import keep_freed_memory, shared_with_workers
 from tapgauge.measure import MeasuredScreen, MeasureOptions, measure
 from tapgauge.model import Device, DeviceHints, InputError, RuleSet, Screen, ScreenResult
 from tapgauge.plan import plan_screen
@@ -177,37 +177,27 @@ def _ordered(work: Callable[[Path, Settings], list[T]], items: Iterator[Path | I
         while len(pending) < window and (batch := next(batches, None)) is not None:
             pending.append((batch, submit(batch)))
 
-    # Workers are forked (at the first submit) and share the parent's pages until either side writes
-    # to one. A garbage collection writes to every object it looks at, so each process's collections
-    # copied the pages of every module object, one by one: over 20,000 screens the three processes'
-    # proportional memory grew by 8 MB each while their resident memory grew by 3 (peak 83-86 MB;
-    # 75 MB frozen). Frozen objects are never looked at (the gc.freeze documentation's advice for
-    # fork); unfrozen after, unless a caller had frozen objects of its own (its freeze is left as is).
-    ours = gc.get_freeze_count() == 0
-    if ours:
-        gc.freeze()
-    try:
-        top_up()
-        while pending:
-            batch, future = pending.popleft()
-            try:
-                if future is None:
-                    raise BrokenProcessPool
-                results: list[list[T | InputError]] = list(future.result())
-            except BrokenProcessPool:
-                results = _one_by_one(work, batch, settings)
-                again = [b for b, _ in pending]  # the broken pool took these down too
-                pending.clear()
-                pool.shutdown(wait=False, cancel_futures=True)
-                pool = ProcessPoolExecutor(max_workers=jobs, initializer=keep_freed_memory)
-                pending.extend((b, submit(b)) for b in again)
-            yield from results
+    with shared_with_workers():  # the workers fork at the first submit
+        try:
             top_up()
-        pool.shutdown(wait=True)
-    finally:  # interrupted (Ctrl-C, a failed write): do not wait for work nobody will read
-        pool.shutdown(wait=False, cancel_futures=True)
-        if ours:
-            gc.unfreeze()  # what was alive at the start can be collected again (in-process callers run on)
+            while pending:
+                batch, future = pending.popleft()
+                try:
+                    if future is None:
+                        raise BrokenProcessPool
+                    results: list[list[T | InputError]] = list(future.result())
+                except BrokenProcessPool:
+                    results = _one_by_one(work, batch, settings)
+                    again = [b for b, _ in pending]  # the broken pool took these down too
+                    pending.clear()
+                    pool.shutdown(wait=False, cancel_futures=True)
+                    pool = ProcessPoolExecutor(max_workers=jobs, initializer=keep_freed_memory)
+                    pending.extend((b, submit(b)) for b in again)
+                yield from results
+                top_up()
+            pool.shutdown(wait=True)
+        finally:  # interrupted (Ctrl-C, a failed write): do not wait for work nobody will read
+            pool.shutdown(wait=False, cancel_futures=True)
 
 
 def _do(work: Callable[[Path, Settings], list[T]], item: Path | InputError, settings: Settings) -> list[T | InputError]:

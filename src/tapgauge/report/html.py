@@ -26,7 +26,7 @@ from typing import Any, NamedTuple, TextIO
 import orjson
 
 from tapgauge.device import MM_PER_INCH
-from tapgauge.heap import keep_freed_memory
+from tapgauge.heap import keep_freed_memory, shared_with_workers
 from tapgauge.report.findings import first_profile, rule_index, screen_rows
 from tapgauge.report.records import Report
 from tapgauge.report.verdict import DISCLAIMER, summary_line
@@ -560,22 +560,23 @@ def _articles(report: Report, head: Head, jobs: int | None = None) -> Iterator[s
         return
     pool = ProcessPoolExecutor(max_workers=jobs, initializer=_given, initargs=(head,))
     pending: deque[tuple[tuple[int, str | bytes], Future[str]]] = deque()
-    try:
-        while True:
-            while len(pending) < 4 * jobs and (item := next(numbered, None)) is not None:
-                pending.append((item, pool.submit(_drawn, *item)))
-            if not pending:
-                return
-            item, future = pending.popleft()
-            try:
-                article = future.result()
-            except BrokenProcessPool:
-                numbered = chain([item], [i for i, _ in pending], numbered)
-                pending.clear()
-                break
-            yield article
-    finally:  # done, or stopped early (a failed write): wait for no work nobody will read
-        pool.shutdown(wait=False, cancel_futures=True)
+    with shared_with_workers():  # the drawing processes fork at the first submit
+        try:
+            while True:
+                while len(pending) < 4 * jobs and (item := next(numbered, None)) is not None:
+                    pending.append((item, pool.submit(_drawn, *item)))
+                if not pending:
+                    return
+                item, future = pending.popleft()
+                try:
+                    article = future.result()
+                except BrokenProcessPool:
+                    numbered = chain([item], [i for i, _ in pending], numbered)
+                    pending.clear()
+                    break
+                yield article
+        finally:  # done, or stopped early (a failed write): wait for no work nobody will read
+            pool.shutdown(wait=False, cancel_futures=True)
     yield from (_screen_html(k, orjson.loads(text), head) for k, text in numbered)
 
 
