@@ -232,3 +232,30 @@ def test_a_run_with_workers_leaves_the_collector_as_it_found_it(tmp_path: Path) 
     finally:
         gc.unfreeze()
     assert any(o is mine for o in gc.get_objects())  # (and gc.get_objects does list it once unfrozen)
+
+
+def test_the_receiving_process_maps_large_blocks_and_starts_without_mallopt(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The tapgauge process fixes glibc's mmap threshold at 64 KiB, so the 64 KiB pieces a worker's
+    results arrive in are mapped and returned whole (glibc's mallopt(3) manual: setting
+    M_MMAP_THRESHOLD, -3 in malloc.h, turns off the threshold's dynamic adjustment). Where the C
+    library has no mallopt (macOS, Windows), it starts all the same."""
+    import ctypes
+
+    from tapgauge.heap import map_large_blocks
+
+    calls: list[tuple[int, int]] = []
+
+    class Libc:
+        def __init__(self, name: object) -> None:
+            self.mallopt = lambda param, value: calls.append((param, value)) or 1
+
+    monkeypatch.setattr(ctypes, "CDLL", Libc)
+    map_large_blocks()
+    assert calls == [(-3, 65536)]
+
+    class NoMallopt:
+        def __init__(self, name: object) -> None:
+            pass
+
+    monkeypatch.setattr(ctypes, "CDLL", NoMallopt)
+    map_large_blocks()  # no AttributeError

@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, TypeVar
 from tapgauge.checks import check_screen, failing, reach
 from tapgauge.config import DeviceDefaults
 from tapgauge.device import resolve_device
-from tapgauge.heap import keep_freed_memory, shared_with_workers
+from tapgauge.heap import keep_freed_memory, map_large_blocks, shared_with_workers
 from tapgauge.measure import MeasuredScreen, MeasureOptions, measure
 from tapgauge.model import Device, DeviceHints, InputError, RuleSet, Screen, ScreenResult
 from tapgauge.plan import plan_screen
@@ -164,6 +164,7 @@ def _ordered(work: Callable[[Path, Settings], list[T]], items: Iterator[Path | I
 
     batches = _chunks(items, jobs)
     window = jobs * 3
+    map_large_blocks()  # the results arrive 64 KiB at a time: each piece mapped, so memory stays flat
     pool = ProcessPoolExecutor(max_workers=jobs, initializer=keep_freed_memory)
     pending: deque[tuple[list[Path | InputError], Future[list[list[T | InputError]]] | None]] = deque()
 
@@ -241,7 +242,8 @@ def iter_results(paths: list[Path], settings: Settings, jobs: int = 1,
 
     That order is the report's order, so records can be written as they come. Files
     are found as the run goes (no list of them is kept); `progress(done, total)` is
-    called as files finish, with the total from a first, cheap walk.
+    called as files finish, with the total from a first, cheap walk. With workers, this process
+    maps its blocks of 64 KiB or more from then on (heap.map_large_blocks).
     """
     items = iter_inputs(paths, display_path)  # paths that do not exist come first, as errors
     total = count_inputs(paths) if progress else 0

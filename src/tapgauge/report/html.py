@@ -26,7 +26,7 @@ from typing import Any, NamedTuple, TextIO
 import orjson
 
 from tapgauge.device import MM_PER_INCH
-from tapgauge.heap import keep_freed_memory, shared_with_workers
+from tapgauge.heap import keep_freed_memory, map_large_blocks, shared_with_workers
 from tapgauge.report.findings import first_profile, rule_index, screen_rows
 from tapgauge.report.records import Report
 from tapgauge.report.verdict import DISCLAIMER, summary_line
@@ -558,6 +558,7 @@ def _articles(report: Report, head: Head, jobs: int | None = None) -> Iterator[s
     if jobs < 2:
         yield from (_screen_html(k, orjson.loads(text), head) for k, text in numbered)
         return
+    map_large_blocks()  # the drawn pages arrive 64 KiB at a time (heap.py)
     pool = ProcessPoolExecutor(max_workers=jobs, initializer=_given, initargs=(head,))
     pending: deque[tuple[tuple[int, str | bytes], Future[str]]] = deque()
     with shared_with_workers():  # the drawing processes fork at the first submit
