@@ -235,10 +235,11 @@ def test_a_run_with_workers_leaves_the_collector_as_it_found_it(tmp_path: Path) 
 
 
 def test_the_receiving_process_maps_large_blocks_and_starts_without_mallopt(monkeypatch: pytest.MonkeyPatch) -> None:
-    """The tapgauge process fixes glibc's mmap threshold at 64 KiB, so the 64 KiB pieces a worker's
-    results arrive in are mapped and returned whole (glibc's mallopt(3) manual: setting
-    M_MMAP_THRESHOLD, -3 in malloc.h, turns off the threshold's dynamic adjustment). Where the C
-    library has no mallopt (macOS, Windows), it starts all the same."""
+    """The tapgauge process fixes glibc's mmap threshold at 64 KiB, so the pieces a worker's results
+    arrive in (64 KiB of data and a bytes object's header) are mapped and returned whole. The GNU C
+    Library manual, "Malloc Tunable Parameters" (3.2.3.7): chunks larger than M_MMAP_THRESHOLD (-3
+    in malloc.h) are mapped, and setting it disables the threshold's dynamic adjustment. Where the
+    C library has no mallopt (macOS, Windows), it starts all the same."""
     import ctypes
 
     from tapgauge.heap import map_large_blocks

@@ -34,11 +34,11 @@ def keep_freed_memory() -> None:
     with the run, and what it keeps is at most what one file needed."""
     if (mallopt := _mallopt()) is not None:
         mallopt(M_TRIM_THRESHOLD, 1 << 28)  # keep up to 256 MiB free at the heap's top
-        mallopt(M_MMAP_THRESHOLD, 1 << 25)  # blocks up to 32 MiB (glibc's limit) from the heap, not mmap
+        mallopt(M_MMAP_THRESHOLD, 1 << 25)  # up to 32 MiB (glibc's limit) from the heap, not mmap
 
 
 def map_large_blocks() -> None:
-    """In the process that receives what workers send, give every block of 64 KiB or more its own
+    """In the process that receives what workers send, give every block larger than 64 KiB its own
     mapping, returned whole when freed, from now on. glibc only, as above. (Called where a pool of
     workers starts, so a one-screen run does not load ctypes.)
 
@@ -50,7 +50,7 @@ def map_large_blocks() -> None:
     22 MB over 100,000); mapped, it stays flat. A mapping costs a few system calls per 64 KiB
     received: 0.05 s of a 1,000-screen batch's 8 s of CPU."""
     if (mallopt := _mallopt()) is not None:
-        mallopt(M_MMAP_THRESHOLD, 64 * 1024)  # fixed: glibc no longer raises it as blocks are freed
+        mallopt(M_MMAP_THRESHOLD, 64 * 1024)  # once set, glibc no longer raises it
 
 
 @contextmanager

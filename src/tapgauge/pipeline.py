@@ -243,7 +243,7 @@ def iter_results(paths: list[Path], settings: Settings, jobs: int = 1,
     That order is the report's order, so records can be written as they come. Files
     are found as the run goes (no list of them is kept); `progress(done, total)` is
     called as files finish, with the total from a first, cheap walk. With workers, this process
-    maps its blocks of 64 KiB or more from then on (heap.map_large_blocks).
+    maps its blocks larger than 64 KiB from then on (heap.map_large_blocks).
     """
     items = iter_inputs(paths, display_path)  # paths that do not exist come first, as errors
     total = count_inputs(paths) if progress else 0
