@@ -40,7 +40,7 @@ def keep_freed_memory() -> None:
 def map_large_blocks() -> None:
     """In the process that receives what workers send, give every block larger than 64 KiB its own
     mapping, returned whole when freed, from now on. glibc only, as above. (Called where a pool of
-    workers starts, so a one-screen run does not load ctypes.)
+    workers starts: a run without workers, or a caller that starts none, keeps glibc's defaults.)
 
     A worker's results come through a pipe 64 KiB at a time (multiprocessing reads each piece into
     a buffer of its own), while the report text they carry stays alive until it is written. glibc
