@@ -30,7 +30,8 @@ def whole_records(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatc
         from tapgauge.batch import Run
 
         whole = Run.report  # a run for the JSON report alone makes no sentences: here it makes the whole record
-        monkeypatch.setattr(Run, "report", lambda self, paths, tick, document_only=False: whole(self, paths, tick))
+        monkeypatch.setattr(Run, "report", lambda self, paths, tick, document_only=False, plans=True:
+                            whole(self, paths, tick, plans=plans))
         monkeypatch.setattr("tapgauge.report.document.screen_document", lambda rec: rec)
 
 

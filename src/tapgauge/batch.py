@@ -146,10 +146,14 @@ class Run:
     level: Severity
     jobs: int
 
-    def report(self, paths: list[Path], tick: Callable[[int, int], None] | None, document_only: bool = False) -> Report:
+    def report(self, paths: list[Path], tick: Callable[[int, int], None] | None, document_only: bool = False,
+               plans: bool = True) -> Report:
         """The run's report; with `document_only` its screens are the JSON report's text and nothing else
-        (for the JSON writers when no overlay is drawn), made in the workers."""
-        settings = replace(self.settings, document_only=True) if document_only else self.settings
+        (for the JSON writers when no overlay is drawn), made in the workers; without `plans`, no target has a
+        fix plan (for the baseline and the gate, which read none)."""
+        settings = replace(self.settings, plans=plans)
+        if document_only:
+            settings = replace(settings, document_only=True)
         items = iter_results(paths, settings, self.jobs, tick, work=record_one)
         return Report(items, list(self.settings.rulesets), self.level, list(self.settings.scoring.profiles),
                       self.settings.waivers, on_error=print_input_error)

@@ -223,7 +223,7 @@ def baseline_cmd(
         if not force:
             check_overwrite(output, project)
         with interruptible(), progress() as tick, atomic_text(output) as fh:
-            report = run.report(paths, tick)
+            report = run.report(paths, tick, plans=False)  # a baseline records no plan
             screens, targets = write_baseline(fh, report, screen_namer(paths), project, one_root=len(paths) == 1)
             if report.errors:
                 raise Discard("not writing a baseline while screens could not be read (see above)")
@@ -322,7 +322,7 @@ def gate_cmd(
     try:
         check_level(header, baseline, run.level)
         with interruptible(), progress() as tick:
-            report = run.report(paths, tick)
+            report = run.report(paths, tick, plans=False)  # the gate compares no plan
             verdict = gate(report, screen_namer(paths), baseline, _replace(run.config.gate, **overrides), run.level,
                            one_root=len(paths) == 1, version=header["version"])
     except InputError as exc:

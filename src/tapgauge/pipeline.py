@@ -45,6 +45,7 @@ class Settings:
     scoring: Scoring = Scoring()
     waivers: Waivers = Waivers()
     document_only: bool = False  # hand back only each screen's JSON report text: all the JSON writers need
+    plans: bool = True  # make fix plans, the dearest stage: the baseline and the gate read none
 
 
 @dataclass(frozen=True)
@@ -68,13 +69,16 @@ def check_file(path: Path, settings: Settings) -> list[ScreenResult]:
 
 
 def check_one_screen(screen: Screen, device: Device, settings: Settings) -> ScreenResult:
-    """One screen's stages after reading: measure, check, score, plan (the plan re-checks in memory)."""
+    """One screen's stages after reading: measure, check, score, plan (the plan re-checks in memory; without
+    `settings.plans`, the targets have no plan)."""
     rulesets = list(settings.rulesets)
     near = reach(rulesets, device)  # one pair search per screen, as wide as the rules look
     measured = measure(screen, device, settings.measure, near)
     # The JSON report holds no sentences: a run that writes only it makes none.
     words = not settings.document_only
     scored = settings.scoring.apply(check_screen(measured, rulesets, settings.announce_skips, words))
+    if not settings.plans:
+        return scored
 
     def recheck(trial: Screen, part: Callable[[MeasuredScreen], MeasuredScreen]) -> tuple[MeasuredScreen, set[tuple[int, str]]]:
         again = measure(trial, device, settings.measure, near)
