@@ -10,8 +10,8 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-
 from conftest import DEMO
+
 from tapgauge import pipeline
 from tapgauge.batch import Run
 from tapgauge.cli import main
