@@ -234,6 +234,30 @@ def test_a_run_with_workers_leaves_the_collector_as_it_found_it(tmp_path: Path) 
     assert any(o is mine for o in gc.get_objects())  # (and gc.get_objects does list it once unfrozen)
 
 
+def _collector_state(path: Path, settings: Settings) -> list[bool]:
+    """A worker's `work`: whether its garbage collector runs (module level, so that a pool can call it)."""
+    import gc
+
+    return [gc.isenabled()]
+
+
+def test_workers_collect_though_they_fork_while_the_parent_pauses_its_collector(tmp_path: Path) -> None:
+    """The gate pauses the main process's collector over its comparison (heap.collector_paused), and its
+    workers fork inside that pause: they turn theirs back on (a forked child inherits the parent's
+    collector state), and the caller gets its own back when the pause ends."""
+    import gc
+
+    from tapgauge.heap import collector_paused
+
+    shutil.copytree(DEMO, tmp_path / "demo")
+    settings_ = Settings(tuple(select_rulesets(list(DEFAULT_RULESETS))))
+    with collector_paused():
+        assert not gc.isenabled()
+        states = list(iter_results([tmp_path / "demo"], settings_, 2, work=_collector_state))
+    assert gc.isenabled()
+    assert len(states) > 2 and all(states)
+
+
 def test_the_receiving_process_maps_large_blocks_and_starts_without_mallopt(monkeypatch: pytest.MonkeyPatch) -> None:
     """The tapgauge process fixes glibc's mmap threshold at 64 KiB, so the pieces a worker's results
     arrive in (64 KiB of data and a bytes object's header) are mapped and returned whole. The GNU C
