@@ -3,7 +3,8 @@
 The gate trusts nothing it reads from a baseline file (a person may have edited it, a copy may be
 cut short). These cases pin what the checker of one target entry says for each field the gate
 reads; the gate turns a non-empty answer into an input error (tests/test_hostile.py fuzzes whole
-files). Numbers are JSON numbers (RFC 8259, section 6); true and false are not numbers (section 3).
+files). Numbers are JSON numbers (RFC 8259, section 6); true and false are literal names, not numbers
+(section 3; both from memory).
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ SOUND: dict[str, Any] = {
     "difficulty": {"adult": {"time_ms": 512.3, "miss": 0.04}, "tremor": {"time_ms": 830, "miss": None}},
     "approach": {"distance": 412.0, "width": 36.5},
 }
+_DROP = object()  # _with: remove the field instead of setting it
 
 
 def _with(path: tuple[str, ...], value: Any) -> dict[str, Any]:
@@ -35,7 +37,6 @@ def _with(path: tuple[str, ...], value: Any) -> dict[str, Any]:
     return t
 
 
-_DROP = object()
 LACKS = "lacks key, status, failing, size or difficulty"
 TEXT = "has a key, status or name that is not text"
 FAILING = "has 'failing' that is not a list of rule ids"

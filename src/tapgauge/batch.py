@@ -151,9 +151,7 @@ class Run:
         """The run's report; with `document_only` its screens are the JSON report's text and nothing else
         (for the JSON writers when no overlay is drawn), made in the workers; without `plans`, no target has a
         fix plan (for the baseline and the gate, which read none)."""
-        settings = replace(self.settings, plans=plans)
-        if document_only:
-            settings = replace(settings, document_only=True)
+        settings = replace(self.settings, document_only=document_only or self.settings.document_only, plans=plans)
         items = iter_results(paths, settings, self.jobs, tick, work=record_one)
         return Report(items, list(self.settings.rulesets), self.level, list(self.settings.scoring.profiles),
                       self.settings.waivers, on_error=print_input_error)

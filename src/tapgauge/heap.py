@@ -82,7 +82,7 @@ def collector_paused() -> Iterator[None]:
     Per file in a worker: pausing it checks a 10,000-target screen 30% faster and changes nothing on
     small ones (bench/run_bench.py). Over a gate's comparison in the main process, which keeps every
     change it finds until the end: a gate of 1,000 screens with 50,000 changes went from 8.1 to 5.6 s
-    (bench/bench_gate.py's next build).
+    (bench/bench_gate.py's two corpora, old and new code side by side).
     Anything cyclic is collected once it runs again; workers forked inside it collect as usual
     (keep_freed_memory)."""
     was_enabled = gc.isenabled()
